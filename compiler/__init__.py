@@ -1,0 +1,42 @@
+"""fluxloom.compiler: spec text -> AST -> checked -> Scheme IR -> analysis and kernels."""
+from __future__ import annotations
+
+from pathlib import Path
+
+from .check import check, check_scheme_name
+from .diagnostics import LoomError, Span
+from .ir import Scheme, apply_overrides, lower, parse_override
+from .parse import parse_text, read_spec_text
+
+__all__ = ["LoomError", "Scheme", "Span", "load_scheme", "scheme_from_text", "parse_overrides"]
+
+
+def scheme_from_text(text: str, file: str = "<spec>", overrides=None) -> Scheme:
+    """Spec text -> Scheme IR, raising LoomError (with location) on bad input."""
+    try:
+        check_scheme_name(text)
+        spec = parse_text(text, file)
+        check(spec)
+        scheme = lower(spec)
+    except LoomError as err:
+        raise err.located(file, text) from None
+    except RecursionError:
+        raise LoomError("expression nested too deeply", Span(1, 1)).located(file, text) from None
+    return apply_overrides(scheme, dict(overrides or {}))
+
+
+def load_scheme(path: str | Path, overrides=None) -> Scheme:
+    """Read and compile one .loom file."""
+    return scheme_from_text(read_spec_text(path), str(path), overrides)
+
+
+def parse_overrides(items) -> dict:
+    """['kappa=1/3', ...] -> {'kappa': Rational(1, 3)} (single values only)."""
+    out = {}
+    for item in items or ():
+        name, values = parse_override(item)
+        if len(values) != 1:
+            raise LoomError(f"--set {name}: give one value here (lists are for 'compare')",
+                            file="--set")
+        out[name] = values[0]
+    return out

@@ -1,0 +1,234 @@
+"""Semantic checks on the AST: names, arity, allowed symbols, statement counts.
+
+Runs before lowering so that every mistake is reported against the user's own
+text. Raises LoomError on the first problem found, in source order.
+"""
+from __future__ import annotations
+
+import re
+
+from . import syntax as ast
+from .diagnostics import LoomError, Span, did_you_mean
+
+TIME_METHODS = ("euler", "ssp_rk2", "ssp_rk3", "rk4")
+CORRECTIONS = ("fct",)
+
+# name -> (least, most) number of arguments; None means no upper bound.
+BUILTINS = {
+    "abs": (1, 1), "sign": (1, 1), "sqrt": (1, 1),
+    "min": (2, None), "max": (2, None), "ratio": (2, 2),
+}
+RESERVED = {"q", "u", "c"} | set(BUILTINS)
+
+C_KEYWORDS = frozenset("""
+auto break case char const continue default do double else enum extern float for
+goto if inline int long register restrict return short signed sizeof static struct
+switch typedef union unsigned void volatile while _Bool _Complex _Imaginary
+""".split())
+
+_C_IDENTIFIER = re.compile(r"^[A-Za-z_][A-Za-z0-9_]*$")
+_SCHEME_HEAD = re.compile(r"^[ \t]*scheme[ \t]+([^ \t{\n]+)", re.MULTILINE)
+
+ONCE = {ast.About: "about", ast.Time: "time", ast.Correct: "correct", ast.Clip: "clip"}
+
+
+def check_scheme_name(text: str) -> None:
+    """Catch a scheme name that is not a C identifier before the parser trips on it."""
+    match = _SCHEME_HEAD.search(text)
+    if match and not _C_IDENTIFIER.match(match.group(1)):
+        line = text.count("\n", 0, match.start(1)) + 1
+        col = match.start(1) - (text.rfind("\n", 0, match.start(1)) + 1) + 1
+        raise LoomError(
+            f"scheme name '{match.group(1)}' is not a C identifier "
+            "(letters, digits and '_', not starting with a digit)",
+            Span(line, col, line, col + len(match.group(1))))
+
+
+class _Scope:
+    """What a name means at one point of the spec."""
+
+    def __init__(self):
+        self.params: dict[str, ast.Param] = {}
+        self.lets: dict[str, ast.Let] = {}
+        self.limiters: dict[str, ast.LimiterDef] = {}
+
+    def defined(self) -> dict[str, Span]:
+        return {**{k: v.name.span for k, v in self.params.items()},
+                **{k: v.name.span for k, v in self.lets.items()},
+                **{k: v.name.span for k, v in self.limiters.items()}}
+
+
+def check(spec: ast.Spec) -> None:
+    """Raise LoomError for the first semantic problem in spec."""
+    name = spec.name
+    if name.id in C_KEYWORDS:
+        raise LoomError(f"scheme name '{name.id}' is a C keyword; the kernel is named after it",
+                        name.span)
+    if not _C_IDENTIFIER.match(name.id):
+        raise LoomError(f"scheme name '{name.id}' is not a C identifier", name.span)
+
+    seen: dict[str, ast.Statement] = {}
+    time_method = "euler"
+    for stmt in spec.statements:
+        key = ONCE.get(type(stmt)) or (stmt.kind if isinstance(stmt, ast.Flux) else None)
+        if key:
+            if key in seen:
+                raise LoomError(f"'{key}' is given twice (first on line {seen[key].span.line})",
+                                stmt.span)
+            seen[key] = stmt
+        if isinstance(stmt, ast.Time):
+            time_method = stmt.method.id
+            if time_method not in TIME_METHODS:
+                raise LoomError(f"unknown time method '{time_method}'"
+                                f"{did_you_mean(time_method, TIME_METHODS)}; "
+                                f"choose one of {', '.join(TIME_METHODS)}", stmt.method.span)
+        if isinstance(stmt, ast.Correct) and stmt.method.id not in CORRECTIONS:
+            raise LoomError(f"unknown correction '{stmt.method.id}'"
+                            f"{did_you_mean(stmt.method.id, CORRECTIONS)}; "
+                            f"choose one of {', '.join(CORRECTIONS)}", stmt.method.span)
+
+    if "flux" not in seen:
+        raise LoomError("the scheme has no 'flux = ...' statement; exactly one is required",
+                        name.span)
+    if "correct" in seen:
+        if time_method != "euler":
+            raise LoomError("'correct fct' needs 'time euler': the correction works on one "
+                            "forward-Euler step", seen["correct"].span)
+        if "low_flux" not in seen:
+            raise LoomError("'correct fct' needs a monotone 'low_flux = ...' to correct from",
+                            seen["correct"].span)
+
+    scope = _Scope()
+    for stmt in spec.statements:
+        if isinstance(stmt, (ast.Param, ast.Let, ast.LimiterDef)):
+            _define(scope, stmt)
+        if isinstance(stmt, ast.Param):
+            _check_expr(stmt.value, scope, "param", time_method)
+            scope.params[stmt.name.id] = stmt
+        elif isinstance(stmt, ast.Let):
+            _check_expr(stmt.value, scope, "let", time_method)
+            scope.lets[stmt.name.id] = stmt
+        elif isinstance(stmt, ast.LimiterDef):
+            if len(stmt.args) != 1:
+                raise LoomError(f"a limiter takes exactly one argument (its ratio r); "
+                                f"'{stmt.name.id}' has {len(stmt.args)}", stmt.name.span)
+            arg = stmt.args[0]
+            if arg.id in RESERVED:
+                raise LoomError(f"'{arg.id}' cannot name a limiter's argument", arg.span)
+            _check_expr(stmt.body, scope, "limiter", time_method, arg=arg.id)
+            scope.limiters[stmt.name.id] = stmt
+        elif isinstance(stmt, ast.Flux):
+            _check_expr(stmt.value, scope, stmt.kind, time_method)
+        elif isinstance(stmt, ast.Clip):
+            _check_expr(stmt.low, scope, "clip", time_method)
+            _check_expr(stmt.high, scope, "clip", time_method)
+
+
+def _define(scope: _Scope, stmt) -> None:
+    name = stmt.name
+    if name.id in RESERVED:
+        raise LoomError(f"'{name.id}' is a built-in name and cannot be redefined", name.span)
+    earlier = scope.defined().get(name.id)
+    if earlier is not None:
+        raise LoomError(f"'{name.id}' is defined twice (first on line {earlier.line})", name.span)
+
+
+def _check_expr(expr: ast.Expr, scope: _Scope, where: str, time_method: str,
+                arg: str | None = None) -> None:
+    constant = where in ("param", "clip")
+    if isinstance(expr, ast.Number):
+        return
+    if isinstance(expr, (ast.Unary,)):
+        return _check_expr(expr.operand, scope, where, time_method, arg)
+    if isinstance(expr, ast.Binary):
+        _check_expr(expr.left, scope, where, time_method, arg)
+        _check_expr(expr.right, scope, where, time_method, arg)
+        return
+    if isinstance(expr, ast.Index):
+        base = expr.base
+        if base.id != "q":
+            raise LoomError(f"only 'q' can be indexed; '{base.id}[...]' is not allowed", base.span)
+        if constant or where == "limiter":
+            raise LoomError(f"'q[...]' is not allowed in a {where}", expr.span)
+        if integer_offset(expr.offset) is None:
+            raise LoomError("the offset in q[...] must be an integer such as 0, 1 or -1",
+                            _span_of(expr.offset))
+        return
+    if isinstance(expr, ast.Name):
+        return _check_name(expr, scope, where, time_method, arg)
+    if isinstance(expr, ast.Call):
+        func = expr.func
+        for a in expr.args:
+            _check_expr(a, scope, where, time_method, arg)
+        if func.id in BUILTINS:
+            least, most = BUILTINS[func.id]
+            n = len(expr.args)
+            if n < least or (most is not None and n > most):
+                want = (f"{least}" if least == most else
+                        f"at least {least}" if most is None else f"{least} to {most}")
+                raise LoomError(f"'{func.id}' takes {want} argument{'s' if want != '1' else ''}, "
+                                f"given {n}", func.span)
+            return
+        if func.id in scope.limiters:
+            if where == "limiter":
+                raise LoomError("a limiter cannot call another limiter", func.span)
+            if len(expr.args) != 1:
+                raise LoomError(f"limiter '{func.id}' takes 1 argument, given {len(expr.args)}",
+                                func.span)
+            return
+        if func.id in scope.defined() or func.id in RESERVED:
+            raise LoomError(f"'{func.id}' is not a function", func.span)
+        known = list(BUILTINS) + list(scope.limiters)
+        raise LoomError(f"unknown function '{func.id}'{did_you_mean(func.id, known)}", func.span)
+    raise AssertionError(f"unhandled node {type(expr).__name__}")  # a fluxloom bug
+
+
+def _check_name(expr: ast.Name, scope: _Scope, where: str, time_method: str,
+                arg: str | None) -> None:
+    name = expr.id
+    constant = where in ("param", "clip")
+    if where == "limiter":
+        if name == arg or name in scope.params:
+            return
+        if name in ("q", "u", "c") or name in scope.lets:
+            raise LoomError(f"a limiter is a function of its argument '{arg}' only; "
+                            f"'{name}' is not allowed here", expr.span)
+    elif constant:
+        if name in scope.params:
+            return
+        if name in ("q", "u", "c") or name in scope.lets:
+            raise LoomError(f"a {where} value must be a constant; '{name}' is not", expr.span)
+    else:
+        if name == "q":
+            raise LoomError("'q' needs an offset: write q[0], q[1], q[-1], ...", expr.span)
+        if name == "u":
+            return
+        if name == "c":
+            if time_method != "euler":
+                raise LoomError(f"'c' (the Courant number) is only defined for 'time euler'; "
+                                f"a '{time_method}' scheme is a method of lines whose flux "
+                                "cannot depend on the time step", expr.span)
+            return
+        if name in scope.params or name in scope.lets:
+            return
+    if name in scope.limiters or name in BUILTINS:
+        raise LoomError(f"'{name}' is a function; call it with arguments", expr.span)
+    known = list(scope.params) + ([arg] if arg else [])
+    if where not in ("limiter",) and not constant:
+        known += list(scope.lets) + ["u", "c"]
+    raise LoomError(f"unknown name '{name}'{did_you_mean(name, known)}", expr.span)
+
+
+def integer_offset(expr: ast.Expr) -> int | None:
+    """The integer value of a q[...] offset, or None if it is not an integer literal."""
+    sign = 1
+    while isinstance(expr, ast.Unary):
+        sign = -sign if expr.op == "-" else sign
+        expr = expr.operand
+    if isinstance(expr, ast.Number) and re.fullmatch(r"\d+", expr.text):
+        return sign * int(expr.text)
+    return None
+
+
+def _span_of(expr: ast.Expr) -> Span:
+    return expr.span

@@ -1,0 +1,1 @@
+"""fluxloom.runtime: build and run generated kernels, measure them, and the command line."""
