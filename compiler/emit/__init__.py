@@ -1,0 +1,1 @@
+"""Emitters: Scheme IR -> source text (C99 + header + Fortran interface, numpy)."""
