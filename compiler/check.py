@@ -47,7 +47,8 @@ def check_scheme_name(text: str) -> None:
 class _Scope:
     """What a name means at one point of the spec."""
 
-    def __init__(self):
+    def __init__(self, everywhere: dict[str, int] | None = None):
+        self.everywhere = everywhere or {}  # every name the spec defines -> its line
         self.params: dict[str, ast.Param] = {}
         self.lets: dict[str, ast.Let] = {}
         self.limiters: dict[str, ast.LimiterDef] = {}
@@ -98,7 +99,8 @@ def check(spec: ast.Spec) -> None:
             raise LoomError("'correct fct' needs a monotone 'low_flux = ...' to correct from",
                             seen["correct"].span)
 
-    scope = _Scope()
+    scope = _Scope({s.name.id: s.name.span.line for s in spec.statements
+                    if isinstance(s, (ast.Param, ast.Let, ast.LimiterDef))})
     for stmt in spec.statements:
         if isinstance(stmt, (ast.Param, ast.Let, ast.LimiterDef)):
             _define(scope, stmt)
@@ -213,9 +215,13 @@ def _check_name(expr: ast.Name, scope: _Scope, where: str, time_method: str,
             return
     if name in scope.limiters or name in BUILTINS:
         raise LoomError(f"'{name}' is a function; call it with arguments", expr.span)
+    later = scope.everywhere.get(name)
+    if later is not None and later >= expr.span.line and name not in scope.defined():
+        raise LoomError(f"'{name}' is used before it is defined (on line {later}); "
+                        "define names above the statements that use them", expr.span)
     known = list(scope.params) + ([arg] if arg else [])
     if where not in ("limiter",) and not constant:
-        known += list(scope.lets) + ["u", "c"]
+        known += list(scope.lets) + ["u", "c"] + list(scope.everywhere)
     raise LoomError(f"unknown name '{name}'{did_you_mean(name, known)}", expr.span)
 
 

@@ -137,6 +137,9 @@ def _syntax_error(err: lark.exceptions.UnexpectedInput, text: str) -> LoomError:
                 span = Span(tok.line, len(line.rstrip()) + 1)
         if "RPAR" in expected and tok.type in ("_NL", "$END", "RBRACE", "RSQB"):
             return LoomError("unbalanced parenthesis: '(' is never closed", span)
+        if tok.type == "RPAR" and expected & {"NAME", "NUMBER"}:
+            return LoomError("expected an argument before ')': empty parentheses are not allowed",
+                             span)
         if tok.type == "RPAR":
             return LoomError("unbalanced parenthesis: ')' has no matching '('", span)
         if "RSQB" in expected and tok.type in ("_NL", "$END"):
@@ -147,6 +150,10 @@ def _syntax_error(err: lark.exceptions.UnexpectedInput, text: str) -> LoomError:
             return LoomError("unexpected end of file", span)
         if tok.type == "LBRACE" or (tok.type == "_NL" and "LBRACE" in expected):
             return LoomError("expected 'scheme NAME {' with the name and '{' on one line", span)
+        operators = {"PLUS", "MINUS", "STAR", "SLASH", "CIRCUMFLEX"}
+        if tok.type in ("NAME", "NUMBER", "LPAR") and operators <= expected:
+            return LoomError(f"unexpected {_describe(tok)}: is an operator (+ - * / ^) missing "
+                             "before it?", span)
         if expected == {"_NL"} or (tok.type != "_NL" and "_NL" in expected and len(expected) <= 3):
             return LoomError(f"unexpected {_describe(tok)}: one statement per line", span)
         want = ", ".join(sorted(TOKEN_WORDS.get(e, repr(e.lower())) for e in expected))
