@@ -1,0 +1,154 @@
+"""Back-end neutral lowering of a Scheme into what a kernel computes.
+
+Every emitter (C, numpy) renders the same plan, so the kernels agree by
+construction: the same common subexpressions, in the same order, the same
+halo widths, the same stage updates.
+
+Face programs. A face expression `g` (flux = u * g) becomes a list of
+temporaries found by sympy.cse plus a result, in a deterministic order. The
+symbols it reads are q(k) (symbols.q), c (symbols.C), params (as symbols; the
+back end prints them as named constants) and limiter calls.
+
+Zero velocity. Where u == 0 the flux is 0. When c appears in a denominator
+(Lax-Friedrichs has 1/c), the program is evaluated with c replaced by 1 where
+c == 0 (`guard_c`), so the finite g times u == 0 gives exactly 0.
+
+FCT (`correct fct`, Zalesak 1979). For the interior faces 0..n the corrected
+flux needs the limiter factors R+/R- of cells -1..n, which need the
+antidiffusive flux A = F_high - F_low on faces -1..n+1 and the low-order
+solution on cells -2..n+1, which needs F_low on faces -2..n+2. So an FCT
+kernel reads FCT_EXTRA_FACES = 2 extra face velocities on each side
+(`face_halo`), and more ghost cells (`kernel_halo`).
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import sympy
+
+from ..ir import Scheme
+from ..symbols import C, R, limiter_calls, offsets_in
+from ..timestep import StageUpdate, stage_updates, uses_accumulator
+
+FCT_EXTRA_FACES = 2
+"""Extra face velocities (and faces) per side an FCT step evaluates."""
+
+
+@dataclass(frozen=True)
+class FaceProgram:
+    """g as ordered temporaries and a result; evaluate top to bottom."""
+
+    offsets: tuple[int, ...]
+    temporaries: tuple[tuple[sympy.Symbol, sympy.Expr], ...]
+    result: sympy.Expr
+    uses_c: bool
+    guard_c: bool
+
+
+@dataclass(frozen=True)
+class LimiterProgram:
+    name: str
+    program: FaceProgram  # in symbols.R
+
+
+@dataclass(frozen=True)
+class KernelPlan:
+    name: str
+    about: str
+    time: str
+    halo: int
+    face_halo: int
+    stages: int
+    params: tuple[tuple[str, sympy.Expr], ...]
+    flux: FaceProgram
+    low_flux: FaceProgram | None
+    fct: bool
+    clip: tuple[sympy.Expr, sympy.Expr] | None
+    limiters: tuple[LimiterProgram, ...]
+    stage_updates: tuple[StageUpdate, ...]
+    accumulator: bool
+
+    @property
+    def offsets(self) -> tuple[int, ...]:
+        found = set(self.flux.offsets)
+        if self.low_flux is not None:
+            found |= set(self.low_flux.offsets)
+        return tuple(sorted(found))
+
+
+def reach(offsets) -> int:
+    """Ghost cells per side for both faces of every interior cell.
+
+    Face j+1/2 reads cell j+k (u >= 0) or j+1-k (u < 0) for offset k.
+    """
+    return max((max(abs(k), abs(k - 1)) for k in offsets), default=1)
+
+
+def kernel_halo(scheme: Scheme) -> int:
+    """Ghost cells per side the caller fills."""
+    if scheme.correct == "fct":
+        low = reach(offsets_in(scheme.low_face))
+        high = reach(offsets_in(scheme.face))
+        return max(low + FCT_EXTRA_FACES, high + FCT_EXTRA_FACES - 1, 2)
+    return scheme.halo
+
+
+def face_halo(scheme: Scheme) -> int:
+    """Extra face velocities per side beyond the n + 1 interior faces."""
+    return FCT_EXTRA_FACES if scheme.correct == "fct" else 0
+
+
+def c_in_denominator(expr: sympy.Expr) -> bool:
+    """True when c sits under a negative power (g would divide by zero at c == 0)."""
+    for node in sympy.preorder_traversal(expr):
+        if isinstance(node, sympy.Pow) and C in node.base.free_symbols:
+            if not (node.exp.is_integer and node.exp.is_nonnegative):
+                return True
+    return False
+
+
+def face_program(expr: sympy.Expr, prefix: str = "t") -> FaceProgram:
+    """Common subexpressions of expr as numbered temporaries (deterministic)."""
+    names = sympy.numbered_symbols(prefix, real=True)
+    temporaries, (result,) = sympy.cse([expr], symbols=names, order="canonical")
+    return FaceProgram(
+        offsets=offsets_in(expr),
+        temporaries=tuple(temporaries),
+        result=result,
+        uses_c=C in expr.free_symbols,
+        guard_c=c_in_denominator(expr),
+    )
+
+
+def limiters_used(scheme: Scheme) -> tuple[str, ...]:
+    exprs = [scheme.face] + ([scheme.low_face] if scheme.low_face is not None else [])
+    used = {type(call).__name__ for e in exprs for call in limiter_calls(e, scheme.limiter_names)}
+    return tuple(name for name in scheme.limiter_names if name in used)
+
+
+def plan_kernel(scheme: Scheme) -> KernelPlan:
+    """The plan every back end renders for scheme."""
+    fct = scheme.correct == "fct"
+    updates = stage_updates(scheme.time)
+    limiters = tuple(LimiterProgram(name, face_program(scheme.limiter(name).body, "s"))
+                     for name in limiters_used(scheme))
+    low = face_program(scheme.low_face) if scheme.low_face is not None else None
+    program = face_program(scheme.face)
+    if R in program.result.free_symbols:
+        raise AssertionError("limiter argument symbol leaked into a face expression")
+    return KernelPlan(
+        name=scheme.name,
+        about=scheme.about,
+        time=scheme.time,
+        halo=kernel_halo(scheme),
+        face_halo=face_halo(scheme),
+        stages=len(updates),
+        params=tuple((p.name, p.value) for p in scheme.params),
+        flux=program,
+        low_flux=low if fct else None,
+        fct=fct,
+        clip=scheme.clip,
+        limiters=limiters,
+        stage_updates=updates,
+        accumulator=uses_accumulator(scheme.time),
+    )
