@@ -1,0 +1,324 @@
+"""Measure a kernel on a periodic domain: convergence, boundedness, total variation,
+conservation and stability.
+
+Everything here measures; nothing here predicts. runtime/findings.py holds each
+measurement against the analysis. A run that blows up (NaN, Inf, or growth past
+DIVERGENCE_FACTOR times the initial maximum) stops at that step and says so.
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from typing import Callable
+
+import numpy as np
+
+from .norms import NORMS, Errors, errors, fitted_order, pair_orders
+from .profiles import Profile, face_positions
+
+DIVERGENCE_FACTOR = 1e6
+CONVERGENCE_CELLS = tuple(25 * 2 ** k for k in range(6))  # 25 .. 800
+
+
+# ---- stepping ----------------------------------------------------------------
+
+def fill_periodic(q: np.ndarray, halo: int) -> None:
+    """Copy the interior's ends into the ghost cells on the other side."""
+    if halo:
+        q[:halo] = q[-2 * halo:-halo]
+        q[-halo:] = q[halo:2 * halo]
+
+
+@dataclass(frozen=True)
+class Run:
+    q: np.ndarray              # interior after the last completed step
+    steps: int                 # steps completed
+    diverged_at: int | None    # the step that produced NaN, Inf or growth past the limit
+
+
+def constant_velocity(n: int, velocity: float) -> np.ndarray:
+    return np.full(n + 1, float(velocity))
+
+
+def varying_velocity(n: int) -> np.ndarray:
+    """A smooth periodic face velocity that changes sign twice: 1/2 + sin(2 pi x)."""
+    return 0.5 + np.sin(2 * np.pi * face_positions(n))
+
+
+def advance(kernel, q0: np.ndarray, u_face: np.ndarray, dt_dx: float, steps: int,
+            watch: Callable[[int, np.ndarray], None] | None = None) -> Run:
+    """Step q0 `steps` times on a periodic domain; `watch(step, q)` sees every new state."""
+    halo, n = kernel.halo, q0.size
+    current = np.zeros(n + 2 * halo, dtype=kernel.dtype)
+    current[halo:halo + n] = q0
+    spare = np.zeros_like(current)
+    u_face = np.ascontiguousarray(u_face, dtype=kernel.dtype)
+    limit = DIVERGENCE_FACTOR * max(float(np.max(np.abs(q0))), np.finfo(float).tiny)
+    with np.errstate(all="ignore"):  # overflow is a finding, reported below
+        for step in range(1, steps + 1):
+            fill_periodic(current, halo)
+            kernel.step(current, u_face, dt_dx, out=spare)
+            interior = spare[halo:halo + n]
+            if not float(np.max(np.abs(interior))) <= limit:  # also catches NaN
+                return Run(current[halo:halo + n].astype(float), step - 1, step)
+            if watch is not None:
+                watch(step, interior)
+            current, spare = spare, current
+    return Run(current[halo:halo + n].astype(float), steps, None)
+
+
+def round_off(kernel) -> float:
+    return float(np.finfo(kernel.dtype).eps)
+
+
+# ---- convergence ---------------------------------------------------------------
+
+@dataclass(frozen=True)
+class ConvergenceRow:
+    profile: str
+    n: int
+    steps: int
+    courant: float
+    errors: Errors | None      # None when the run diverged
+    diverged_at: int | None
+
+
+@dataclass(frozen=True)
+class Convergence:
+    profile: str
+    rows: tuple[ConvergenceRow, ...]
+    pair_orders: dict[str, list[float]]   # per norm, one per successive pair of grids
+    fitted: dict[str, float]              # per norm, least-squares slope
+
+    @property
+    def finest_order(self) -> dict[str, float]:
+        return {norm: (orders[-1] if orders else float("nan"))
+                for norm, orders in self.pair_orders.items()}
+
+    @property
+    def diverged(self) -> list[ConvergenceRow]:
+        return [row for row in self.rows if row.diverged_at is not None]
+
+
+def revolution_steps(n: int, courant: float) -> int:
+    """Steps for one full revolution at (as nearly as an integer count allows) Courant `courant`."""
+    return max(1, math.ceil(n / courant - 1e-9))
+
+
+def convergence(kernel, profile: Profile, courant: float, velocity: float = 1.0,
+                cells=CONVERGENCE_CELLS) -> Convergence:
+    """Carry `profile` once round the domain on each grid and compare with the exact solution."""
+    rows = []
+    for n in cells:
+        steps = revolution_steps(n, courant)
+        dt_dx = n / steps / abs(velocity)       # velocity * steps * dt_dx / n = one period
+        q0 = profile.cell_averages(n)
+        run = advance(kernel, q0, constant_velocity(n, velocity), dt_dx, steps)
+        if run.diverged_at is None:
+            exact = profile.cell_averages(n, shift=velocity * steps * dt_dx / n)
+            errs = errors(run.q, exact)
+        else:
+            errs = None
+        rows.append(ConvergenceRow(profile.name, n, steps, n / steps, errs, run.diverged_at))
+    ns = [row.n for row in rows]
+    per_norm = {norm: [row.errors.get(norm) if row.errors else float("nan") for row in rows]
+                for norm in NORMS}
+    return Convergence(profile.name, tuple(rows),
+                       {norm: pair_orders(ns, e) for norm, e in per_norm.items()},
+                       {norm: fitted_order(ns, e) for norm, e in per_norm.items()})
+
+
+# ---- shape: bounds, extrema, total variation --------------------------------------
+
+def total_variation(q: np.ndarray) -> float:
+    """Periodic total variation."""
+    return float(np.abs(np.diff(q, append=q[:1])).sum())
+
+
+def outside_local_range(old: np.ndarray, new: np.ndarray, reach: int, tol: float) -> int:
+    """Cells whose new value leaves the range of the old values within `reach` cells.
+
+    A step creates a new extremum where it does this: the value cannot have come
+    from any mix of the cells the step could read (a local maximum principle)."""
+    padded = np.concatenate([old[-reach:], old, old[:reach]]) if reach else old
+    windows = np.lib.stride_tricks.sliding_window_view(padded, 2 * reach + 1)
+    above = new > windows.max(axis=1) + tol
+    below = new < windows.min(axis=1) - tol
+    return int(np.count_nonzero(above | below))
+
+
+class _ShapeWatch:
+    """Follows bounds, new extrema and total variation step by step."""
+
+    def __init__(self, q0: np.ndarray, eps: float, reach: int):
+        scale = max(float(np.max(np.abs(q0))), 1e-300)
+        self.tol = 1e3 * eps * scale
+        self.reach = reach
+        self.previous = q0.astype(float)
+        self.low, self.high = float(q0.min()), float(q0.max())
+        self.seen_low, self.seen_high = self.low, self.high
+        self.tv0 = self.tv = total_variation(q0)
+        self.tv_tol = 1e3 * eps * max(self.tv0, scale)
+        self.first_out = self.first_extremum = self.first_tv = None
+        self.new_extrema = self.tv_steps = 0
+        self.tv_increase = 0.0
+
+    def __call__(self, step: int, q: np.ndarray) -> None:
+        low, high = float(q.min()), float(q.max())
+        self.seen_low, self.seen_high = min(self.seen_low, low), max(self.seen_high, high)
+        if self.first_out is None and (low < self.low - self.tol or high > self.high + self.tol):
+            self.first_out = step
+        created = outside_local_range(self.previous, q, self.reach, self.tol)
+        if created and self.first_extremum is None:
+            self.first_extremum = step
+        self.new_extrema = max(self.new_extrema, created)
+        self.previous = q.astype(float)
+        tv = total_variation(q)
+        if tv > self.tv + self.tv_tol:
+            self.tv_steps += 1
+            self.tv_increase = max(self.tv_increase, (tv - self.tv) / max(self.tv0, 1e-300))
+            if self.first_tv is None:
+                self.first_tv = step
+        self.tv = tv
+
+
+def shape(kernel, profile: Profile, courant: float, velocity: float = 1.0, n: int = 100,
+          steps: int | None = None) -> Shape:
+    """Carry a (typically discontinuous) profile and watch its shape every step."""
+    steps = revolution_steps(n, courant) if steps is None else steps
+    q0 = profile.cell_averages(n)
+    watch = _ShapeWatch(q0, round_off(kernel), kernel.halo)
+    run = advance(kernel, q0, constant_velocity(n, velocity), courant / abs(velocity),
+                  steps, watch)
+    return Shape(profile.name, n, run.steps, courant, velocity, (watch.low, watch.high),
+                 (watch.seen_low, watch.seen_high),
+                 watch.first_out is None, watch.first_out,
+                 watch.new_extrema, watch.first_extremum,
+                 watch.tv_steps, watch.tv_increase, watch.first_tv,
+                 relative_drift(q0, run.q), run.diverged_at, run.q)
+
+
+# ---- conservation ------------------------------------------------------------------
+
+def relative_drift(q0: np.ndarray, q: np.ndarray) -> float:
+    """Change of the total relative to the total amount of |q| present."""
+    scale = max(float(np.abs(q0).sum()), float(np.abs(q).sum()), 1e-300)
+    return float(abs(q.sum() - q0.sum()) / scale)
+
+
+@dataclass(frozen=True)
+class Conservation:
+    velocity: str          # "+1", "-1" or "varying"
+    profile: str
+    n: int
+    steps: int
+    mass_drift: float
+    diverged_at: int | None
+
+
+def conservation(kernel, profile: Profile, courant: float, velocity: str = "varying",
+                 n: int = 100, steps: int = 200) -> Conservation:
+    """Relative drift of the total after `steps` steps; with "varying" the face velocity
+    changes along the domain and changes sign (Courant number `courant` at its peak)."""
+    u_face = varying_velocity(n) if velocity == "varying" else constant_velocity(n, float(velocity))
+    dt_dx = courant / float(np.max(np.abs(u_face)))
+    q0 = profile.cell_averages(n)
+    run = advance(kernel, q0, u_face, dt_dx, steps)
+    return Conservation(velocity, profile.name, n, run.steps, relative_drift(q0, run.q),
+                        run.diverged_at)
+
+
+# ---- symmetry under a change of velocity sign ---------------------------------------
+
+def mirror_mismatch(kernel, profile: Profile, courant: float, n: int = 64,
+                    steps: int = 40) -> float:
+    """Carry a profile right, and its mirror image left; the results should mirror.
+
+    Returns the largest difference relative to the profile's scale."""
+    q0 = profile.cell_averages(n)
+    right = advance(kernel, q0, constant_velocity(n, 1.0), courant, steps)
+    left = advance(kernel, q0[::-1].copy(), constant_velocity(n, -1.0), courant, steps)
+    if right.diverged_at is not None or left.diverged_at is not None:
+        return float("nan") if right.diverged_at != left.diverged_at else 0.0
+    return float(np.max(np.abs(right.q - left.q[::-1])) / max(np.max(np.abs(q0)), 1e-300))
+
+
+# ---- stability sweep ------------------------------------------------------------
+
+@dataclass(frozen=True)
+class Probe:
+    courant: float
+    growth: float            # l2 norm at the end over l2 norm half way (inf if diverged)
+    diverged_at: int | None
+    grows: bool
+
+
+@dataclass(frozen=True)
+class Stability:
+    probes: tuple[Probe, ...]
+    measured_max: float | None   # edge of the stable interval nearest 0; None if none found
+    unstable_everywhere: bool    # grew at every Courant number tried
+    stable_everywhere: bool      # grew at none of them
+    tried_max: float
+    resolution: float
+
+
+GROWTH_FACTOR = 2.0  # over the second half of a probe; stable linear schemes never grow at all
+
+
+def probe(kernel, courant: float, velocity: float = 1.0, n: int = 64, steps: int = 1000,
+          seed: int = 2024) -> Probe:
+    """Random zero-mean data, `steps` steps at `courant`: does the l2 norm keep growing?
+
+    The first half lets damped modes die out, so the second half sees the least
+    stable mode; one growing by a factor GROWTH_FACTOR (or a blow-up) means unstable."""
+    rng = np.random.default_rng(seed)
+    q0 = rng.standard_normal(n)
+    q0 -= q0.mean()
+    u_face = constant_velocity(n, velocity)
+    dt_dx = courant / abs(velocity)
+    half = advance(kernel, q0, u_face, dt_dx, steps // 2)
+    if half.diverged_at is not None:
+        return Probe(courant, math.inf, half.diverged_at, True)
+    rest = advance(kernel, half.q, u_face, dt_dx, steps - steps // 2)
+    if rest.diverged_at is not None:
+        return Probe(courant, math.inf, half.steps + rest.diverged_at, True)
+    before = float(np.linalg.norm(half.q))
+    after = float(np.linalg.norm(rest.q))
+    growth = after / before if before > 0 else (math.inf if after > 0 else 1.0)
+    return Probe(courant, growth, None, growth > GROWTH_FACTOR)
+
+
+def stability_sweep(kernel, velocity: float = 1.0, predicted_max: float | None = None,
+                    step: float = 0.25, resolution: float = 0.005, n: int = 64,
+                    steps: int = 1000) -> Stability:
+    """Walk up in Courant number until the scheme grows, then bisect the edge.
+
+    An unstable scheme is tried at every grid point, to show it grows at each one."""
+    top = max(1.5, 1.25 * predicted_max + 0.25) if predicted_max else 1.5
+    grid = [step * k for k in range(1, int(round(top / step)) + 1)]
+    probes = []
+    stable_below = None
+    first_unstable = None
+    for c in grid:
+        result = probe(kernel, c, velocity, n, steps)
+        probes.append(result)
+        if result.grows:
+            first_unstable = c
+            break
+        stable_below = c
+    if first_unstable is not None and stable_below is None:
+        for c in grid[1:]:
+            probes.append(probe(kernel, c, velocity, n, steps))
+        everywhere = all(p.grows for p in probes)
+        return Stability(tuple(probes), None, everywhere, False, grid[-1], resolution)
+    if first_unstable is None:
+        return Stability(tuple(probes), None, False, True, grid[-1], resolution)
+    low, high = stable_below, first_unstable
+    while high - low > resolution:
+        mid = (low + high) / 2
+        result = probe(kernel, mid, velocity, n, steps)
+        probes.append(result)
+        low, high = (low, mid) if result.grows else (mid, high)
+    return Stability(tuple(sorted(probes, key=lambda p: p.courant)), (low + high) / 2,
+                     False, False, grid[-1], resolution)
