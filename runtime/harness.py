@@ -147,6 +147,27 @@ def outside_local_range(old: np.ndarray, new: np.ndarray, reach: int, tol: float
     return int(np.count_nonzero(above | below))
 
 
+@dataclass(frozen=True)
+class Shape:
+    profile: str
+    n: int
+    steps: int
+    courant: float
+    velocity: float
+    initial_bounds: tuple[float, float]
+    seen_bounds: tuple[float, float]      # min and max over every step
+    bounded: bool                          # seen within the initial bounds (to round-off)
+    first_out_of_bounds: int | None
+    new_extrema: int                       # most cells in one step outside their local range
+    first_new_extremum: int | None
+    tv_growth_steps: int                   # steps in which total variation grew
+    tv_increase: float                     # largest one-step growth, relative to the initial TV
+    first_tv_growth: int | None
+    mass_drift: float
+    diverged_at: int | None
+    final: np.ndarray
+
+
 class _ShapeWatch:
     """Follows bounds, new extrema and total variation step by step."""
 
