@@ -1,0 +1,202 @@
+"""One kernel object for both back ends: `load_kernel(scheme, backend, precision)`.
+
+`Kernel.step(q, u_face, dt_dx, out=None)` mirrors the generated `NAME_step`:
+q holds n + 2*halo values (the caller fills the halos), u_face n + 1 face
+velocities, and only the interior of `out` is written. Arguments are checked
+before they reach generated code, with errors that say what was expected.
+"""
+from __future__ import annotations
+
+import linecache
+import math
+import threading
+import types
+
+import numpy as np
+
+from fluxloom.compiler import LoomError
+from fluxloom.compiler.emit.numpy_ import numpy_source
+from fluxloom.compiler.ir import Scheme
+
+BACKENDS = ("numpy", "c")
+DTYPES = {"double": np.dtype(np.float64), "float": np.dtype(np.float32)}
+C_TYPES = {"double": "double[]", "float": "float[]"}
+
+
+class KernelError(LoomError):
+    """A kernel called with arrays of the wrong type, shape or size."""
+
+    def __init__(self, message: str):
+        super().__init__(message, file="fluxloom kernel")
+
+
+# ---- numpy modules, generated once per scheme fingerprint and precision ------
+
+_MODULES: dict[tuple[str, str], types.ModuleType] = {}
+_MODULES_LOCK = threading.Lock()
+
+
+def numpy_module(scheme: Scheme, precision: str = "double") -> types.ModuleType:
+    """The generated numpy module, executed from its source once and cached."""
+    key = (scheme.fingerprint, precision)
+    with _MODULES_LOCK:
+        module = _MODULES.get(key)
+        if module is None:
+            source = numpy_source(scheme, precision)
+            filename = f"<fluxloom {scheme.name} {precision} {scheme.fingerprint}>"
+            # Tracebacks through generated code then show its lines.
+            linecache.cache[filename] = (len(source), None, source.splitlines(True), filename)
+            module = types.ModuleType(f"fluxloom_generated_{scheme.name}_{precision}")
+            module.__file__ = filename
+            exec(compile(source, filename, "exec"), module.__dict__)
+            _MODULES[key] = module
+    return module
+
+
+# ---- the kernel object ----------------------------------------------------------
+
+class Kernel:
+    """A loaded kernel: `step` advances one whole step of one scheme."""
+
+    def __init__(self, name, backend, precision, halo, stages, workspace_size, run_step):
+        self.name = name
+        self.backend = backend
+        self.precision = precision
+        self.dtype = DTYPES[precision]
+        self.halo = halo
+        self.stages = stages
+        self._workspace_size = workspace_size
+        self._run_step = run_step
+        self._work: dict[int, np.ndarray] = {}
+
+    def __repr__(self) -> str:
+        return f"<Kernel {self.name} {self.backend} {self.precision} halo={self.halo}>"
+
+    def workspace_size(self, n: int) -> int:
+        return int(self._workspace_size(int(n)))
+
+    def step(self, q, u_face, dt_dx, out=None):
+        """One step; returns `out` (a copy of q, halos included, when not given)."""
+        q = self._check_array("q", q)
+        u_face = self._check_array("u_face", u_face)
+        n = len(u_face) - 1
+        if n < max(self.halo, 3):
+            raise KernelError(f"{self.name}: u_face has {len(u_face)} faces; it needs at least "
+                              f"{max(self.halo, 3) + 1} (n + 1 for n >= {max(self.halo, 3)} cells)")
+        if len(q) != n + 2 * self.halo:
+            raise KernelError(f"{self.name}: q has {len(q)} values; with {n + 1} face velocities "
+                              f"it needs n + 2*halo = {n} + 2*{self.halo} = {n + 2 * self.halo}")
+        try:
+            dt_dx = float(dt_dx)
+        except (TypeError, ValueError):
+            raise KernelError(f"{self.name}: dt_dx must be a real number, not {dt_dx!r}") from None
+        if not math.isfinite(dt_dx):
+            raise KernelError(f"{self.name}: dt_dx must be finite, not {dt_dx}")
+        if out is None:
+            out = q.copy()
+        else:
+            out = self._check_array("out", out)
+            if out.shape != q.shape:
+                raise KernelError(f"{self.name}: out has {len(out)} values, q has {len(q)}; "
+                                  "they must be the same size")
+            if np.shares_memory(out, q):
+                raise KernelError(f"{self.name}: out must not overlap q (the step reads q's "
+                                  "neighbours after writing out)")
+        self._run_step(n, q, out, u_face, dt_dx, self._workspace(n))
+        return out
+
+    def _workspace(self, n: int):
+        size = self.workspace_size(n)
+        if size == 0:
+            return None
+        work = self._work.get(n)
+        if work is None:
+            work = self._work[n] = np.empty(size, self.dtype)
+        return work
+
+    def _check_array(self, what: str, value):
+        if not isinstance(value, np.ndarray):
+            raise KernelError(f"{self.name}: {what} must be a numpy array of {self.dtype}, "
+                              f"not {type(value).__name__}")
+        if value.ndim != 1:
+            raise KernelError(f"{self.name}: {what} must be one-dimensional, has shape {value.shape}")
+        if value.dtype != self.dtype:
+            raise KernelError(f"{self.name}: {what} has dtype {value.dtype}; this {self.precision} "
+                              f"kernel takes {self.dtype} (convert with .astype(np.{self.dtype}))")
+        if self.backend == "c" and not value.flags.c_contiguous:
+            raise KernelError(f"{self.name}: {what} must be contiguous (use np.ascontiguousarray)")
+        return value
+
+
+def load_kernel(scheme: Scheme, backend: str = "numpy", precision: str = "double",
+                opt: str | None = None) -> Kernel:
+    """The scheme's kernel for one back end and precision (generated and cached on first use).
+
+    opt (C only) is the optimisation flag, e.g. "-O2" or "-O3"; None keeps the build default.
+    """
+    if backend not in BACKENDS:
+        raise KernelError(f"unknown back end '{backend}'; choose one of {', '.join(BACKENDS)}")
+    if precision not in DTYPES:
+        raise KernelError(f"unknown precision '{precision}'; choose double or float")
+    if backend == "numpy":
+        module = numpy_module(scheme, precision)
+        return Kernel(scheme.name, "numpy", precision, module.HALO, module.STAGES,
+                      module.workspace_size, module.step)
+    return _c_kernel(scheme, precision, opt)
+
+
+def _c_kernel(scheme: Scheme, precision: str, opt: str | None) -> Kernel:
+    from .build import compile_c
+
+    ffi, lib = compile_c(scheme, precision) if opt is None else compile_c(scheme, precision, opt)
+    name = scheme.name
+    c_step = getattr(lib, f"{name}_step")
+    c_workspace = getattr(lib, f"{name}_workspace_size")
+    halo = int(getattr(lib, f"{name}_HALO"))
+    stages = int(getattr(lib, f"{name}_STAGES"))
+    ctype = C_TYPES[precision]
+    null = ffi.NULL
+
+    def run_step(n, q, out, u_face, dt_dx, work):
+        c_step(n, ffi.from_buffer(ctype, q), ffi.from_buffer(ctype, out, require_writable=True),
+               ffi.from_buffer(ctype, u_face), dt_dx,
+               null if work is None else ffi.from_buffer(ctype, work, require_writable=True))
+
+    return Kernel(name, "c", precision, halo, stages, c_workspace, run_step)
+
+
+# ---- periodic domains -------------------------------------------------------------
+
+def fill_periodic(q: np.ndarray, halo: int) -> np.ndarray:
+    """Fill both halos of q in place from the opposite end of the interior."""
+    if halo > 0:
+        q[:halo] = q[-2 * halo:-halo]
+        q[-halo:] = q[halo:2 * halo]
+    return q
+
+
+def run_periodic(kernel: Kernel, q_interior, u_face, dt_dx, steps: int) -> np.ndarray:
+    """Advance an interior array `steps` times on a periodic domain; returns a new array.
+
+    u_face has n + 1 entries with u_face[n] == u_face[0].
+    """
+    interior = np.asarray(q_interior)
+    u_face = np.ascontiguousarray(u_face, dtype=kernel.dtype)
+    if interior.ndim != 1:
+        raise KernelError(f"{kernel.name}: q_interior must be one-dimensional, has shape {interior.shape}")
+    n = len(interior)
+    if u_face.ndim != 1 or len(u_face) != n + 1:
+        raise KernelError(f"{kernel.name}: u_face must hold n + 1 = {n + 1} face velocities, "
+                          f"has shape {u_face.shape}")
+    if u_face[0] != u_face[-1]:
+        raise KernelError(f"{kernel.name}: on a periodic domain u_face[n] must equal u_face[0] "
+                          f"(given {u_face[-1]} and {u_face[0]})")
+    h = kernel.halo
+    current = np.empty(n + 2 * h, kernel.dtype)
+    current[h:h + n] = interior
+    following = current.copy()
+    for _ in range(int(steps)):
+        fill_periodic(current, h)
+        kernel.step(current, u_face, dt_dx, out=following)
+        current, following = following, current
+    return current[h:h + n].copy()
