@@ -1,0 +1,276 @@
+"""Scheme IR -> C99 kernel (NAME.c) and header (NAME.h).
+
+The printer is a sympy C99CodePrinter subclass with one `_print_<Class>` per
+construct the IR uses; precision is a sympy type alias, so the same printer
+writes `fabs`/`0.5` for double and `fabsf`/`0.5F` for float. Everything else
+(loop structure, halos, stage updates) comes from the back-end neutral plan.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import sympy
+from sympy.codegen.ast import float32, float64, real
+from sympy.printing.c import C99CodePrinter
+from sympy.printing.precedence import PRECEDENCE, precedence
+
+from ..diagnostics import LoomError
+from ..ir import Scheme
+from ..symbols import C, R, offset_of
+from .environment import render
+from .plan import FaceProgram, KernelPlan, banner_lines, plan_kernel
+
+PRECISIONS = {"double": float64, "float": float32}
+FLUX_BLOCK = 512
+"""Faces per block: fluxes of one block live in workspace (L1-sized) and are computed once."""
+
+
+def check_precision(precision: str) -> None:
+    if precision not in PRECISIONS:
+        raise LoomError(f"unknown precision '{precision}' (use 'double' or 'float')",
+                        file="--precision")
+
+
+class KernelPrinter(C99CodePrinter):
+    """Prints IR expressions as C for one scheme at one precision."""
+
+    printmethod = "_fluxloom_c"
+
+    def __init__(self, plan: KernelPlan, precision: str = "double"):
+        check_precision(precision)
+        super().__init__({"type_aliases": {real: PRECISIONS[precision]}, "strict": True})
+        self.plan = plan
+        self.ctype = "float" if precision == "float" else "double"
+        self.param_names = {name for name, _ in plan.params}
+        self.limiter_names = {lim.name for lim in plan.limiters}
+        self.helpers_used: set[str] = set()
+
+    # -- names -------------------------------------------------------------
+    def _print_Symbol(self, expr):
+        if expr.name in self.param_names:
+            return f"{self.plan.name}_PARAM_{expr.name}"
+        if expr == C:
+            return "c"
+        if expr == R:
+            return "r"
+        if offset_of(expr) is not None:
+            return expr.name
+        return super()._print_Symbol(expr)
+
+    def helper(self, name: str) -> str:
+        self.helpers_used.add(name)
+        return f"{self.plan.name}_{name}"
+
+    def _call(self, name: str, *args) -> str:
+        return f"{self.helper(name)}({', '.join(self._print(a) for a in args)})"
+
+    # -- constructs of the language ------------------------------------------
+    def _print_Ratio(self, expr):
+        return self._call("ratio", *expr.args)
+
+    def _print_Function(self, expr):
+        name = type(expr).__name__
+        if name in self.limiter_names:
+            return f"{self.plan.name}_limiter_{name}({self._print(expr.args[0])})"
+        return super()._print_Function(expr)
+
+    def _print_Min(self, expr):
+        return self._fold("min", expr.args)
+
+    def _print_Max(self, expr):
+        return self._fold("max", expr.args)
+
+    def _fold(self, name: str, args) -> str:
+        # Ternary helpers instead of fmin/fmax: those are library calls without
+        # -ffinite-math-only and block vectorisation.
+        args = sorted(args, key=sympy.default_sort_key)
+        text = self._print(args[-1])
+        for arg in reversed(args[:-1]):
+            text = f"{self.helper(name)}({self._print(arg)}, {text})"
+        return text
+
+    def _print_sign(self, expr):
+        return self._call("sign", expr.args[0])
+
+    def _print_Pow(self, expr):
+        base, exp = expr.base, expr.exp
+        if exp.is_Integer and 2 <= abs(int(exp)) <= 4:
+            factor = self.parenthesize(base, PRECEDENCE["Mul"])
+            product = "*".join([factor] * abs(int(exp)))
+            if exp > 0:
+                return f"({product})"
+            return f"{self._print(sympy.Float(1))}/({product})"
+        return super()._print_Pow(expr)
+
+
+# ---- source assembly -------------------------------------------------------
+
+@dataclass(frozen=True)
+class CFunctionBody:
+    """A face or limiter program printed as C statements."""
+
+    arguments: tuple[str, ...]
+    statements: tuple[str, ...]
+    result: str
+
+
+def print_program(printer: KernelPrinter, program: FaceProgram) -> tuple[tuple[str, ...], str]:
+    lines = tuple(f"const {printer.ctype} {printer._print(sym)} = {printer._print(value)};"
+                  for sym, value in program.temporaries)
+    return lines, printer._print(program.result)
+
+
+@dataclass(frozen=True)
+class FluxFunction:
+    """One face function (high or low order) and its block loop, ready for the template."""
+
+    suffix: str
+    parameters: str               # C parameter list of the face function
+    statements: tuple[str, ...]
+    result: str
+    guard_c: bool
+    uses_c: bool
+    loads: tuple[tuple[str, int, int], ...]   # (variable, offset if u >= 0, offset if u < 0)
+
+
+def flux_function(printer: KernelPrinter, program: FaceProgram, suffix: str) -> FluxFunction:
+    statements, result = print_program(printer, program)
+    names = [printer._print(sympy_q) for sympy_q in _q_symbols(program.offsets)]
+    params = [f"{printer.ctype} {n}" for n in names]
+    if program.uses_c:
+        params.append(f"{printer.ctype} c")
+    loads = tuple((n, k, 1 - k) for n, k in zip(names, program.offsets))
+    return FluxFunction(suffix, ", ".join(params) or "void", statements, result,
+                        program.guard_c, program.uses_c, loads)
+
+
+def _q_symbols(offsets):
+    from ..symbols import q
+    return [q(k) for k in offsets]
+
+
+def real_literal(printer: KernelPrinter, value: sympy.Expr) -> str:
+    """A real constant as a C literal of the kernel's precision (1.0, 1.0F/3.0F)."""
+    if value.is_Integer:
+        return printer._print(sympy.Float(int(value)))
+    return f"({printer._print(value)})"
+
+
+def _coefficient(printer: KernelPrinter, value: sympy.Expr) -> str:
+    return printer._print(sympy.Float(1)) if value == 1 else f"({printer._print(value)})"
+
+
+def stage_expression(printer: KernelPrinter, update) -> tuple[str, str | None]:
+    """C expressions for q_out[j] and (if any) the new accumulator from one stage update.
+
+    Inside the loop `dq` is dt_dx * (F(j+1/2) - F(j-1/2)), so dt * L(q) = -dq.
+    """
+    def combo(pairs, rate):
+        terms = [(coef, name) for coef, name in pairs if coef != 0]
+        if rate != 0 and any(coef == rate and name == "state[j]" for coef, name in terms):
+            # stage + rate*dL with equal weights: one forward-Euler step, weighted
+            terms = [(coef, "(state[j] - dq)" if name == "state[j]" else name)
+                     for coef, name in terms]
+            rate = 0
+        parts = [name if coef == 1 else f"{_coefficient(printer, coef)}*{name}"
+                 for coef, name in terms]
+        text = " + ".join(parts)
+        if len(parts) == 1 and text.startswith("(") and text.endswith(")"):
+            text = text[1:-1]
+        if rate != 0:
+            text += " - dq" if rate == 1 else f" - {_coefficient(printer, rate)}*dq"
+        return text
+
+    out = combo([(update.start, "start[j]"), (update.stage, "state[j]"),
+                 (update.acc, "acc[j]")], update.rate)
+    acc = None
+    if update.accumulates:
+        acc = combo([(update.acc_start, "start[j]"), (update.acc_keep, "acc[j]")],
+                    update.acc_rate)
+    return out, acc
+
+
+@dataclass(frozen=True)
+class StageCall:
+    stage: int
+    source: str
+    target: str
+    refresh: bool
+
+
+def step_calls(plan: KernelPlan) -> tuple[StageCall, ...]:
+    """Which arrays each stage reads and writes in the periodic whole-step function."""
+    buffers = ("stage_a", "stage_b")
+    calls = []
+    for s in range(plan.stages):
+        source = "q_in" if s == 0 else buffers[(s - 1) % 2]
+        last = s == plan.stages - 1
+        target = "q_out" if last else buffers[s % 2]
+        calls.append(StageCall(s, source, target, not last))
+    return tuple(calls)
+
+
+def stage_buffers(plan: KernelPlan) -> int:
+    return min(plan.stages - 1, 2)
+
+
+def c_context(scheme: Scheme, precision: str = "double") -> dict:
+    """Everything the C templates need, printed."""
+    plan = plan_kernel(scheme)
+    printer = KernelPrinter(plan, precision)
+    fluxes = [flux_function(printer, plan.flux, "")]
+    if plan.low_flux is not None:
+        fluxes.append(flux_function(printer, plan.low_flux, "_low"))
+    limiters = []
+    for lim in plan.limiters:
+        statements, result = print_program(printer, lim.program)
+        limiters.append({"name": lim.name, "statements": statements, "result": result})
+    stages = []
+    for s, update in enumerate(plan.stage_updates):
+        out, acc = stage_expression(printer, update)
+        stages.append({"index": s, "out": out, "acc": acc,
+                       "clip": plan.clip is not None and s == plan.stages - 1})
+    uses_start = any(u.start != 0 or u.acc_start != 0 for u in plan.stage_updates)
+    clip = None
+    if plan.clip is not None:
+        clip = tuple(real_literal(printer, v) for v in plan.clip)
+    params = [{"name": name, "value": printer._print(value)} for name, value in plan.params]
+    if plan.fct:
+        printer.helpers_used.update(("min", "max"))
+    helpers = sorted(printer.helpers_used)
+    return {
+        "plan": plan,
+        "name": plan.name,
+        "real": printer.ctype,
+        "precision": precision,
+        "fabs": "fabsf" if precision == "float" else "fabs",
+        "one": printer._print(sympy.Float(1)),
+        "zero": printer._print(sympy.Float(0)),
+        "banner": banner_lines(scheme, precision),
+        "params": params,
+        "helpers": helpers,
+        "limiters": limiters,
+        "fluxes": fluxes,
+        "stages": stages,
+        "uses_start": uses_start,
+        "accumulator": plan.accumulator,
+        "stage_calls": step_calls(plan),
+        "stage_buffers": stage_buffers(plan),
+        "clip": clip,
+        "block": FLUX_BLOCK,
+    }
+
+
+def c_sources(scheme: Scheme, precision: str = "double") -> dict[str, str]:
+    """{'NAME.h': header text, 'NAME.c': kernel text} for scheme at precision."""
+    context = c_context(scheme, precision)
+    return {
+        f"{scheme.name}.h": render("c_header.h.j2", **context),
+        f"{scheme.name}.c": render("c_kernel.c.j2", **context),
+    }
+
+
+def c_declarations(scheme: Scheme, precision: str = "double") -> str:
+    """The header's declarations in the form cffi's cdef accepts."""
+    context = c_context(scheme, precision)
+    return render("c_cdef.h.j2", **context)
