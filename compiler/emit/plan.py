@@ -17,8 +17,9 @@ FCT (`correct fct`, Zalesak 1979). For the interior faces 0..n the corrected
 flux needs the limiter factors R+/R- of cells -1..n, which need the
 antidiffusive flux A = F_high - F_low on faces -1..n+1 and the low-order
 solution on cells -2..n+1, which needs F_low on faces -2..n+2. So an FCT
-kernel reads FCT_EXTRA_FACES = 2 extra face velocities on each side
-(`face_halo`), and more ghost cells (`kernel_halo`).
+step evaluates FCT_EXTRA_FACES = 2 extra faces on each side, whose
+velocities the caller passes (`face_halo`: u_face then holds n + 1 + 2*2
+values, u_face[2 + i] is face i), and more ghost cells (`kernel_halo`).
 """
 from __future__ import annotations
 
@@ -85,16 +86,22 @@ def reach(offsets) -> int:
 
 
 def kernel_halo(scheme: Scheme) -> int:
-    """Ghost cells per side the caller fills."""
+    """Ghost cells per side the caller fills.
+
+    FCT bounds each cell by its neighbours' low-order solution, which reads
+    FCT_EXTRA_FACES more cells on each side than the fluxes alone.
+    """
     if scheme.correct == "fct":
-        low = reach(offsets_in(scheme.low_face))
-        high = reach(offsets_in(scheme.face))
-        return max(low + FCT_EXTRA_FACES, high + FCT_EXTRA_FACES - 1, 2)
+        return scheme.halo + FCT_EXTRA_FACES
     return scheme.halo
 
 
 def face_halo(scheme: Scheme) -> int:
-    """Extra face velocities per side beyond the n + 1 interior faces."""
+    """Face velocities per side beyond the n + 1 interior faces the caller passes.
+
+    u_face holds n + 1 + 2*face_halo velocities, u_face[face_halo + i] is face i
+    (face_halo is 0 for every scheme without flux correction).
+    """
     return FCT_EXTRA_FACES if scheme.correct == "fct" else 0
 
 
