@@ -16,6 +16,7 @@ import numpy as np
 
 from fluxloom.compiler import LoomError
 from fluxloom.compiler.emit.numpy_ import numpy_source
+from fluxloom.compiler.emit.plan import plan_kernel
 from fluxloom.compiler.ir import Scheme
 
 BACKENDS = ("numpy", "c")
@@ -42,7 +43,11 @@ def numpy_module(scheme: Scheme, precision: str = "double") -> types.ModuleType:
     with _MODULES_LOCK:
         module = _MODULES.get(key)
         if module is None:
-            source = numpy_source(scheme, precision)
+            # The analysis verdicts only matter in files written for people (`build`).
+            banner = (f"{scheme.name}: {scheme.about}" if scheme.about else scheme.name,
+                      f"generated at run time by fluxloom (fingerprint {scheme.fingerprint}, "
+                      f"{precision} precision); do not edit")
+            source = numpy_source(scheme, precision, banner)
             filename = f"<fluxloom {scheme.name} {precision} {scheme.fingerprint}>"
             # Tracebacks through generated code then show its lines.
             linecache.cache[filename] = (len(source), None, source.splitlines(True), filename)
@@ -58,12 +63,14 @@ def numpy_module(scheme: Scheme, precision: str = "double") -> types.ModuleType:
 class Kernel:
     """A loaded kernel: `step` advances one whole step of one scheme."""
 
-    def __init__(self, name, backend, precision, halo, stages, workspace_size, run_step):
+    def __init__(self, name, backend, precision, halo, face_halo, stages, workspace_size,
+                 run_step):
         self.name = name
         self.backend = backend
         self.precision = precision
         self.dtype = DTYPES[precision]
         self.halo = halo
+        self.face_halo = face_halo
         self.stages = stages
         self._workspace_size = workspace_size
         self._run_step = run_step
@@ -76,16 +83,25 @@ class Kernel:
         return int(self._workspace_size(int(n)))
 
     def step(self, q, u_face, dt_dx, out=None):
-        """One step; returns `out` (a copy of q, halos included, when not given)."""
+        """One step; returns `out` (a copy of q, halos included, when not given).
+
+        u_face holds n + 1 + 2*face_halo velocities as in the C ABI; a kernel with
+        face_halo > 0 (FCT) also takes just the n + 1 interior faces and then
+        extends them periodically.
+        """
         q = self._check_array("q", q)
         u_face = self._check_array("u_face", u_face)
-        n = len(u_face) - 1
-        if n < max(self.halo, 3):
-            raise KernelError(f"{self.name}: u_face has {len(u_face)} faces; it needs at least "
-                              f"{max(self.halo, 3) + 1} (n + 1 for n >= {max(self.halo, 3)} cells)")
-        if len(q) != n + 2 * self.halo:
-            raise KernelError(f"{self.name}: q has {len(q)} values; with {n + 1} face velocities "
-                              f"it needs n + 2*halo = {n} + 2*{self.halo} = {n + 2 * self.halo}")
+        n = len(q) - 2 * self.halo
+        if n < 1:
+            raise KernelError(f"{self.name}: q has {len(q)} values; it needs n + 2*halo with "
+                              f"halo = {self.halo} and at least one interior cell")
+        if self.face_halo and len(u_face) == n + 1:
+            u_face = periodic_faces(u_face, self.face_halo)
+        if len(u_face) != n + 1 + 2 * self.face_halo:
+            extra = f" + 2*{self.face_halo}" if self.face_halo else ""
+            raise KernelError(f"{self.name}: u_face has {len(u_face)} values; q has {n} interior "
+                              f"cells, so it needs n + 1{extra} = {n + 1 + 2 * self.face_halo} "
+                              "face velocities")
         try:
             dt_dx = float(dt_dx)
         except (TypeError, ValueError):
@@ -140,8 +156,8 @@ def load_kernel(scheme: Scheme, backend: str = "numpy", precision: str = "double
         raise KernelError(f"unknown precision '{precision}'; choose double or float")
     if backend == "numpy":
         module = numpy_module(scheme, precision)
-        return Kernel(scheme.name, "numpy", precision, module.HALO, module.STAGES,
-                      module.workspace_size, module.step)
+        return Kernel(scheme.name, "numpy", precision, module.HALO, module.FACE_HALO,
+                      module.STAGES, module.workspace_size, module.step)
     return _c_kernel(scheme, precision, opt)
 
 
@@ -152,8 +168,10 @@ def _c_kernel(scheme: Scheme, precision: str, opt: str | None) -> Kernel:
     name = scheme.name
     c_step = getattr(lib, f"{name}_step")
     c_workspace = getattr(lib, f"{name}_workspace_size")
-    halo = int(getattr(lib, f"{name}_HALO"))
-    stages = int(getattr(lib, f"{name}_STAGES"))
+    plan = plan_kernel(scheme)  # the same plan the C source was rendered from
+    halo = int(getattr(lib, f"{name}_HALO", plan.halo))
+    face_halo = int(getattr(lib, f"{name}_FACE_HALO", plan.face_halo))
+    stages = int(getattr(lib, f"{name}_STAGES", plan.stages))
     ctype = C_TYPES[precision]
     null = ffi.NULL
 
@@ -162,17 +180,28 @@ def _c_kernel(scheme: Scheme, precision: str, opt: str | None) -> Kernel:
                ffi.from_buffer(ctype, u_face), dt_dx,
                null if work is None else ffi.from_buffer(ctype, work, require_writable=True))
 
-    return Kernel(name, "c", precision, halo, stages, c_workspace, run_step)
+    return Kernel(name, "c", precision, halo, face_halo, stages, c_workspace, run_step)
 
 
 # ---- periodic domains -------------------------------------------------------------
 
 def fill_periodic(q: np.ndarray, halo: int) -> np.ndarray:
-    """Fill both halos of q in place from the opposite end of the interior."""
-    if halo > 0:
-        q[:halo] = q[-2 * halo:-halo]
-        q[-halo:] = q[halo:2 * halo]
+    """Fill the halo ghost cells on each side of q in place, periodically from the interior."""
+    n = len(q) - 2 * halo
+    if halo > 0 and n > 0:
+        q[:halo] = q[halo + np.arange(-halo, 0) % n]
+        q[halo + n:] = q[halo + np.arange(halo) % n]
     return q
+
+
+def periodic_faces(u_face: np.ndarray, face_halo: int) -> np.ndarray:
+    """n + 1 interior face velocities extended by face_halo faces on each side, periodically."""
+    n = len(u_face) - 1
+    if face_halo == 0:
+        return u_face
+    left = u_face[np.arange(-face_halo, 0) % n]
+    right = u_face[np.arange(1, face_halo + 1) % n]
+    return np.concatenate((left, u_face, right))
 
 
 def run_periodic(kernel: Kernel, q_interior, u_face, dt_dx, steps: int) -> np.ndarray:
@@ -191,6 +220,7 @@ def run_periodic(kernel: Kernel, q_interior, u_face, dt_dx, steps: int) -> np.nd
     if u_face[0] != u_face[-1]:
         raise KernelError(f"{kernel.name}: on a periodic domain u_face[n] must equal u_face[0] "
                           f"(given {u_face[-1]} and {u_face[0]})")
+    u_face = periodic_faces(u_face, kernel.face_halo)
     h = kernel.halo
     current = np.empty(n + 2 * h, kernel.dtype)
     current[h:h + n] = interior

@@ -10,14 +10,17 @@ domain), and lets a block whose faces share one velocity sign read every
 from __future__ import annotations
 
 from dataclasses import dataclass
-from importlib import metadata
 
 import sympy
 from sympy.printing.numpy import NumPyPrinter
+from sympy.printing.precedence import PRECEDENCE
 
+from ..diagnostics import LoomError
 from ..ir import Scheme
-from ..symbols import C, offset_of
+from ..symbols import C, R, offset_of
+from ..timestep import StageUpdate
 from . import environment
+from .plan import FaceProgram, banner_lines, plan_kernel
 
 PRECISIONS = {"double": "np.float64", "float": "np.float32"}
 
@@ -50,6 +53,8 @@ class NumpyKernelPrinter(NumPyPrinter):
             return q_name(k)
         if expr == C:
             return "c"
+        if expr == R:
+            return "r"
         if expr.name in self._param_names:
             return param_name(expr.name)
         return super()._print_Symbol(expr)
@@ -91,11 +96,11 @@ class NumpyKernelPrinter(NumPyPrinter):
             return f"np.sqrt({self._print(base)})"
         if exp.is_Integer and 1 < abs(int(exp)) <= 3:
             # Repeated products: cheaper than np.power and exact in the same way as C.
-            factor = self.parenthesize(base, sympy.printing.precedence.PRECEDENCE["Mul"])
+            factor = self.parenthesize(base, PRECEDENCE["Mul"])
             product = "*".join([factor] * abs(int(exp)))
             return product if exp > 0 else f"1/({product})"
         if exp == -1:
-            return f"1/{self.parenthesize(base, sympy.printing.precedence.PRECEDENCE['Mul'])}"
+            return f"1/{self.parenthesize(base, PRECEDENCE['Mul'])}"
         return super()._print_Pow(expr, rational=rational)
 
 
@@ -114,8 +119,8 @@ def limiter_name(name: str) -> str:
 # ---- what the template receives ---------------------------------------------
 
 @dataclass(frozen=True)
-class FaceFunction:
-    """A generated function of (q_k..., c) returning g: temporaries, then g."""
+class Function:
+    """A generated function: temporaries top to bottom, then the returned value."""
 
     name: str
     doc: str
@@ -125,12 +130,21 @@ class FaceFunction:
 
 @dataclass(frozen=True)
 class Offset:
-    """One q[k]: its argument name and how far its cell is from the face's
-    left cell (u >= 0 frame) or right cell (u < 0 frame)."""
+    """One q[k]: its argument name and where its cell lies relative to HALO + face
+    index, for u >= 0 (cell j + k) and for u < 0 (cell j + 1 - k)."""
 
     name: str
-    positive_shift: str
-    negative_shift: str
+    forward: str
+    backward: str
+
+
+@dataclass(frozen=True)
+class Stage:
+    """One Runge-Kutta stage on a block, as numpy expressions over `start`,
+    `current`, `rate` (= dt * L(current)) and `acc` (classical RK4's running sum)."""
+
+    out: str
+    accumulate: str | None
 
 
 @dataclass(frozen=True)
@@ -138,141 +152,120 @@ class NumpyModule:
     """Everything numpy_kernel.py.j2 prints, already as strings."""
 
     name: str
-    about: str
-    version: str
-    fingerprint: str
-    source_file: str
-    time: str
-    precision: str
+    banner: tuple[str, ...]
     real: str
     halo: int
-    base_halo: int
-    stages: int
+    face_halo: int
+    stages: tuple[Stage, ...]
+    accumulator: bool
     block_cells: int
-    verdicts: tuple[str, ...]
-    params: tuple[tuple[str, str, str], ...]      # (python name, spec name, value text)
-    limiters: tuple[tuple[str, str], ...]         # (function name, body text)
+    params: tuple[tuple[str, str, str], ...]   # (python name, spec name, value)
+    limiters: tuple[Function, ...]
+    faces: tuple[Function, ...]
     helpers: tuple[str, ...]
     offsets: tuple[Offset, ...]
+    frame_names: str                           # "q_m1, q_0, q_1"
+    face_arguments: str                        # "q_m1, q_0, q_1, c"
     uses_c: bool
-    frame_names: str        # "q_m1, q_0, q_1"
-    face_arguments: str     # "q_m1, q_0, q_1, c"
     guard_c: bool
-    faces: tuple[FaceFunction, ...]
     fct: bool
     clip: tuple[str, str] | None
-    stage_updates: tuple[StageUpdate, ...]
     workspace: str
 
 
-def _cse(expr: sympy.Expr, printer: NumpyKernelPrinter, prefix: str):
-    temps = sympy.numbered_symbols(prefix)
-    replacements, (reduced,) = sympy.cse(expr, symbols=temps, order="canonical")
-    assignments = tuple((str(sym), printer.doprint(value)) for sym, value in replacements)
-    return assignments, printer.doprint(reduced)
+def print_function(printer: NumpyKernelPrinter, name: str, doc: str,
+                   program: FaceProgram) -> Function:
+    assignments = tuple((printer.doprint(sym), printer.doprint(value))
+                        for sym, value in program.temporaries)
+    return Function(name, doc, assignments, printer.doprint(program.result))
 
 
-def divides_by_c(expr: sympy.Expr) -> bool:
-    """True when expr has c in a denominator (Lax-Friedrichs' 1/c): it needs a c = 0 guard."""
-    return any(p.exp.is_negative and p.base.has(C) for p in expr.atoms(sympy.Pow))
+def stage_expression(printer: NumpyKernelPrinter, update: StageUpdate) -> Stage:
+    """The stage update of compiler/timestep.py as numpy expressions."""
+    def combo(terms):
+        parts = []
+        for coefficient, name in terms:
+            if coefficient == 0:
+                continue
+            parts.append(name if coefficient == 1 else f"({printer.doprint(coefficient)})*{name}")
+        return " + ".join(parts) or "0"
+
+    out = combo([(update.start, "start"), (update.stage, "current"),
+                 (update.acc, "acc"), (update.rate, "rate")])
+    accumulate = None
+    if update.accumulates:
+        accumulate = combo([(update.acc_start, "start"), (update.acc_keep, "acc"),
+                            (update.acc_rate, "rate")])
+    return Stage(out, accumulate)
 
 
-def fluxloom_version() -> str:
-    try:
-        return metadata.version("fluxloom")
-    except metadata.PackageNotFoundError:  # a source tree that was never installed
-        return "0+unknown"
-
-
-@dataclass(frozen=True)
-class StageUpdate:
-    """One Runge-Kutta stage on a block: `out` becomes the stage value; `accumulate`,
-    if any, updates the running sum kept in the workspace (classical RK4 only).
-
-    Names: `start` is the step's initial value, `current` the stage input,
-    `rate` = dt * L(current) = -dt/dx * (F(j+1/2) - F(j-1/2)), `acc` the sum.
-    """
-
-    out: str
-    accumulate: str | None = None
-
-
-# Shu-Osher form of the SSP methods (Shu and Osher 1988) and the classical RK4
-# weights 1/6, 1/3, 1/3, 1/6 folded into a running sum.
-STAGE_UPDATES = {
-    "euler": (StageUpdate("start + rate"),),
-    "ssp_rk2": (StageUpdate("start + rate"),
-                StageUpdate("(1/2)*start + (1/2)*(current + rate)")),
-    "ssp_rk3": (StageUpdate("start + rate"),
-                StageUpdate("(3/4)*start + (1/4)*(current + rate)"),
-                StageUpdate("(1/3)*start + (2/3)*(current + rate)")),
-    "rk4": (StageUpdate("start + (1/2)*rate", "start + (1/6)*rate"),
-            StageUpdate("start + (1/2)*rate", "acc + (1/3)*rate"),
-            StageUpdate("start + rate", "acc + (1/3)*rate"),
-            StageUpdate("acc + (1/6)*rate")),
-}
-
-
-def stage_updates(time: str) -> tuple[StageUpdate, ...]:
-    return STAGE_UPDATES[time]
-
-
-def numpy_module(scheme: Scheme, precision: str = "double", verdicts=()) -> NumpyModule:
-    """Lower a scheme to the template's data (printed strings and small records)."""
-    if precision not in PRECISIONS:
-        raise ValueError(f"precision must be one of {sorted(PRECISIONS)}, not {precision!r}")
-    printer = NumpyKernelPrinter(scheme.limiter_names, [p.name for p in scheme.params])
-    fct = scheme.correct == "fct"
-    faces = [FaceFunction("face_values", "g of the flux (u * g)",
-                          *_cse(scheme.face, printer, "t"))]
-    if fct:
-        faces.append(FaceFunction("low_face_values", "g of the monotone low-order flux",
-                                  *_cse(scheme.low_face, printer, "t")))
-    limiters = tuple((limiter_name(lim.name), printer.doprint(lim.body))
-                     for lim in scheme.limiters)
-    offsets = tuple(Offset(q_name(k), _shift("HALO", k - 1), _shift("HALO", -k))
-                    for k in scheme.offsets)
-    exprs = [scheme.face] + ([scheme.low_face] if fct else [])
-    # FCT reads the low-order solution one cell beyond each neighbour it bounds.
-    halo = scheme.halo + 2 if fct else scheme.halo
-    clip = None
-    if scheme.clip is not None:
-        clip = tuple(printer.doprint(v) for v in scheme.clip)
-    updates = stage_updates(scheme.time)
-    return NumpyModule(
-        name=scheme.name, about=scheme.about, version=fluxloom_version(),
-        fingerprint=scheme.fingerprint, source_file=_basename(scheme.file),
-        time=scheme.time, precision=precision, real=PRECISIONS[precision],
-        halo=halo, base_halo=scheme.halo, stages=len(updates), block_cells=BLOCK_CELLS,
-        verdicts=tuple(verdicts),
-        params=tuple((param_name(p.name), p.name, printer.doprint(p.value)) for p in scheme.params),
-        limiters=limiters, helpers=tuple(sorted(printer.used_helpers)), offsets=offsets,
-        uses_c=scheme.uses_c, frame_names=", ".join(o.name for o in offsets),
-        face_arguments=", ".join([o.name for o in offsets] + (["c"] if scheme.uses_c else [])),
-        guard_c=any(divides_by_c(e) for e in exprs),
-        faces=tuple(faces), fct=fct, clip=clip, stage_updates=updates,
-        workspace=_workspace_formula(scheme.time))
-
-
-def _shift(base: str, k: int) -> str:
+def _shift(k: int) -> str:
     if k == 0:
-        return base
-    return f"{base} + {k}" if k > 0 else f"{base} - {-k}"
+        return "HALO"
+    return f"HALO + {k}" if k > 0 else f"HALO - {-k}"
 
 
-def _basename(path: str) -> str:
-    return path.replace("\\", "/").rsplit("/", 1)[-1]
+def _workspace_formula(stage_buffers: int, accumulator: bool) -> str:
+    """Reals `step` keeps between stages: the RK4 sum, then stage arrays with halos."""
+    parts = (["n"] if accumulator else []) + \
+        ([f"{stage_buffers} * (n + 2 * HALO)" if stage_buffers > 1 else "n + 2 * HALO"]
+         if stage_buffers else [])
+    return " + ".join(parts) or "0"
 
 
-def _workspace_formula(time: str) -> str:
-    """Reals `step` keeps between stages: stage arrays (with halos) and an accumulator."""
-    return {"euler": "0",
-            "ssp_rk2": "n + 2 * HALO",
-            "ssp_rk3": "2 * (n + 2 * HALO)",
-            "rk4": "2 * (n + 2 * HALO) + n"}[time]
+def check_precision(precision: str) -> None:
+    if precision not in PRECISIONS:
+        raise LoomError(f"unknown precision '{precision}' (use 'double' or 'float')",
+                        file="--precision")
 
 
-def numpy_source(scheme: Scheme, precision: str = "double", verdicts=()) -> str:
-    """The generated module's text: same scheme and precision, same bytes."""
-    module = numpy_module(scheme, precision, verdicts)
-    return environment.render("numpy_kernel.py.j2", m=module)
+def numpy_module(scheme: Scheme, precision: str = "double", banner=None) -> NumpyModule:
+    """Lower a scheme (through the shared kernel plan) to the template's data."""
+    check_precision(precision)
+    plan = plan_kernel(scheme)
+    printer = NumpyKernelPrinter([lim.name for lim in plan.limiters],
+                                 [name for name, _ in plan.params])
+    faces = [print_function(printer, "face_values", "g of the flux (u * g)", plan.flux)]
+    if plan.low_flux is not None:
+        faces.append(print_function(printer, "low_face_values",
+                                    "g of the monotone low-order flux", plan.low_flux))
+    limiters = tuple(print_function(printer, limiter_name(lim.name),
+                                    f"The limiter {lim.name}(r).", lim.program)
+                     for lim in plan.limiters)
+    offsets = tuple(Offset(q_name(k), _shift(k - 1), _shift(-k)) for k in plan.offsets)
+    programs = [plan.flux] + ([plan.low_flux] if plan.low_flux is not None else [])
+    uses_c = any(p.uses_c for p in programs)
+    names = [o.name for o in offsets]
+    stage_buffers = min(plan.stages - 1, 2)
+    return NumpyModule(
+        name=plan.name,
+        banner=tuple(banner) if banner is not None else banner_lines(scheme, precision),
+        real=PRECISIONS[precision],
+        halo=plan.halo,
+        face_halo=plan.face_halo,
+        stages=tuple(stage_expression(printer, u) for u in plan.stage_updates),
+        accumulator=plan.accumulator,
+        block_cells=BLOCK_CELLS,
+        params=tuple((param_name(name), name, printer.doprint(value))
+                     for name, value in plan.params),
+        limiters=limiters,
+        faces=tuple(faces),
+        helpers=tuple(sorted(printer.used_helpers)),
+        offsets=offsets,
+        frame_names=", ".join(names),
+        face_arguments=", ".join(names + (["c"] if uses_c else [])),
+        uses_c=uses_c,
+        guard_c=any(p.guard_c for p in programs),
+        fct=plan.fct,
+        clip=None if plan.clip is None else tuple(printer.doprint(v) for v in plan.clip),
+        workspace=_workspace_formula(stage_buffers, plan.accumulator),
+    )
+
+
+def numpy_source(scheme: Scheme, precision: str = "double", banner=None) -> str:
+    """The generated module's text: same scheme and precision, same bytes.
+
+    banner: the header lines; by default the shared banner with the analysis
+    verdicts (the run-time loader passes a shorter one to skip the analysis).
+    """
+    return environment.render("numpy_kernel.py.j2", m=numpy_module(scheme, precision, banner))
