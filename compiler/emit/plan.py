@@ -186,8 +186,18 @@ def _summary(value) -> str:
     return text if len(text) <= 100 else text[:97] + "..."
 
 
+_ANALYSIS_LINES: dict[str, tuple[str, ...]] = {}
+
+
 def analysis_lines(scheme: Scheme) -> tuple[str, ...]:
     """The analysis verdicts as short lines, or a note that no analysis is available."""
+    key = scheme.fingerprint
+    if key not in _ANALYSIS_LINES:
+        _ANALYSIS_LINES[key] = _analysis_lines(scheme)
+    return _ANALYSIS_LINES[key]
+
+
+def _analysis_lines(scheme: Scheme) -> tuple[str, ...]:
     try:
         from ..analysis import analyse
     except ImportError:
