@@ -53,7 +53,7 @@ def _extension_suffix() -> str:
 
 def compile_c(scheme: Scheme, precision: str = "double", opt: str = "-O2"):
     """Compile (or reuse) the C kernel of scheme; returns cffi's (ffi, lib)."""
-    sources = c_sources(scheme, precision)
+    sources = c_sources(scheme, precision, verdicts=False)
     header, kernel = sources[f"{scheme.name}.h"], sources[f"{scheme.name}.c"]
     # One translation unit: the header text stands in for the #include.
     source = kernel.replace(f'#include "{scheme.name}.h"', header, 1)

@@ -214,7 +214,7 @@ def stage_buffers(plan: KernelPlan) -> int:
     return min(plan.stages - 1, 2)
 
 
-def c_context(scheme: Scheme, precision: str = "double") -> dict:
+def c_context(scheme: Scheme, precision: str = "double", verdicts: bool = True) -> dict:
     """Everything the C templates need, printed."""
     plan = plan_kernel(scheme)
     printer = KernelPrinter(plan, precision)
@@ -246,7 +246,7 @@ def c_context(scheme: Scheme, precision: str = "double") -> dict:
         "fabs": "fabsf" if precision == "float" else "fabs",
         "one": printer._print(sympy.Float(1)),
         "zero": printer._print(sympy.Float(0)),
-        "banner": banner_lines(scheme, precision),
+        "banner": banner_lines(scheme, precision, verdicts),
         "params": params,
         "helpers": helpers,
         "limiters": limiters,
@@ -261,9 +261,12 @@ def c_context(scheme: Scheme, precision: str = "double") -> dict:
     }
 
 
-def c_sources(scheme: Scheme, precision: str = "double") -> dict[str, str]:
-    """{'NAME.h': header text, 'NAME.c': kernel text} for scheme at precision."""
-    context = c_context(scheme, precision)
+def c_sources(scheme: Scheme, precision: str = "double", verdicts: bool = True) -> dict[str, str]:
+    """{'NAME.h': header text, 'NAME.c': kernel text} for scheme at precision.
+
+    verdicts=False leaves the analysis out of the header comment.
+    """
+    context = c_context(scheme, precision, verdicts)
     return {
         f"{scheme.name}.h": render("c_header.h.j2", **context),
         f"{scheme.name}.c": render("c_kernel.c.j2", **context),
@@ -272,5 +275,5 @@ def c_sources(scheme: Scheme, precision: str = "double") -> dict[str, str]:
 
 def c_declarations(scheme: Scheme, precision: str = "double") -> str:
     """The header's declarations in the form cffi's cdef accepts."""
-    context = c_context(scheme, precision)
+    context = c_context(scheme, precision, verdicts=False)
     return render("c_cdef.h.j2", **context)

@@ -49,7 +49,8 @@ def fortran_identifier(name: str) -> str:
     return name
 
 
-def fortran_source(scheme: Scheme, precision: str = "double") -> dict[str, str]:
+def fortran_source(scheme: Scheme, precision: str = "double",
+                   verdicts: bool = True) -> dict[str, str]:
     """{'NAME_mod.f90': module text}."""
     check_precision(precision)
     plan = plan_kernel(scheme)
@@ -61,5 +62,5 @@ def fortran_source(scheme: Scheme, precision: str = "double") -> dict[str, str]:
     params = [{"name": fortran_identifier(f"{name}_param_{p}"), "value": printer.doprint(v)}
               for p, v in plan.params]
     text = render("fortran_module.f90.j2", name=name, plan=plan, kind=kind, params=params,
-                  banner=banner_lines(scheme, precision))
+                  banner=banner_lines(scheme, precision, verdicts))
     return {f"{name}_mod.f90": text}
