@@ -8,11 +8,12 @@ DIVERGENCE_FACTOR times the initial maximum) stops at that step and says so.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import Callable
 
 import numpy as np
 
+from .kernel import fill_periodic, periodic_faces
 from .norms import NORMS, Errors, errors, fitted_order, pair_orders
 from .profiles import Profile, face_positions
 
@@ -21,13 +22,6 @@ CONVERGENCE_CELLS = tuple(25 * 2 ** k for k in range(6))  # 25 .. 800
 
 
 # ---- stepping ----------------------------------------------------------------
-
-def fill_periodic(q: np.ndarray, halo: int) -> None:
-    """Copy the interior's ends into the ghost cells on the other side."""
-    if halo:
-        q[:halo] = q[-2 * halo:-halo]
-        q[-halo:] = q[halo:2 * halo]
-
 
 @dataclass(frozen=True)
 class Run:
@@ -52,7 +46,9 @@ def advance(kernel, q0: np.ndarray, u_face: np.ndarray, dt_dx: float, steps: int
     current = np.zeros(n + 2 * halo, dtype=kernel.dtype)
     current[halo:halo + n] = q0
     spare = np.zeros_like(current)
-    u_face = np.ascontiguousarray(u_face, dtype=kernel.dtype)
+    # FCT kernels read face velocities beyond both ends; extend them once, not every step
+    u_face = periodic_faces(np.ascontiguousarray(u_face, dtype=kernel.dtype),
+                            getattr(kernel, "face_halo", 0))
     limit = DIVERGENCE_FACTOR * max(float(np.max(np.abs(q0))), np.finfo(float).tiny)
     with np.errstate(all="ignore"):  # overflow is a finding, reported below
         for step in range(1, steps + 1):
@@ -81,6 +77,8 @@ class ConvergenceRow:
     courant: float
     errors: Errors | None      # None when the run diverged
     diverged_at: int | None
+    final: np.ndarray = field(repr=False, compare=False, default=None)   # the last state
+    exact: np.ndarray = field(repr=False, compare=False, default=None)
 
 
 @dataclass(frozen=True)
@@ -114,12 +112,10 @@ def convergence(kernel, profile: Profile, courant: float, velocity: float = 1.0,
         dt_dx = n / steps / abs(velocity)       # velocity * steps * dt_dx / n = one period
         q0 = profile.cell_averages(n)
         run = advance(kernel, q0, constant_velocity(n, velocity), dt_dx, steps)
-        if run.diverged_at is None:
-            exact = profile.cell_averages(n, shift=velocity * steps * dt_dx / n)
-            errs = errors(run.q, exact)
-        else:
-            errs = None
-        rows.append(ConvergenceRow(profile.name, n, steps, n / steps, errs, run.diverged_at))
+        exact = profile.cell_averages(n, shift=velocity * steps * dt_dx / n)
+        errs = errors(run.q, exact) if run.diverged_at is None else None
+        rows.append(ConvergenceRow(profile.name, n, steps, n / steps, errs, run.diverged_at,
+                                   run.q, exact))
     ns = [row.n for row in rows]
     per_norm = {norm: [row.errors.get(norm) if row.errors else float("nan") for row in rows]
                 for norm in NORMS}
@@ -165,7 +161,8 @@ class Shape:
     first_tv_growth: int | None
     mass_drift: float
     diverged_at: int | None
-    final: np.ndarray
+    final: np.ndarray = field(repr=False, compare=False, default=None)
+    exact: np.ndarray = field(repr=False, compare=False, default=None)  # at the final step
 
 
 class _ShapeWatch:
@@ -208,7 +205,8 @@ def shape(kernel, profile: Profile, courant: float, velocity: float = 1.0, n: in
     """Carry a (typically discontinuous) profile and watch its shape every step."""
     steps = revolution_steps(n, courant) if steps is None else steps
     q0 = profile.cell_averages(n)
-    watch = _ShapeWatch(q0, round_off(kernel), kernel.halo)
+    # a whole step (all its stages) reads up to stages * halo cells either side
+    watch = _ShapeWatch(q0, round_off(kernel), kernel.halo * getattr(kernel, "stages", 1))
     run = advance(kernel, q0, constant_velocity(n, velocity), courant / abs(velocity),
                   steps, watch)
     return Shape(profile.name, n, run.steps, courant, velocity, (watch.low, watch.high),
@@ -216,7 +214,8 @@ def shape(kernel, profile: Profile, courant: float, velocity: float = 1.0, n: in
                  watch.first_out is None, watch.first_out,
                  watch.new_extrema, watch.first_extremum,
                  watch.tv_steps, watch.tv_increase, watch.first_tv,
-                 relative_drift(q0, run.q), run.diverged_at, run.q)
+                 relative_drift(q0, run.q), run.diverged_at, run.q,
+                 profile.cell_averages(n, shift=velocity * run.steps * courant / abs(velocity) / n))
 
 
 # ---- conservation ------------------------------------------------------------------
@@ -269,13 +268,14 @@ def mirror_mismatch(kernel, profile: Profile, courant: float, n: int = 64,
 @dataclass(frozen=True)
 class Probe:
     courant: float
-    growth: float            # l2 norm at the end over l2 norm half way (inf if diverged)
+    growth: float            # linear: max |G| over the grid's modes; else l2 growth, 2nd half
     diverged_at: int | None
     grows: bool
 
 
 @dataclass(frozen=True)
 class Stability:
+    method: str                  # "spectral" (linear schemes) or "growth" (nonlinear)
     probes: tuple[Probe, ...]
     measured_max: float | None   # edge of the stable interval nearest 0; None if none found
     unstable_everywhere: bool    # grew at every Courant number tried
@@ -284,11 +284,33 @@ class Stability:
     resolution: float
 
 
-GROWTH_FACTOR = 2.0  # over the second half of a probe; stable linear schemes never grow at all
+GROWTH_FACTOR = 2.0    # over the second half of a growth probe
+SPECTRAL_TOL = 1e-10   # |G| above 1 by more than round-off
 
 
-def probe(kernel, courant: float, velocity: float = 1.0, n: int = 64, steps: int = 1000,
-          seed: int = 2024) -> Probe:
+def spectral_probe(kernel, courant: float, velocity: float = 1.0, n: int = 256,
+                   centre: float = 0.0, amplitude: float = 1.0, seed: int = 2024) -> Probe:
+    """One step of random data through a kernel that is linear (about `centre`): the
+    ratio of Fourier coefficients after and before is the amplification factor of
+    each of the grid's modes, measured on the kernel itself.
+
+    A clamped scheme is probed with a small amplitude about the middle of its range,
+    so the clamp stays idle and the scheme underneath is what is measured."""
+    rng = np.random.default_rng(seed)
+    noise = rng.standard_normal(n)
+    noise -= noise.mean()
+    q0 = centre + amplitude * noise
+    run = advance(kernel, q0, constant_velocity(n, velocity), courant / abs(velocity), 1)
+    if run.diverged_at is not None:
+        return Probe(courant, math.inf, run.diverged_at, True)
+    before = np.fft.rfft(q0 - centre)[1:]     # the mean is conserved, not amplified
+    after = np.fft.rfft(run.q - centre)[1:]
+    gain = float(np.max(np.abs(after / before)))
+    return Probe(courant, gain, None, gain > 1 + SPECTRAL_TOL)
+
+
+def growth_probe(kernel, courant: float, velocity: float = 1.0, n: int = 64,
+                 steps: int = 1000, seed: int = 2024) -> Probe:
     """Random zero-mean data, `steps` steps at `courant`: does the l2 norm keep growing?
 
     The first half lets damped modes die out, so the second half sees the least
@@ -311,35 +333,45 @@ def probe(kernel, courant: float, velocity: float = 1.0, n: int = 64, steps: int
 
 
 def stability_sweep(kernel, velocity: float = 1.0, predicted_max: float | None = None,
-                    step: float = 0.25, resolution: float = 0.005, n: int = 64,
-                    steps: int = 1000) -> Stability:
+                    linear: bool = False, clip: tuple[float, float] | None = None,
+                    step: float = 0.25) -> Stability:
     """Walk up in Courant number until the scheme grows, then bisect the edge.
 
-    An unstable scheme is tried at every grid point, to show it grows at each one."""
+    Linear schemes (`linear`, possibly under a `clip`) are probed spectrally, others
+    by growth over many steps. An unstable scheme is tried at every grid point, to
+    show it grows at each one."""
+    if linear:
+        centre, amplitude = ((clip[0] + clip[1]) / 2, (clip[1] - clip[0]) * 1e-6) if clip else (0.0, 1.0)
+
+        def measure(c):
+            return spectral_probe(kernel, c, velocity, centre=centre, amplitude=amplitude)
+        method, resolution = "spectral", 0.001
+    else:
+        def measure(c):
+            return growth_probe(kernel, c, velocity)
+        method, resolution = "growth", 0.005
     top = max(1.5, 1.25 * predicted_max + 0.25) if predicted_max else 1.5
     grid = [step * k for k in range(1, int(round(top / step)) + 1)]
     probes = []
-    stable_below = None
-    first_unstable = None
+    stable_below = first_unstable = None
     for c in grid:
-        result = probe(kernel, c, velocity, n, steps)
+        result = measure(c)
         probes.append(result)
         if result.grows:
             first_unstable = c
             break
         stable_below = c
     if first_unstable is not None and stable_below is None:
-        for c in grid[1:]:
-            probes.append(probe(kernel, c, velocity, n, steps))
+        probes += [measure(c) for c in grid[1:]]
         everywhere = all(p.grows for p in probes)
-        return Stability(tuple(probes), None, everywhere, False, grid[-1], resolution)
+        return Stability(method, tuple(probes), None, everywhere, False, grid[-1], resolution)
     if first_unstable is None:
-        return Stability(tuple(probes), None, False, True, grid[-1], resolution)
+        return Stability(method, tuple(probes), None, False, True, grid[-1], resolution)
     low, high = stable_below, first_unstable
     while high - low > resolution:
         mid = (low + high) / 2
-        result = probe(kernel, mid, velocity, n, steps)
+        result = measure(mid)
         probes.append(result)
         low, high = (low, mid) if result.grows else (mid, high)
-    return Stability(tuple(sorted(probes, key=lambda p: p.courant)), (low + high) / 2,
+    return Stability(method, tuple(sorted(probes, key=lambda p: p.courant)), (low + high) / 2,
                      False, False, grid[-1], resolution)

@@ -1,0 +1,98 @@
+"""`fluxloom verify FILE`: measure a scheme's kernel and hold it against the analysis.
+
+Exit status 0 when every finding agrees with the analysis, 1 when any disagrees,
+2 for bad input.
+"""
+from __future__ import annotations
+
+import argparse
+import json
+import math
+import sys
+from pathlib import Path
+
+from ..findings import Options, Prediction, verification_json, verify_kernel
+from ..report import verification_text, write_verification
+from .common import add_set_option, add_spec_argument, scheme_from_args
+
+VELOCITIES = ("+1", "-1", "varying")
+
+
+def register(sub) -> None:
+    parser = sub.add_parser(
+        "verify", help="measure a scheme's kernel against what the analysis predicts",
+        description="Run the generated kernel on standard profiles (convergence, bounds, new "
+                    "extrema, total variation, conservation, stability, velocity sign) and "
+                    "print each finding as predicted vs measured. Exit 1 if any disagrees.")
+    add_spec_argument(parser)
+    add_kernel_options(parser)
+    parser.add_argument("--velocity", choices=VELOCITIES, default="+1",
+                        help="face velocity: +1, -1, or 'varying' (conservation then also with "
+                             "a sign-changing field; convergence and bounds need a constant one "
+                             "and use +1) (default +1)")
+    add_set_option(parser)
+    parser.add_argument("--json", action="store_true", help="print the findings as JSON")
+    parser.add_argument("--report", metavar="DIR",
+                        help="also write a Markdown report, JSON and PNG figures into DIR")
+    parser.add_argument("--force", action="store_true",
+                        help="let --report replace files fluxloom did not write")
+    parser.set_defaults(run=run)
+
+
+def add_kernel_options(parser) -> None:
+    parser.add_argument("--backend", choices=("numpy", "c"), default="numpy",
+                        help="which generated kernel to measure (default numpy)")
+    parser.add_argument("--precision", choices=("double", "float"), default="double")
+    parser.add_argument("--courant", type=courant_number, default=0.5, metavar="C",
+                        help="Courant number |u| dt/dx of the runs (default 0.5)")
+
+
+def courant_number(text: str) -> float:
+    try:
+        value = float(text)
+    except ValueError:
+        value = math.nan
+    if not (math.isfinite(value) and value > 0):
+        raise argparse.ArgumentTypeError(f"expects a positive number, given '{text}'")
+    return value
+
+
+def analysis_document(scheme, courant: float) -> dict:
+    """The analysis JSON (`fluxloom check --json`) that findings are judged against."""
+    from fluxloom.compiler.analysis import analyse
+
+    doc = analyse(scheme, courant).to_json()
+    return json.loads(doc) if isinstance(doc, str) else doc
+
+
+def load_for_measuring(scheme, backend: str, precision: str):
+    from ..kernel import load_kernel
+
+    return load_kernel(scheme, backend=backend, precision=precision)
+
+
+def progress_printer(enabled: bool, prefix: str):
+    if not enabled:
+        return None
+
+    def say(message: str) -> None:
+        print(f"{prefix}: {message} ...", file=sys.stderr, flush=True)
+    return say
+
+
+def run(args) -> int:
+    scheme = scheme_from_args(args)
+    options = Options(courant=args.courant, velocity=args.velocity)
+    prediction = Prediction.from_analysis(analysis_document(scheme, args.courant), scheme)
+    kernel = load_for_measuring(scheme, args.backend, args.precision)
+    say = progress_printer(sys.stderr.isatty() and not args.json, f"verify {scheme.name}")
+    verification = verify_kernel(kernel, prediction, options, progress=say)
+    if args.report:
+        written = write_verification(verification, Path(args.report), args.force)
+        if not args.json:
+            print(f"report: {', '.join(str(p) for p in written)}", file=sys.stderr)
+    if args.json:
+        print(json.dumps(verification_json(verification), indent=2))
+    else:
+        print(verification_text(verification), end="")
+    return 0 if verification.agree else 1
