@@ -417,15 +417,15 @@ def _godunov_finding(pred: Prediction, shapes, convergence, c: float) -> Finding
 
 # ---- the JSON document of `fluxloom verify --json` -------------------------------------
 
-def _clean(x):
+def json_safe(x):
     if isinstance(x, float) and not math.isfinite(x):
         return None
     if isinstance(x, dict):
-        return {k: _clean(v) for k, v in x.items()}
+        return {k: json_safe(v) for k, v in x.items()}
     if isinstance(x, (list, tuple)):
-        return [_clean(v) for v in x]
+        return [json_safe(v) for v in x]
     if isinstance(x, np.generic):
-        return _clean(x.item())
+        return json_safe(x.item())
     return x
 
 
@@ -466,4 +466,4 @@ def verification_json(v: Verification) -> dict:
         "findings": [f.to_json() for f in v.findings],
         "agree": v.agree,
     }
-    return _clean(doc)
+    return json_safe(doc)
