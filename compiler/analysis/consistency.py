@@ -1,0 +1,141 @@
+"""Consistency, order and the modified equation, from the series of ln G.
+
+With q_j = exp(i j theta) and x = i theta, ln G(e^x) = dt sum_m a_m x^m / dx^m
+for the modified equation q_t = sum_m a_m d^m q / dx^m. With dt = c dx / u the
+coefficient L_m of x^m gives a_m = L_m u dx^(m-1) / c. a_1 = -u is
+consistency; the first nonzero a_m with m >= 2 gives order m - 1 at fixed c.
+For method-of-lines schemes the same series of the semi-discrete symbol
+lambda gives the spatial modified equation, a_m = Lambda_m u dx^(m-1).
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import sympy
+
+from ..symbols import C
+from .symbol import LinearScheme
+from .timemethods import linear_order, method
+
+SERIES_ORDER = 8                   # terms of the series kept: enough for two terms past third order
+U = sympy.Symbol("u", positive=True)
+DX = sympy.Symbol("dx", positive=True)
+DT = sympy.Symbol("dt", positive=True)
+
+
+@dataclass(frozen=True)
+class Term:
+    derivative: int            # m in d^m q / dx^m
+    coefficient: sympy.Expr    # a_m in u, dx and c
+
+    @property
+    def derivative_name(self) -> str:
+        return "q_" + "x" * self.derivative
+
+    @property
+    def coefficient_text(self) -> str:
+        return sympy.sstr(self.coefficient)
+
+
+@dataclass(frozen=True)
+class Consistency:
+    label: str
+    consistent: bool
+    order_space: int | None
+    order_time: int | None
+    order_overall: int | None
+    terms: tuple[Term, ...]              # first two nonzero terms with m >= 2 (fully discrete)
+    spatial_terms: tuple[Term, ...]      # method-of-lines: of the semi-discrete operator
+    note: str
+
+
+def _series(laurent: dict, order: int) -> list[sympy.Expr]:
+    """Coefficients of x^n, n = 0..order, of sum_m b_m exp(m x)."""
+    return [sympy.expand(sum((v * sympy.Integer(m) ** n for m, v in laurent.items()),
+                             sympy.Integer(0)) / sympy.factorial(n)) for n in range(order + 1)]
+
+
+def _log_series(coeffs: list[sympy.Expr]) -> list[sympy.Expr]:
+    """Coefficients of ln(sum_n G_n x^n), given G_0 = 1, truncated at the same order."""
+    order = len(coeffs) - 1
+    h = [sympy.Integer(0)] + coeffs[1:]
+    out = [sympy.Integer(0)] * (order + 1)
+    power = [sympy.Integer(1)] + [sympy.Integer(0)] * order
+    for j in range(1, order + 1):
+        power = [sympy.expand(sum((power[i] * h[n - i] for i in range(n + 1)), sympy.Integer(0)))
+                 for n in range(order + 1)]
+        sign = sympy.Integer(1) if j % 2 else sympy.Integer(-1)
+        for n in range(order + 1):
+            out[n] += sign * power[n] / j
+    return [sympy.expand(v) for v in out]
+
+
+def _terms(log_coeffs, per_step: bool, wanted: int = 2) -> list[Term]:
+    """The first `wanted` nonzero a_m with m >= 2, factored for reading."""
+    out = []
+    for m in range(2, len(log_coeffs)):
+        value = sympy.expand(log_coeffs[m])
+        if value == 0:
+            continue
+        a_m = value / C if per_step else value
+        out.append(Term(m, sympy.factor(a_m) * U * DX ** (m - 1)))
+        if len(out) == wanted:
+            break
+    return out
+
+
+def _split_orders(terms: list[Term]) -> tuple[int | None, int | None, str]:
+    """Orders in space and in time from the powers of c in each a_m.
+
+    a term c^j u dx^(m-1) is u^(1+j) dt^j dx^(m-1-j): j = 0 is a space error,
+    j = m - 1 a time error, anything between is mixed and counts for both.
+    """
+    space = time = None
+    note = ""
+    for term in terms:
+        p = term.derivative - 1
+        expr = sympy.expand(term.coefficient / (U * DX ** p))
+        try:
+            poly = sympy.Poly(expr, C)
+            powers = [mon[0] for mon in poly.monoms()]
+        except sympy.PolynomialError:
+            powers = None
+        if powers is None or any(j < 0 for j in powers):
+            note = "a coefficient is not polynomial in c, so only the order at fixed c is meaningful"
+            space = p if space is None else space
+            time = p if time is None else time
+            continue
+        if space is None and any(j < p for j in powers):
+            space = p
+        if time is None and any(j > 0 for j in powers):
+            time = p
+    return space, time, note
+
+
+def analyse_consistency(scheme: LinearScheme) -> Consistency:
+    if not scheme.update:
+        return Consistency(scheme.label, False, None, None, None, (), (), "the update is empty")
+    euler = scheme.time == "euler"
+    lam = _series(scheme.semi_discrete, SERIES_ORDER)
+    consistent = sympy.simplify(lam[0]) == 0 and sympy.simplify(lam[1] + 1) == 0
+    if not consistent:
+        return Consistency(scheme.label, False, None, None, None, (), (),
+                           f"the semi-discrete symbol gives a_1 = {sympy.sstr(-lam[1])}*(-u), not -u"
+                           if sympy.simplify(lam[0]) == 0 else "constants are not preserved")
+    full = _log_series(_series(scheme.update, SERIES_ORDER))
+    terms = _terms(full, per_step=True)
+    overall = terms[0].derivative - 1 if terms else None
+    spatial_terms = _terms(lam, per_step=False)
+    if euler:
+        space, time, note = _split_orders(_terms(full, per_step=True, wanted=SERIES_ORDER))
+        spatial = ()
+    else:
+        space = spatial_terms[0].derivative - 1 if spatial_terms else None
+        time = linear_order(scheme.time)
+        note = (f"space: semi-discrete operator; time: {method(scheme.time).description}, "
+                f"order {time}")
+        spatial = tuple(spatial_terms[:2])
+    if overall is None:
+        note = (note + "; " if note else "") + \
+            f"no error term up to d^{SERIES_ORDER} q/dx^{SERIES_ORDER}: order at least {SERIES_ORDER - 1}"
+    return Consistency(scheme.label, True, space, time, overall, tuple(terms[:2]), spatial, note)

@@ -1,0 +1,135 @@
+"""Limiter bodies as pieces: (rational function of r, interval) pairs.
+
+Limiters are mostly built from max, min and abs of rational functions, so on
+each piece of the real line they are one rational function. Working piece by
+piece keeps every limiter fact exact; where a body is not piecewise rational
+the callers fall back to sampling on a stated grid.
+"""
+from __future__ import annotations
+
+from functools import lru_cache
+
+import numpy
+import sympy
+
+from ..symbols import R
+
+SAMPLE_GRID = "r in [-4, 0] step 1/200, (0, 20] step 1/2000, and 10^k for k up to 6"
+
+
+def sample_points() -> numpy.ndarray:
+    """The dense grid used where a body is not piecewise rational."""
+    return numpy.unique(numpy.concatenate([
+        numpy.linspace(-4.0, 0.0, 801), numpy.linspace(5e-4, 20.0, 40000),
+        numpy.logspace(1.3, 6.0, 400)]))
+
+
+@lru_cache(maxsize=256)
+def pieces(body: sympy.Expr) -> tuple[tuple[sympy.Expr, sympy.Interval], ...] | None:
+    """The body as (rational expression, interval) pairs covering the reals, or None."""
+    try:
+        folded = sympy.piecewise_fold(body.rewrite(sympy.Piecewise))
+        if isinstance(folded, sympy.Piecewise):
+            pairs = folded.as_expr_set_pairs(sympy.S.Reals)
+        else:
+            pairs = [(folded, sympy.S.Reals)]
+    except Exception:  # sympy could not split the body; the caller samples instead
+        return None
+    out = []
+    for expr, where in pairs:
+        expr = sympy.cancel(expr)
+        if not is_rational_in_r(expr):
+            return None
+        for part in (where.args if isinstance(where, sympy.Union) else (where,)):
+            if isinstance(part, sympy.Interval):
+                out.append((expr, part))
+            elif part.is_empty or isinstance(part, sympy.FiniteSet):
+                continue  # single points do not change extrema of a piece's closure
+            else:
+                return None
+    return tuple(sorted(out, key=lambda p: float(p[1].inf)))
+
+
+def is_rational_in_r(expr: sympy.Expr) -> bool:
+    num, den = sympy.fraction(sympy.cancel(expr))
+    return all(sympy.Poly(part, R).domain.is_QQ or sympy.Poly(part, R).domain.is_ZZ
+               for part in (num, den) if part.free_symbols <= {R}) and expr.free_symbols <= {R}
+
+
+def piece_at(body_pieces, point: sympy.Expr, side: int = 0) -> sympy.Expr | None:
+    """The piece valid just left (side=-1), at (0) or just right (+1) of point."""
+    nudge = sympy.Rational(1, 10 ** 9) * side
+    probe = point + nudge
+    for expr, where in body_pieces:
+        if where.contains(probe) == sympy.true:
+            return expr
+    return None
+
+
+def interior_roots(poly_expr: sympy.Expr, lo, hi) -> list[sympy.Expr]:
+    """Real roots of a polynomial in r strictly between lo and hi, exact."""
+    if poly_expr.is_number:
+        return []
+    poly = sympy.Poly(poly_expr, R)
+    found = []
+    for root in sympy.real_roots(poly):
+        if (lo == -sympy.oo or root > lo) and (hi == sympy.oo or root < hi):
+            found.append(root)
+    return sorted(set(found), key=lambda v: float(v))
+
+
+def rational_between(a, b) -> sympy.Rational:
+    """A rational strictly between two reals (either may be infinite)."""
+    if a == -sympy.oo and b == sympy.oo:
+        return sympy.Integer(0)
+    if a == -sympy.oo:
+        return sympy.floor(b) - 1
+    if b == sympy.oo:
+        return sympy.ceiling(a) + 1
+    mid = (sympy.N(a, 40) + sympy.N(b, 40)) / 2
+    return sympy.Rational(str(mid))
+
+
+def sign_pattern(expr: sympy.Expr, interval: sympy.Interval) -> list[int]:
+    """Signs of a rational function at test points between its zeros and poles in the interval."""
+    num, den = sympy.fraction(sympy.cancel(expr))
+    lo, hi = interval.inf, interval.sup
+    cuts = sorted(set(interior_roots(num, lo, hi) + interior_roots(den, lo, hi)),
+                  key=lambda v: float(v))
+    points = [lo] + cuts + [hi]
+    signs = []
+    for a, b in zip(points, points[1:]):
+        value = expr.subs(R, rational_between(a, b))
+        signs.append(int(sympy.sign(value)))
+    return signs
+
+
+def nonnegative_on(expr: sympy.Expr, interval: sympy.Interval) -> bool:
+    """expr >= 0 throughout the interval (exact for rational expr; zeros allowed)."""
+    if interval.measure == 0:
+        return all(sympy.simplify(expr.subs(R, p)) >= 0 for p in interval.boundary
+                   if p.is_finite)
+    return all(s >= 0 for s in sign_pattern(expr, interval))
+
+
+def extrema_on(expr: sympy.Expr, interval: sympy.Interval) -> tuple[sympy.Expr, sympy.Expr]:
+    """(inf, sup) of a rational function over an interval, limits at open ends."""
+    lo, hi = interval.inf, interval.sup
+    candidates = []
+    for end, direction in ((lo, "+"), (hi, "-")):
+        candidates.append(sympy.limit(expr, R, end, direction))
+    num, _ = sympy.fraction(sympy.cancel(sympy.diff(expr, R)))
+    for root in interior_roots(num, lo, hi):
+        candidates.append(sympy.simplify(expr.subs(R, root)))
+    _, den = sympy.fraction(sympy.cancel(expr))
+    if interior_roots(den, lo, hi):
+        return -sympy.oo, sympy.oo
+    return min(candidates, key=_key), max(candidates, key=_key)
+
+
+def _key(value):
+    if value == sympy.oo:
+        return float("inf")
+    if value == -sympy.oo:
+        return float("-inf")
+    return float(value)

@@ -1,0 +1,243 @@
+"""The JSON document of `fluxloom check --json`, built from an Analysis.
+
+Numbers are JSON numbers; each exact value sits beside its number as a string
+(`courant_max` and `courant_max_exact`). An unbounded end is null with exact
+form "oo". Every verdict says which property of the scheme it comes from
+("scheme", "clip", "fct", "limiter") and what decided it.
+"""
+from __future__ import annotations
+
+import sympy
+
+from . import intervals
+from .intervals import CourantSet, Span
+from .timemethods import imaginary_axis_limit, method, stability_polynomial
+
+SCHEMA_VERSION = 1
+
+
+def _num(value):
+    if value is None:
+        return None
+    if value == sympy.oo or value == -sympy.oo:
+        return None
+    return float(sympy.N(value, 17))
+
+
+def _exact(value):
+    return None if value is None else intervals.exact_text(value)
+
+
+def _span(span: Span | None) -> dict:
+    if span is None:
+        return {"courant_min": None, "courant_min_exact": None,
+                "courant_max": None, "courant_max_exact": None}
+    return {"courant_min": _num(span.lo), "courant_min_exact": _exact(span.lo),
+            "courant_max": _num(span.hi), "courant_max_exact": _exact(span.hi)}
+
+
+def _set(cset: CourantSet | None) -> dict:
+    if cset is None:
+        return {**_span(None), "islands": [], "set": None, "method": None, "tolerance": None}
+    return {**_span(cset.main), "islands": [_span(p) for p in cset.islands],
+            "set": cset.text(), "method": cset.method, "tolerance": cset.tolerance}
+
+
+def _terms(terms) -> list[dict]:
+    return [{"derivative": t.derivative_name, "derivative_order": t.derivative,
+             "coefficient": t.coefficient_text} for t in terms]
+
+
+def analysis_document(a) -> dict:
+    s = a.scheme
+    lin = a.linearisation
+    doc: dict = {"schema": SCHEMA_VERSION, "scheme": s.name, "about": s.about, "time": s.time,
+                 "halo": s.halo, "offsets": list(s.offsets), "fingerprint": s.fingerprint,
+                 "params": {p.name: {"value": _num(p.value), "exact": _exact(p.value)}
+                            for p in s.params},
+                 "courant": a.courant, "linear": lin.exact, "linearisation": lin.note}
+    undecided: list[str] = []
+
+    # consistency and order
+    doc["consistent"] = a.consistent
+    order = a.order
+    notes = [c.note for c in a.consistency if c.note]
+    if not lin.exact:
+        notes.append("order in smooth monotone regions (limiter linearised at r = 1); it drops "
+                     "to first order or below at extrema, where the limiter switches off")
+    if a.order_cap_note:
+        notes.append(a.order_cap_note)
+    if s.correct == "fct":
+        notes.append("order of the flux in smooth regions; it drops where the FCT correction bites")
+    if s.clip is not None:
+        notes.append("the scheme's own order where the clamp is inactive")
+    doc["order"] = {**order, "note": "; ".join(dict.fromkeys(notes))}
+    first = a.consistency[0] if a.consistency else None
+    doc["modified_equation"] = _terms(first.terms) if first else []
+    doc["modified_equation_form"] = "q_t + u q_x = sum of coefficient * derivative (u > 0, c = u dt/dx)"
+    doc["modified_equation_by_scheme"] = [
+        {"label": c.label, "consistent": c.consistent,
+         "order": {"space": c.order_space, "time": c.order_time, "overall": c.order_overall},
+         "terms": _terms(c.terms), "semi_discrete_terms": _terms(c.spatial_terms)}
+        for c in a.consistency]
+    if not a.consistency:
+        undecided.append(f"consistency: {lin.note}")
+
+    # stability
+    span = a.stable_interval
+    every = [st.stable for st in a.stability]
+    exact = all(cs.tolerance is None for cs in every)
+    islands = []
+    if len(a.stability) == 1:
+        islands = [_span(p) for p in a.stability[0].stable.islands]
+    doc["stability"] = {
+        "kind": a.stability_kind if a.stability else None, **_span(span), "islands": islands,
+        "method": "; ".join(dict.fromkeys(cs.method for cs in every)) or None,
+        "tolerance": None if exact else max(cs.tolerance for cs in every if cs.tolerance),
+        "basis": ("the scheme's own amplification factor" if lin.exact else
+                  "every linear scheme the limited scheme reduces to (linearised at r = 1 and "
+                  "limiter frozen at 0 and at psi(1)); the interval is their common one"),
+        "source": "scheme",
+        "schemes": [{"label": st.label, "kind": st.kind, "amplification_z": st.amplification,
+                     "abs_squared_s": st.abs_squared, "semi_discrete_z": st.semi_discrete,
+                     **_set(st.stable)} for st in a.stability],
+        "variables": "z = exp(i theta), s = sin(theta/2)^2, theta = k dx",
+    }
+    if s.time != "euler":
+        m = method(s.time)
+        limit = imaginary_axis_limit(s.time)
+        doc["stability"]["time_method"] = {
+            "name": s.time, "description": m.description,
+            "stability_polynomial": sympy.sstr(stability_polynomial(s.time)),
+            "imaginary_axis_limit": _num(limit) if limit != 0 else 0.0,
+            "imaginary_axis_limit_exact": _exact(limit),
+            "ssp_coefficient": _num(m.ssp_coefficient), "order": m.order}
+    if not a.stability:
+        undecided.append(f"stability: {lin.note}")
+
+    # conservation
+    doc["conservative"] = a.conservation.conservative
+    doc["conservation"] = {"reason": a.conservation.reason, "source": a.conservation.source}
+
+    # convergence (Lax equivalence: linear schemes only)
+    conv = {"holds": None, **_span(None), "order": None, "reason": "", "source": "scheme"}
+    if not lin.exact or s.clip is not None or s.correct == "fct":
+        why = ("post-step clamp makes the scheme nonlinear" if s.clip is not None else
+               "flux-corrected transport is nonlinear" if s.correct == "fct" else
+               "the scheme is nonlinear (limited)")
+        conv["reason"] = (f"{why}; the Lax equivalence theorem covers linear schemes "
+                          "only (the harness measures convergence)")
+        conv["source"] = "clip" if s.clip is not None else ("fct" if s.correct == "fct" else "limiter")
+        undecided.append("convergence: " + why)
+    elif not a.consistent:
+        conv.update(holds=False, reason="not consistent, so not convergent")
+    elif span is None:
+        conv.update(holds=False, reason="consistent but stable at no Courant number (beyond "
+                    "isolated values), so by the Lax equivalence theorem it does not converge")
+    else:
+        conv.update(holds=True, **_span(span), order=order["overall"],
+                    reason=f"consistent and stable for {span.text()}, hence convergent there "
+                           f"(Lax equivalence theorem) with order {order['overall']}")
+    doc["convergent"] = conv
+
+    # monotonicity
+    mono = {"holds": None, **_span(None), "islands": [], "coefficients": {}, "method": None,
+            "reason": "", "source": "scheme", "bounding": []}
+    if s.correct == "fct":
+        mono["reason"] = ("flux-corrected transport is nonlinear, so the coefficient test does "
+                          "not apply; it is bounded and free of new extrema where its low flux is "
+                          "monotone (see bounds)")
+        mono["bounding"] = [{"label": f"flux alone ({m.label})", "holds": m.holds, **_set(m.monotone)}
+                            for m in a.monotone]
+        undecided.append("monotone: flux-corrected transport (see bounds)")
+    elif lin.exact and a.monotone:
+        m0 = a.monotone[0]
+        mono.update(holds=m0.holds, **_set(m0.monotone))
+        mono.pop("set", None)
+        mono.pop("tolerance", None)
+        mono["coefficients"] = {str(k): sympy.sstr(v) for k, v in m0.coefficients}
+        mono["reason"] = (f"every update coefficient is >= 0 for {m0.monotone.text()}"
+                          if m0.holds else "some update coefficient is negative for every c > 0 "
+                          "(apart from isolated values)")
+    else:
+        mono["reason"] = ("the coefficient test applies to linear schemes; a limited "
+                          "scheme is judged by TVD (see tvd)")
+        mono["bounding"] = [{"label": m.label, "holds": m.holds, **_set(m.monotone)}
+                            for m in a.monotone]
+        undecided.append("monotone: nonlinear scheme")
+    if s.clip is not None:
+        mono["source"] = "scheme"
+        mono["reason"] += "; the clamp is pointwise and non-decreasing, so it keeps this verdict"
+    if s.correct == "fct":
+        mono["source"] = "fct"
+    doc["monotone"] = mono
+
+    # limiters
+    doc["limiters"] = {}
+    for lim in a.limiters:
+        doc["limiters"][lim.name] = {
+            "psi": lim.body, "psi_at_1": _num(lim.psi_at_1), "psi_at_1_exact": _exact(lim.psi_at_1),
+            "slope_at_1": {"left": _num(lim.slope_left), "right": _num(lim.slope_right),
+                           "left_exact": _exact(lim.slope_left),
+                           "right_exact": _exact(lim.slope_right)},
+            "sweby_tvd": lim.sweby_tvd, "second_order_region": lim.second_order_region,
+            "symmetric": lim.symmetric, "sup_psi": _num(lim.sup_psi),
+            "sup_psi_exact": _exact(lim.sup_psi), "sup_psi_over_r": _num(lim.sup_psi_over_r),
+            "sup_psi_over_r_exact": _exact(lim.sup_psi_over_r),
+            "method": lim.method, "why_not": list(lim.why)}
+
+    # TVD
+    t = a.tvd
+    tvd = {"holds": t.holds, **_set(t.stable_set), "method": t.method, "reason": t.reason,
+           "source": t.source, "harten_c": t.incremental_c}
+    tvd.pop("tolerance", None)
+    if s.clip is not None and t.holds is not None:
+        tvd["reason"] = "; ".join(filter(None, [tvd["reason"], "the clamp is pointwise, non-decreasing and 1-Lipschitz, so it "
+                          "does not raise total variation"]))
+    if t.holds is None:
+        undecided.append("tvd: " + t.reason)
+    doc["tvd"] = tvd
+
+    # dispersion
+    if a.dispersion is not None:
+        doc["dispersion"] = {
+            "label": a.dispersion.label, "courant": a.dispersion.courant,
+            "rows": [{"cells_per_wavelength": r.cells_per_wavelength, "theta": r.theta,
+                      "amplitude_per_step": r.amplitude_per_step,
+                      "phase_error_per_step": r.phase_error_per_step,
+                      "relative_phase_speed": r.relative_phase_speed,
+                      "amplitude_per_wavelength": r.amplitude_per_wavelength,
+                      "phase_error_per_wavelength": r.phase_error_per_wavelength}
+                     for r in a.dispersion.rows]}
+    else:
+        doc["dispersion"] = None
+
+    # bounds
+    b = a.bounds
+    if b is None:
+        doc["bounds"] = None
+    else:
+        doc["bounds"] = {"kind": b.kind, "bounded": b.bounded, "low": _num(b.low),
+                         "low_exact": _exact(b.low), "high": _num(b.high), "high_exact": _exact(b.high),
+                         **({"bounded_for": _set(b.bounded_set)} if b.bounded_set else {}),
+                         "new_extrema": b.new_extrema, "order": b.order, "reason": b.reason,
+                         "low_flux_coefficients": {str(k): sympy.sstr(v)
+                                                   for k, v in b.low_flux_coefficients},
+                         "source": b.kind}
+    if b is None:
+        doc["bounded"] = {"holds": None, **_span(None), "reason": "no clip or correct statement; "
+                          "see monotone and tvd", "source": "scheme"}
+    elif b.kind == "clip":
+        doc["bounded"] = {"holds": True, **_span(None), "reason": b.reason, "source": "clip"}
+    else:
+        doc["bounded"] = {"holds": b.bounded, **_span(b.bounded_set.main if b.bounded_set else None),
+                          "reason": b.reason, "source": "fct"}
+    doc["verdict_sources"] = {
+        "consistent": "scheme" if lin.exact else "limiter",
+        "order": "fct" if s.correct == "fct" else ("scheme" if lin.exact else "limiter"),
+        "stability": "scheme" if lin.exact else "limiter",
+        "conservative": doc["conservation"]["source"], "convergent": conv["source"],
+        "monotone": mono["source"], "tvd": tvd["source"],
+        "bounded": None if b is None else b.kind}
+    doc["undecided"] = undecided
+    return doc

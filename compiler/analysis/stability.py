@@ -1,0 +1,185 @@
+"""Von Neumann stability: |G(c, theta)| <= 1 for all theta, as a set of Courant numbers.
+
+|G|^2 - 1 = P(c, s) is a polynomial in s = sin^2(theta/2) on [0, 1]. The stable
+set can change only where P(c, .) gains or loses a non-positive maximum: at
+s = 0 or 1 (roots of P(c, 0), P(c, 1) after the factors s and 1 - s that hold
+for every c are divided out), where the leading coefficient vanishes, or where
+two roots in s meet (the discriminant in s). Those values of c are exact; one
+exact test between each pair decides the set. Where the coefficients are not
+rational, or sympy would take too long, a numeric scan with a stated tolerance
+decides instead.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy
+import sympy
+
+from ..symbols import C
+from . import intervals
+from .intervals import CourantSet, Span
+from .symbol import S, LinearScheme
+
+NUMERIC_TOLERANCE = 1e-5     # Courant-number tolerance of the numeric path
+NUMERIC_C_RANGE = 8.0        # the numeric path scans 0 < c <= this
+GROWTH_SLACK = 1e-12         # |G|^2 - 1 below this counts as <= 0 (round-off)
+MAX_EXACT_DEGREE = 12        # above this degree in s the discriminant is left to numerics
+
+
+@dataclass(frozen=True)
+class Stability:
+    label: str                   # which linear scheme
+    amplification: str           # G as a polynomial in z = exp(i theta)
+    abs_squared: str             # |G|^2 in s = sin^2(theta/2)
+    semi_discrete: str | None    # lambda(z) for method-of-lines schemes
+    stable: CourantSet
+
+    @property
+    def kind(self) -> str:
+        return kind_of(self.stable)
+
+
+def kind_of(stable: CourantSet) -> str:
+    main = stable.main
+    if main is None:
+        return "unstable"
+    if main.lo == 0 and main.hi == sympy.oo:
+        return "unconditional"
+    return "conditional"
+
+
+def analyse_stability(scheme: LinearScheme) -> Stability:
+    z = sympy.Symbol("z")
+    semi = None
+    if scheme.time != "euler":
+        semi = sympy.sstr(sum((v * z ** m for m, v in sorted(scheme.semi_discrete.items())),
+                              sympy.Integer(0)))
+    return Stability(scheme.label, sympy.sstr(scheme.amplification),
+                     sympy.sstr(sympy.factor(scheme.abs_squared - 1) + 1) if scheme.update else "1",
+                     semi, stable_set(scheme))
+
+
+def stable_set(scheme: LinearScheme) -> CourantSet:
+    excess = sympy.expand(scheme.abs_squared - 1)
+    if excess == 0:
+        return CourantSet((Span(sympy.Integer(0), sympy.oo, True, False),),
+                          "exact: |G| = 1 for every c and theta")
+    exact = _exact_set(excess)
+    return exact if exact is not None else numeric_set(scheme)
+
+
+def _exact_set(excess: sympy.Expr) -> CourantSet | None:
+    try:
+        poly = sympy.Poly(excess, S, C)
+    except sympy.PolynomialError:
+        return None
+    if not poly.domain.is_QQ and not poly.domain.is_ZZ:
+        return None
+    q = sympy.Poly(excess, S)   # coefficients in c
+    while q.eval(0).is_zero if not hasattr(q.eval(0), "expand") else sympy.expand(q.eval(0)) == 0:
+        q = sympy.Poly(sympy.cancel(q.as_expr() / S), S)
+    while sympy.expand(q.eval(1)) == 0:
+        q = sympy.Poly(sympy.cancel(q.as_expr() / (1 - S)), S)
+    if q.degree() > MAX_EXACT_DEGREE:
+        return None
+    reduced = q.as_expr()
+    critical = []
+    for boundary in (reduced.subs(S, 0), reduced.subs(S, 1), q.LC()):
+        critical += intervals.positive_roots(sympy.numer(sympy.together(boundary)), C)
+    if q.degree() >= 2:
+        disc = sympy.discriminant(sympy.Poly(reduced, S))
+        critical += intervals.positive_roots(sympy.numer(sympy.together(disc.as_expr())), C)
+
+    def holds(c_value) -> bool:
+        return _nonpositive_on_unit(sympy.Poly(reduced.subs(C, c_value), S))
+
+    def holds_at_point(c_value) -> bool:
+        if c_value.is_Rational:
+            return holds(c_value)
+        return _numeric_nonpositive(reduced, float(sympy.N(c_value, 30)))
+
+    return intervals.decide(critical, holds, holds_at_point,
+                            method="exact (sympy: roots in c of |G|^2 - 1 at s = 0, s = 1, "
+                                   "its leading coefficient and its discriminant in s, "
+                                   "s = sin^2(theta/2))")
+
+
+def _nonpositive_on_unit(poly: sympy.Poly) -> bool:
+    """poly(s) <= 0 for all s in [0, 1], exactly (rational coefficients)."""
+    if poly.is_zero:
+        return True
+    if poly.eval(0) > 0 or poly.eval(1) > 0:
+        return False
+    roots = sorted({float(r) for r in sympy.real_roots(poly) if 0 < r < 1})
+    points = [0.0] + roots + [1.0]
+    for a, b in zip(points, points[1:]):
+        probe = sympy.Rational(a + b) / 2 if False else sympy.nsimplify((a + b) / 2, rational=True)
+        if poly.eval(probe) > 0:
+            return False
+    return True
+
+
+def _numeric_nonpositive(expr: sympy.Expr, c_value: float) -> bool:
+    f = sympy.lambdify(S, expr.subs(C, c_value), modules="numpy")
+    s = numpy.linspace(0.0, 1.0, 20001)
+    return bool(numpy.max(numpy.broadcast_to(f(s), s.shape)) <= GROWTH_SLACK)
+
+
+# ---- numeric path ------------------------------------------------------------
+
+def max_growth(g_of, c_value: float, thetas: numpy.ndarray) -> float:
+    """max over theta of |G|^2 - 1 at one Courant number."""
+    values = numpy.abs(numpy.broadcast_to(g_of(c_value, thetas), thetas.shape)) ** 2 - 1.0
+    return float(numpy.max(values))
+
+
+def numeric_set(scheme: LinearScheme) -> CourantSet:
+    """Scan 0 < c <= NUMERIC_C_RANGE on a theta grid, bisect each change of verdict.
+
+    The theta grid is refined (4x) while bisecting, so a band of instability
+    near a boundary that the coarse grid misses is caught there.
+    """
+    g_of = scheme.lambdified()
+    coarse = numpy.linspace(0.0, numpy.pi, 2001)
+    fine = numpy.linspace(0.0, numpy.pi, 8001)
+
+    def stable(c_value: float, grid=coarse) -> bool:
+        return max_growth(g_of, c_value, grid) <= GROWTH_SLACK
+
+    cs = numpy.arange(1, int(NUMERIC_C_RANGE * 1000) + 1) / 1000.0
+    verdicts = [stable(c) for c in cs]
+    parts: list[Span] = []
+    start = None
+    for i, (c_value, ok) in enumerate(zip(cs, verdicts)):
+        if ok and start is None:
+            start = 0.0 if i == 0 else _bisect(stable, cs[i - 1], c_value, fine, rising=True)
+        if not ok and start is not None:
+            end = _bisect(stable, cs[i - 1], c_value, fine, rising=False)
+            parts.append(_numeric_span(start, end))
+            start = None
+    if start is not None:
+        parts.append(Span(_rational(start), sympy.oo, True, False))
+    return CourantSet(tuple(parts),
+                      f"numeric: theta grid of 2001 points on [0, pi] (8001 near each boundary), "
+                      f"c scanned in steps of 1/1000 up to {NUMERIC_C_RANGE:g}, boundaries bisected",
+                      NUMERIC_TOLERANCE)
+
+
+def _bisect(stable, lo: float, hi: float, grid, rising: bool) -> float:
+    """The boundary between lo and hi; rising: unstable at lo, stable at hi."""
+    while hi - lo > NUMERIC_TOLERANCE / 10:
+        mid = (lo + hi) / 2
+        if stable(mid, grid) == rising:
+            hi = mid
+        else:
+            lo = mid
+    return hi if rising else lo
+
+
+def _rational(value: float) -> sympy.Expr:
+    return sympy.Float(round(value, 6))
+
+
+def _numeric_span(lo: float, hi: float) -> Span:
+    return Span(_rational(lo), _rational(hi))

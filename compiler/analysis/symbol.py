@@ -1,0 +1,224 @@
+"""Linear schemes behind a Scheme and their von Neumann symbols.
+
+A linear face expression g = sum_k a_k q(k) (a_k may depend on c) gives, with
+q(k) -> z^k and z = exp(i theta), the update G(z) as a Laurent polynomial:
+forward Euler G = 1 - c (1 - 1/z) g(z); a method-of-lines scheme has the
+semi-discrete symbol lambda(z) = -(1 - 1/z) g(z) and G = R(c lambda).
+Limited schemes are represented by linear schemes too: the linearisation about
+smooth monotone data (limiter value and slope at r = 1) and the two bounding
+schemes with the limiter frozen at 0 and at psi(1).
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+from functools import cached_property
+
+import sympy
+
+from ..symbols import C, R, Ratio, limiter_calls, offset_of
+from . import piecewise
+from .timemethods import Z, stability_polynomial
+
+S = sympy.Symbol("s", nonnegative=True)
+"""sin^2(theta / 2): |G|^2 is a polynomial in it."""
+
+Laurent = dict  # offset m -> coefficient (sympy expression in c)
+
+
+@dataclass(frozen=True)
+class LinearScheme:
+    """One linear scheme: a face g = sum a_k q(k) staged by a time method."""
+
+    label: str                                   # what it stands for, for reports
+    time: str
+    face_coefficients: tuple[tuple[int, sympy.Expr], ...]
+
+    @cached_property
+    def face(self) -> Laurent:
+        return dict(self.face_coefficients)
+
+    @cached_property
+    def semi_discrete(self) -> Laurent:
+        """lambda(z) = -(1 - 1/z) g(z): coefficient of z^m is -(a_m - a_{m+1})."""
+        return _trim({m: -(self.face.get(m, 0) - self.face.get(m + 1, 0))
+                      for m in range(min(self.face) - 1, max(self.face) + 1)}) if self.face else {}
+
+    @cached_property
+    def update(self) -> Laurent:
+        """Coefficients b_m of q_{j+m} in one whole step: G(z) = sum b_m z^m."""
+        step = {m: C * v for m, v in self.semi_discrete.items()}
+        out: Laurent = {0: sympy.Integer(1)}
+        poly = sympy.Poly(stability_polynomial(self.time), Z)
+        power: Laurent = {0: sympy.Integer(1)}
+        for degree in range(1, poly.degree() + 1):
+            power = _multiply(power, step)
+            weight = poly.coeff_monomial(Z ** degree)
+            for m, v in power.items():
+                out[m] = out.get(m, 0) + weight * v
+        return _trim({m: sympy.expand(v) for m, v in out.items()})
+
+    @cached_property
+    def amplification(self) -> sympy.Expr:
+        """G(c, theta) as an expression in z = exp(i theta)."""
+        return sum((v * Z ** m for m, v in sorted(self.update.items())), sympy.Integer(0))
+
+    @cached_property
+    def abs_squared(self) -> sympy.Expr:
+        """|G|^2 as a polynomial in s = sin^2(theta/2) (coefficients in c)."""
+        b = self.update
+        # H = G(z) G(1/z) is symmetric in z <-> 1/z: h_0 + sum_k h_k (z^k + z^-k).
+        h: Laurent = {}
+        for m, v in b.items():
+            for n, w in b.items():
+                h[m - n] = h.get(m - n, 0) + v * w
+        cos_theta = 1 - 2 * S
+        total = h.get(0, 0)
+        for k, v in h.items():
+            if k > 0:
+                total += 2 * v * sympy.chebyshevt(k, cos_theta)
+        return sympy.expand(total)
+
+    def lambdified(self):
+        """A numpy function G(c, theta) for plots and numeric scans."""
+        theta = sympy.Symbol("theta", real=True)
+        expr = sum((v * sympy.exp(sympy.I * m * theta) for m, v in self.update.items()),
+                   sympy.Integer(0))
+        return sympy.lambdify((C, theta), expr, modules="numpy")
+
+
+def _trim(poly: Laurent) -> Laurent:
+    return {m: v for m, v in poly.items() if not (v == 0 or sympy.expand(v) == 0)}
+
+
+def _multiply(a: Laurent, b: Laurent) -> Laurent:
+    out: Laurent = {}
+    for m, v in a.items():
+        for n, w in b.items():
+            out[m + n] = out.get(m + n, 0) + v * w
+    return {m: sympy.expand(v) for m, v in out.items()}
+
+
+# ---- from a face expression to linear schemes ---------------------------------
+
+def linear_coefficients(g: sympy.Expr) -> tuple[tuple[int, sympy.Expr], ...] | None:
+    """((k, a_k), ...) when g is linear and homogeneous in the q(k), else None."""
+    qs = sorted((s for s in g.free_symbols if offset_of(s) is not None), key=offset_of)
+    if not qs:
+        return None if g != 0 else ()
+    if g.has(Ratio) or any(isinstance(a, sympy.core.function.AppliedUndef)
+                           for a in g.atoms(sympy.Function)):
+        return None
+    coefficients = []
+    for qk in qs:
+        a = sympy.diff(g, qk)
+        if any(a.has(other) for other in qs):
+            return None
+        coefficients.append((offset_of(qk), sympy.cancel(a)))
+    remainder = sympy.expand(g - sum(a * qk for qk, (_, a) in zip(qs, coefficients)))
+    if remainder != 0 and sympy.simplify(remainder) != 0:
+        return None
+    return tuple((k, a) for k, a in coefficients if a != 0)
+
+
+@dataclass(frozen=True)
+class Linearisation:
+    """The linear schemes standing for one Scheme, with what each means."""
+
+    smooth: tuple[LinearScheme, ...]   # the scheme itself, or its linearisations at r = 1
+    bounding: tuple[LinearScheme, ...] # limiter frozen at 0 and at psi(1); empty when linear
+    exact: bool                        # True when the scheme is itself linear
+    note: str                          # how the linear schemes were obtained, or why none
+
+
+def linearise(scheme, face: sympy.Expr | None = None) -> Linearisation:
+    g = scheme.bound(scheme.face if face is None else face)
+    direct = linear_coefficients(g)
+    if direct is not None:
+        return Linearisation((LinearScheme("the scheme", scheme.time, direct),), (), True,
+                             "the face flux is linear in q")
+    calls = limiter_calls(g, scheme.limiter_names)
+    smooth, bounding, notes = [], [], []
+    # Smooth monotone data: r = 1 + O(dx); psi(r) ~ psi(1) + psi'(1) (r - 1).
+    slopes = {}
+    for call in calls:
+        body = scheme.bound(scheme.limiter(type(call).__name__).body)
+        slopes[call] = limiter_slopes(body)
+    sides = [("right", 1), ("left", 0)]
+    seen = set()
+    for side_name, index in sides:
+        subs = {}
+        ok = True
+        for call, (value, left, right) in slopes.items():
+            slope = right if index == 1 else left
+            if value is None or slope is None:
+                ok = False
+                break
+            subs[call] = value + slope * (call.args[0] - 1)
+        if not ok:
+            notes.append("a limiter has no value or one-sided slope at r = 1")
+            break
+        lin = _ratios_as_quotients(g.xreplace(subs))
+        coefficients = linear_coefficients(sympy.cancel(lin)) if lin is not None else None
+        if coefficients is None:
+            notes.append("the face is not linear in q after linearising at r = 1")
+            break
+        key = tuple((k, sympy.simplify(a)) for k, a in coefficients)
+        if key in seen:
+            continue
+        seen.add(key)
+        label = (f"linearised at r = 1 ({side_name} slope)" if any(
+            left != right for _, left, right in slopes.values()) else "linearised at r = 1")
+        smooth.append(LinearScheme(label, scheme.time, coefficients))
+    for label, pick in (("limiter frozen at 0", lambda v: sympy.Integer(0)),
+                        ("limiter frozen at psi(1)", lambda v: v)):
+        subs = {call: pick(slopes[call][0]) for call in calls}
+        if any(v is None for v in subs.values()):
+            continue
+        frozen = g.xreplace(subs).replace(Ratio, lambda a, b: sympy.Integer(1))
+        coefficients = linear_coefficients(frozen)
+        if coefficients is not None:
+            bounding.append(LinearScheme(label, scheme.time, coefficients))
+    if not calls:
+        notes.append("the face is nonlinear in q without a named limiter")
+    note = "; ".join(notes) if notes else (
+        "limiters linearised at r = 1 (value and slope) for smooth monotone data; "
+        "bounding schemes with each limiter frozen at 0 and at psi(1)")
+    return Linearisation(tuple(smooth), tuple(bounding), False, note)
+
+
+def _ratios_as_quotients(expr: sympy.Expr) -> sympy.Expr | None:
+    try:
+        return sympy.cancel(expr.replace(Ratio, lambda a, b: a / b))
+    except sympy.PolynomialError:
+        return None
+
+
+def limiter_slopes(body: sympy.Expr):
+    """(psi(1), left slope, right slope) at r = 1, exact; None where undefined."""
+    value = body.subs(R, 1)
+    value = sympy.simplify(value) if value.is_number else None
+    parts = piecewise.pieces(body)
+    if parts is not None:
+        left_piece = piecewise.piece_at(parts, sympy.Integer(1), -1)
+        right_piece = piecewise.piece_at(parts, sympy.Integer(1), +1)
+        left = sympy.diff(left_piece, R).subs(R, 1) if left_piece is not None else None
+        right = sympy.diff(right_piece, R).subs(R, 1) if right_piece is not None else None
+        return value, left, right
+    try:
+        slope = sympy.diff(body, R).subs(R, 1)
+        slope = slope if slope.is_number and slope.is_finite else None
+    except Exception:  # a body sympy cannot differentiate: no slope, the caller says so
+        slope = None
+    return value, slope, slope
+
+
+def limiter_curvature(body: sympy.Expr) -> tuple[sympy.Expr | None, sympy.Expr | None]:
+    """One-sided second derivatives at r = 1 (None where unknown)."""
+    parts = piecewise.pieces(body)
+    if parts is None:
+        return None, None
+    out = []
+    for side in (-1, 1):
+        piece = piecewise.piece_at(parts, sympy.Integer(1), side)
+        out.append(None if piece is None else sympy.diff(piece, R, 2).subs(R, 1))
+    return tuple(out)

@@ -1,0 +1,130 @@
+"""Runge-Kutta time methods: stage tables, stability polynomials, SSP facts.
+
+The Shu-Osher tables are what the emitters stage; the Butcher tables and the
+stability polynomials R(z) are what the analysis reads. Both are kept here so
+that what is analysed is what is generated.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+from functools import lru_cache
+
+import sympy
+
+Z = sympy.Symbol("z")
+"""The argument of a stability polynomial: dt times an eigenvalue."""
+
+half, third, quarter, sixth = (sympy.Rational(1, n) for n in (2, 3, 4, 6))
+
+
+@dataclass(frozen=True)
+class ShuOsherStage:
+    """q_stage = sum_k alpha[k] q_k + beta * dt L(q_{stage-1}), q_0 the step's start.
+
+    alpha[k] weighs stage value k (k = 0 is the start of the step); the operator
+    is applied to the previous stage only, which is all these methods need.
+    """
+
+    alpha: tuple[sympy.Rational, ...]
+    beta: sympy.Rational
+
+
+@dataclass(frozen=True)
+class TimeMethod:
+    name: str
+    order: int
+    stages: int
+    butcher_a: tuple[tuple[sympy.Rational, ...], ...]
+    butcher_b: tuple[sympy.Rational, ...]
+    shu_osher: tuple[ShuOsherStage, ...] | None  # None where the method is not SSP
+    ssp_coefficient: sympy.Rational | None         # None: not strong-stability preserving
+    description: str
+
+    @property
+    def butcher_c(self) -> tuple[sympy.Rational, ...]:
+        return tuple(sum(row, sympy.Integer(0)) for row in self.butcher_a)
+
+    @property
+    def stability_polynomial(self) -> sympy.Expr:
+        return stability_polynomial(self.name)
+
+
+_ONE, _ZERO = sympy.Integer(1), sympy.Integer(0)
+
+METHODS: dict[str, TimeMethod] = {
+    "euler": TimeMethod(
+        "euler", 1, 1, ((_ZERO,),), (_ONE,),
+        (ShuOsherStage((_ONE,), _ONE),), _ONE,
+        "forward Euler"),
+    "ssp_rk2": TimeMethod(
+        "ssp_rk2", 2, 2, ((_ZERO, _ZERO), (_ONE, _ZERO)), (half, half),
+        (ShuOsherStage((_ONE,), _ONE), ShuOsherStage((half, half), half)), _ONE,
+        "two-stage SSP Runge-Kutta (Heun)"),
+    "ssp_rk3": TimeMethod(
+        "ssp_rk3", 3, 3,
+        ((_ZERO, _ZERO, _ZERO), (_ONE, _ZERO, _ZERO), (quarter, quarter, _ZERO)),
+        (sixth, sixth, 2 * third),
+        (ShuOsherStage((_ONE,), _ONE),
+         ShuOsherStage((3 * quarter, quarter), quarter),
+         ShuOsherStage((third, _ZERO, 2 * third), 2 * third)), _ONE,
+        "three-stage third-order SSP Runge-Kutta (Shu-Osher form)"),
+    "rk4": TimeMethod(
+        "rk4", 4, 4,
+        ((_ZERO,) * 4, (half, _ZERO, _ZERO, _ZERO), (_ZERO, half, _ZERO, _ZERO),
+         (_ZERO, _ZERO, _ONE, _ZERO)),
+        (sixth, third, third, sixth), None, None,
+        "classical fourth-order Runge-Kutta (not SSP)"),
+}
+
+
+def method(name: str) -> TimeMethod:
+    return METHODS[name]
+
+
+@lru_cache(maxsize=None)
+def stability_polynomial(name: str) -> sympy.Expr:
+    """R(z) = 1 + z b^T (I - z A)^{-1} 1, a polynomial for explicit methods."""
+    m = METHODS[name]
+    a = sympy.Matrix(m.butcher_a)
+    b = sympy.Matrix([m.butcher_b])
+    ones = sympy.ones(m.stages, 1)
+    # (I - zA)^{-1} = sum_k (zA)^k, finite because A is strictly lower triangular.
+    acc, term = sympy.zeros(m.stages, 1), ones
+    for _ in range(m.stages):
+        acc += term
+        term = Z * a * term
+    return sympy.expand(1 + Z * (b * acc)[0])
+
+
+def linear_order(name: str) -> int:
+    """The order to which R(z) matches exp(z): the method's order on linear problems."""
+    r = sympy.Poly(stability_polynomial(name), Z)
+    p = 0
+    while p + 1 <= r.degree() and r.coeff_monomial(Z ** (p + 1)) == sympy.Rational(1, sympy.factorial(p + 1)):
+        p += 1
+    return p
+
+
+@lru_cache(maxsize=None)
+def imaginary_axis_limit(name: str) -> sympy.Expr:
+    """The largest Y with |R(iy)| <= 1 for all |y| <= Y (0 when only y = 0 is stable)."""
+    y = sympy.Symbol("y", real=True)
+    excess = sympy.expand(sympy.expand_complex(
+        sympy.Abs(stability_polynomial(name).subs(Z, sympy.I * y)) ** 2)) - 1
+    excess = sympy.Poly(sympy.expand(excess), y)
+    roots = sorted({rt for rt in sympy.real_roots(excess) if rt > 0}, key=lambda v: float(v))
+    bounds = [sympy.Integer(0)] + roots
+    limit = sympy.Integer(0)
+    for lo, hi in zip(bounds, bounds[1:] + [None]):
+        probe = (lo + hi) / 2 if hi is not None else lo + 1
+        if excess.eval(sympy.nsimplify(sympy.N(probe, 30), rational=True)) <= 0:
+            limit = hi if hi is not None else sympy.oo
+        else:
+            break
+    return sympy.nsimplify(limit) if limit.is_number and limit != sympy.oo and not limit.is_Rational else limit
+
+
+def abs_squared_on_imaginary_axis(name: str) -> sympy.Expr:
+    y = sympy.Symbol("y", real=True)
+    return sympy.expand(sympy.expand_complex(
+        sympy.Abs(stability_polynomial(name).subs(Z, sympy.I * y)) ** 2)), y
