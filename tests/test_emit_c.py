@@ -1,0 +1,457 @@
+"""The C back end: generated C99 that compiles without a warning, keeps the C contract
+(header constants, extern "C", no allocation, reentrancy), is deterministic, and runs
+clean under the address and undefined-behaviour sanitizers.
+
+Numerical agreement with the numpy back end and the slow reference on small grids is
+in test_agreement.py; here the C-specific paths are checked: the blocked flux loop
+across block boundaries, the constant-sign fast paths, the stage-by-stage entry
+point, zero velocity, FCT and clip.
+"""
+from __future__ import annotations
+
+import hashlib
+import json
+import os
+import re
+import shutil
+import subprocess
+import sys
+import zlib
+from importlib.metadata import version
+
+import numpy as np
+import pytest
+import sympy
+from conftest import EXAMPLE_FILES, EXAMPLES
+
+from fluxloom.compiler import load_scheme, scheme_from_text
+from fluxloom.compiler.emit import c_files
+from fluxloom.compiler.emit.c import FLUX_BLOCK, c_sources
+from fluxloom.compiler.emit.plan import plan_kernel
+from fluxloom.compiler.timestep import stability_polynomial
+from fluxloom.runtime.build import compile_c
+from fluxloom.runtime.kernel import fill_periodic, load_kernel, run_periodic
+
+STRICT = ["-std=c99", "-O2", "-Wall", "-Wextra", "-Wpedantic", "-Wshadow", "-Wconversion",
+          "-Werror"]
+PRECISIONS = ("double", "float")
+ALL_SCHEMES = {path.stem: load_scheme(path) for path in EXAMPLE_FILES}
+
+
+def need(tool: str) -> str:
+    """The path of a compiler the tests need; its absence is a failure, not a skip."""
+    found = shutil.which(tool)
+    assert found, f"{tool} is required (the project's set-up installs it: .ci/install)"
+    return found
+
+
+def write_sources(directory, precision, verdicts=False):
+    for scheme in ALL_SCHEMES.values():
+        for name, text in c_sources(scheme, precision, verdicts).items():
+            (directory / name).write_text(text)
+
+
+# ---- compiling -------------------------------------------------------------------
+
+@pytest.mark.parametrize("precision", PRECISIONS)
+def test_every_example_compiles_without_a_warning(tmp_path, precision):
+    write_sources(tmp_path, precision)
+    sources = sorted(p.name for p in tmp_path.glob("*.c"))
+    assert len(sources) == len(EXAMPLE_FILES)
+    done = subprocess.run([need("gcc"), *STRICT, "-c", *sources], cwd=tmp_path,
+                          capture_output=True, text=True)
+    assert done.returncode == 0 and done.stderr == "", done.stderr
+
+
+def test_headers_are_usable_from_cpp(tmp_path):
+    """extern "C" guard: a C++ program links against the C objects and calls them."""
+    write_sources(tmp_path, "double")
+    includes = "".join(f'#include "{p.stem}.h"\n' for p in EXAMPLE_FILES)
+    (tmp_path / "host.cpp").write_text(includes + """
+#include <cstdio>
+#include <vector>
+int main() {
+    const std::size_t n = 8;
+    std::vector<double> q(n + 2 * upwind_HALO), out(q.size()), u(n + 1, 1.0);
+    std::vector<double> work(upwind_workspace_size(n));
+    for (std::size_t i = 0; i < n; ++i) q[upwind_HALO + i] = double(i);
+    upwind_fill_periodic(n, q.data());
+    upwind_step(n, q.data(), out.data(), u.data(), 1.0, work.data());
+    std::printf("%g %g\\n", out[upwind_HALO], out[upwind_HALO + 1]);
+    return 0;
+}
+""")
+    subprocess.run([need("gcc"), "-std=c99", "-O1", "-c", "upwind.c"], cwd=tmp_path, check=True)
+    done = subprocess.run([need("g++"), "-std=c++11", "-Wall", "-Werror", "host.cpp", "upwind.o",
+                           "-o", "host"], cwd=tmp_path, capture_output=True, text=True)
+    assert done.returncode == 0, done.stderr
+    run = subprocess.run([str(tmp_path / "host")], capture_output=True, text=True, check=True)
+    # Upwind at c = 1 moves every value one cell on (common practice, no source):
+    # cell 0 takes the periodic neighbour 7, cell 1 takes 0.
+    assert run.stdout.split() == ["7", "0"]
+
+
+# ---- the text ----------------------------------------------------------------------
+
+def test_generation_is_deterministic_across_processes():
+    """Same spec, same bytes: two interpreters with different hash seeds agree."""
+    script = ("import hashlib, sys\n"
+              "from fluxloom.compiler import load_scheme\n"
+              "from fluxloom.compiler.emit import c_files\n"
+              "digest = hashlib.sha256()\n"
+              "for path in sys.argv[1:]:\n"
+              "    for precision in ('double', 'float'):\n"
+              "        for name, text in sorted(c_files(load_scheme(path), precision, False).items()):\n"
+              "            digest.update(name.encode() + text.encode())\n"
+              "print(digest.hexdigest())\n")
+    paths = [str(p) for p in EXAMPLE_FILES]
+    digests = set()
+    for seed in ("1", "12345"):
+        env = dict(os.environ, PYTHONHASHSEED=seed)
+        done = subprocess.run([sys.executable, "-c", script, *paths], env=env,
+                              capture_output=True, text=True, check=True)
+        digests.add(done.stdout.strip())
+    here = hashlib.sha256()
+    for path in paths:
+        for precision in PRECISIONS:
+            for name, text in sorted(c_files(load_scheme(path), precision, False).items()):
+                here.update(name.encode() + text.encode())
+    assert digests == {here.hexdigest()}
+
+
+def halo_from_offsets(offsets):
+    """Ghost cells per side, from the upwind frame directly: face j+1/2 reads j+k or
+    j+1-k, face j-1/2 one cell further left (common practice, no source)."""
+    cells = set()
+    for k in offsets:
+        for face_left in (-1, 0):  # the cell's left and right faces
+            cells |= {face_left + k, face_left + 1 - k}
+    return max(max(-min(cells), 0), max(cells))
+
+
+def test_header_exports_the_contract():
+    scheme = ALL_SCHEMES["kappa_rk3"]
+    header = c_files(scheme, "double")["kappa_rk3.h"]
+    assert f"generated by fluxloom {version('fluxloom')}" in header
+    assert scheme.about in header
+    assert '#ifdef __cplusplus\nextern "C" {' in header
+    assert f"#define kappa_rk3_HALO {halo_from_offsets(scheme.offsets)}\n" in header
+    assert "#define kappa_rk3_STAGES 3\n" in header
+    assert "#define kappa_rk3_FACE_HALO 0\n" in header
+    assert "#define kappa_rk3_PARAM_kappa (1.0/3.0)\n" in header
+    for function in ("size_t kappa_rk3_workspace_size(size_t n);",
+                     "void kappa_rk3_fill_periodic(size_t n, double *q);",
+                     "void kappa_rk3_stage(int stage, size_t n,",
+                     "void kappa_rk3_step(size_t n, const double *q_in, double *q_out,"):
+        assert function in header
+
+
+def test_header_carries_the_analysis_verdicts():
+    from fluxloom.compiler.analysis import analyse
+
+    scheme = ALL_SCHEMES["lw_vanleer"]
+    document = analyse(scheme).to_json()
+    header = c_files(scheme, "double")["lw_vanleer.h"]
+    assert f" * order: {document['order']['overall']} " in header
+    assert " * tvd: yes" in header if document["tvd"]["holds"] else " * tvd: " in header
+    module = c_files(scheme, "double")["lw_vanleer_mod.f90"]
+    assert f"! order: {document['order']['overall']} " in module
+
+
+def test_kernel_source_keeps_the_contract():
+    """No allocation, no globals, every external name prefixed by the scheme name."""
+    for scheme in ALL_SCHEMES.values():
+        text = c_sources(scheme, "double", verdicts=False)[f"{scheme.name}.c"]
+        code = re.sub(r"/\*.*?\*/", "", text, flags=re.S)
+        assert not re.search(r"\b(malloc|calloc|realloc|free|alloca|static\s+(double|float|int|size_t)\s+\w+\s*[=;\[])",
+                             code)
+        for line in code.splitlines():
+            if line and not line[0].isspace() and "(" in line and not line.startswith(("#", "}")):
+                function = re.search(r"(\w+)\(", line).group(1)
+                assert function.startswith(scheme.name + "_"), line
+
+
+def test_float_kernels_compute_in_float():
+    for scheme in ALL_SCHEMES.values():
+        text = c_sources(scheme, "float", verdicts=False)[f"{scheme.name}.c"]
+        code = re.sub(r"/\*.*?\*/", "", text, flags=re.S)
+        assert "double" not in code
+        assert not re.search(r"\d\.\d+(?![\dF])", code), "a double literal in a float kernel"
+        assert not re.search(r"\b(fabs|sqrt|pow)\(", code)
+
+
+def test_min_and_max_are_inline_selects_not_library_calls():
+    text = c_sources(ALL_SCHEMES["lw_superbee"], "double", verdicts=False)["lw_superbee.c"]
+    assert "fmin" not in text and "fmax" not in text
+    assert "lw_superbee_max(" in text and "lw_superbee_min(" in text
+
+
+# ---- running: the paths only C has ------------------------------------------------------
+
+def c_kernel(scheme, precision="double"):
+    ffi, lib = compile_c(scheme, precision)
+    return ffi, lib
+
+
+def pointer(ffi, array):
+    ctype = "float[]" if array.dtype == np.float32 else "double[]"
+    return ffi.from_buffer(ctype, array)
+
+
+def velocity_runs(rng, count):
+    """Long runs of one sign (fast paths), a mixed stretch and exact zeros."""
+    u = np.empty(count)
+    third = count // 3
+    u[:third] = rng.uniform(0.1, 1.0, third)
+    u[third:2 * third] = -rng.uniform(0.1, 1.0, third)
+    u[2 * third:] = rng.uniform(-1.0, 1.0, count - 2 * third)
+    u[rng.random(count) < 0.05] = 0.0
+    return u
+
+
+@pytest.mark.parametrize("name", sorted(ALL_SCHEMES))
+def test_blocked_fast_paths_agree_with_the_numpy_back_end(name):
+    """n spans several flux blocks; velocity runs hit all three face loops."""
+    scheme = ALL_SCHEMES[name]
+    rng = np.random.default_rng(zlib.crc32(name.encode()))
+    n = 3 * FLUX_BLOCK + 37
+    c, reference = load_kernel(scheme, "c"), load_kernel(scheme, "numpy")
+    q = rng.uniform(-1.0, 2.0, n + 2 * c.halo)
+    u = velocity_runs(rng, n + 1 + 2 * c.face_halo)
+    got, want = c.step(q, u, 0.45), reference.step(q, u, 0.45)
+    assert np.max(np.abs(got - want)) <= 1e-13 * np.max(np.abs(want))
+
+
+@pytest.mark.parametrize("name", sorted(ALL_SCHEMES))
+def test_zero_velocity_leaves_every_value_exactly(name):
+    """Where u == 0 the flux is exactly 0, even with 1/c in g (Lax-Friedrichs)."""
+    scheme = ALL_SCHEMES[name]
+    ffi, lib = c_kernel(scheme)
+    plan = plan_kernel(scheme)
+    n = 40
+    q = np.random.default_rng(3).uniform(0.0, 1.0, n + 2 * plan.halo)
+    out = np.full_like(q, np.nan)
+    u = np.zeros(n + 1 + 2 * plan.face_halo)
+    work = np.empty(getattr(lib, f"{name}_workspace_size")(n))
+    getattr(lib, f"{name}_step")(n, pointer(ffi, q), pointer(ffi, out), pointer(ffi, u), 0.5,
+                                 pointer(ffi, work))
+    inside, given = out[plan.halo:plan.halo + n], q[plan.halo:plan.halo + n]
+    if plan.stages == 1:
+        assert np.array_equal(inside, given)
+    else:  # the Shu-Osher weights (3/4 q + 1/4 q ...) round to within an ulp or two
+        assert np.allclose(inside, given, rtol=4e-16, atol=0)
+    assert np.all(np.isnan(out[:plan.halo])) and np.all(np.isnan(out[plan.halo + n:]))
+
+
+@pytest.mark.parametrize("name", ["kappa_rk2", "kappa_rk3", "centred_rk4", "vanleer_rk3"])
+def test_stage_by_stage_with_host_halo_exchange_equals_the_step(name):
+    """A host calling NAME_stage around its own (here periodic) halo refresh gets the
+    same bits as the periodic convenience NAME_step."""
+    scheme = ALL_SCHEMES[name]
+    ffi, lib = c_kernel(scheme)
+    stage, step = getattr(lib, f"{name}_stage"), getattr(lib, f"{name}_step")
+    plan = plan_kernel(scheme)
+    h, n = plan.halo, 700
+    rng = np.random.default_rng(5)
+    q = rng.uniform(0.0, 1.0, n + 2 * h)
+    fill_periodic(q, h)
+    u = np.sin(np.linspace(0, 4 * np.pi, n + 1))
+    work = np.empty(getattr(lib, f"{name}_workspace_size")(n))
+    whole = np.zeros_like(q)
+    step(n, pointer(ffi, q), pointer(ffi, whole), pointer(ffi, u), 0.3, pointer(ffi, work))
+    current = q
+    for s in range(plan.stages):
+        target = np.zeros_like(q)
+        stage(s, n, pointer(ffi, q), pointer(ffi, current), pointer(ffi, target), pointer(ffi, u),
+              0.3, pointer(ffi, work))
+        fill_periodic(target, h)
+        current = target
+    assert np.array_equal(current[h:h + n], whole[h:h + n])
+
+
+# Published |R(iy)|^2 on the imaginary axis (REFERENCE.md, "Runge-Kutta methods on the
+# imaginary axis"; SSP-RK3 after Shu and Osher 1988, J. Comput. Phys. 77:439 [mem]).
+y = sympy.Symbol("y", real=True)
+PUBLISHED_IMAGINARY_AXIS = {
+    "euler": 1 + y**2,
+    "ssp_rk2": 1 + y**4 / 4,
+    "ssp_rk3": 1 - y**4 / 12 + y**6 / 36,
+    "rk4": 1 - y**6 / 72 + y**8 / 576,
+}
+
+
+@pytest.mark.parametrize("method", sorted(PUBLISHED_IMAGINARY_AXIS))
+def test_stage_updates_have_the_published_stability_polynomial(method):
+    poly = stability_polynomial(method)
+    value = poly.subs(sympy.Symbol("z"), sympy.I * y)
+    modulus = sympy.expand(value * sympy.conjugate(value))
+    assert sympy.simplify(modulus - PUBLISHED_IMAGINARY_AXIS[method]) == 0
+
+
+@pytest.mark.parametrize("name, method", [("upwind_rk3", "ssp_rk3"), ("centred_rk4", "rk4"),
+                                          ("kappa_rk2", "ssp_rk2")])
+def test_c_runge_kutta_step_multiplies_a_fourier_mode_by_R(name, method):
+    """On a periodic grid a linear scheme maps exp(i k x) to R(lambda dt) exp(i k x), with
+    lambda from the semi-discrete symbol (von Neumann analysis, common practice, no
+    source); the C step must reproduce it to round-off."""
+    scheme = ALL_SCHEMES[name]
+    kernel = load_kernel(scheme, "c")
+    n, mode, dt_dx = 64, 3, 0.4
+    theta = 2 * np.pi * mode / n
+    g = sympy.lambdify([sympy.Symbol(s.name) for s in sorted(scheme.bound_face.free_symbols,
+                                                              key=lambda s: s.name)],
+                       scheme.bound_face)
+    # g at q(k) = exp(i k theta) (the face j+1/2 of cell j = 0)
+    symbols = sorted(scheme.bound_face.free_symbols, key=lambda s: s.name)
+    from fluxloom.compiler.symbols import offset_of
+    face = g(*[np.exp(1j * offset_of(s) * theta) for s in symbols])
+    lam = -(face - face * np.exp(-1j * theta))  # per unit u/dx
+    z = sympy.Symbol("z")
+    R = complex(stability_polynomial(method).subs(z, sympy.nsimplify(0) + lam * dt_dx))
+    x = np.arange(n)
+    for part in (np.cos, np.sin):
+        q = part(theta * x)
+        got = run_periodic(kernel, q, np.ones(n + 1), dt_dx, 1)
+        want = (R * np.exp(1j * theta * x))
+        want = want.real if part is np.cos else want.imag
+        assert np.max(np.abs(got - want)) < 1e-13
+
+
+def test_c_fct_square_wave_is_bounded_conservative_and_sharper_than_upwind():
+    """Zalesak (1979, J. Comput. Phys. 31:335) 1-D square wave: the corrected solution
+    has no overshoot or undershoot and is sharper than the low-order (upwind) one."""
+    n = 100
+    square = ((np.arange(n) >= 20) & (np.arange(n) < 40)).astype(float)
+    u, steps = np.ones(n + 1), 2 * n
+    fct = run_periodic(load_kernel(ALL_SCHEMES["lw_fct"], "c"), square, u, 0.5, steps)
+    low = run_periodic(load_kernel(ALL_SCHEMES["upwind"], "c"), square, u, 0.5, steps)
+    assert fct.min() >= -1e-12 and fct.max() <= 1 + 1e-12
+    assert np.abs(fct - square).sum() < 0.7 * np.abs(low - square).sum()
+    assert fct.sum() == pytest.approx(square.sum(), rel=1e-12)
+
+
+def test_c_fct_uses_the_face_velocities_it_is_given_beyond_the_interior():
+    """The wide u_face of an FCT kernel is read: outer faces change the result near the
+    ends (they decide the neighbours' low-order solution), never the total change
+    inside beyond what the two boundary fluxes carry."""
+    kernel = load_kernel(ALL_SCHEMES["lw_fct"], "c")
+    assert kernel.face_halo == 2
+    n, h = 30, kernel.halo
+    q = np.zeros(n + 2 * h)
+    q[h + 2:h + 8] = 1.0
+    q[:h] = 1.0  # a front entering from the left halo
+    u = np.full(n + 5, 0.8)
+    a = kernel.step(q, u, 0.5)
+    u[0] = u[1] = 0.0  # outer faces only
+    b = kernel.step(q, u, 0.5)
+    assert not np.array_equal(a[h:h + n], b[h:h + n])
+    assert np.array_equal(a[h + 5:h + n], b[h + 5:h + n])
+
+
+@pytest.mark.parametrize("name", ["ftcs_clip", "lw_clip", "vanleer_clip"])
+def test_clip_bounds_the_c_result(name):
+    kernel = load_kernel(ALL_SCHEMES[name], "c")
+    square = (np.arange(60) % 25 < 10).astype(float)
+    got = run_periodic(kernel, square, np.ones(61), 0.8, 30)
+    assert got.min() >= 0.0 and got.max() <= 1.0
+
+
+def test_kernels_are_reentrant_across_threads():
+    """No globals: eight threads stepping different data give the serial results."""
+    from concurrent.futures import ThreadPoolExecutor
+
+    scheme = ALL_SCHEMES["lw_vanleer"]
+    ffi, lib = c_kernel(scheme)
+    n, h = 5000, plan_kernel(scheme).halo
+    rng = np.random.default_rng(9)
+    inputs = [rng.uniform(0, 1, n + 2 * h) for _ in range(8)]
+    u = rng.uniform(-1, 1, n + 1)
+
+    def run(q):
+        out, work = np.zeros_like(q), np.empty(lib.lw_vanleer_workspace_size(n))
+        for _ in range(20):
+            lib.lw_vanleer_step(n, pointer(ffi, q), pointer(ffi, out), pointer(ffi, u), 0.4,
+                                pointer(ffi, work))
+            q = out.copy()
+            fill_periodic(q, h)
+        return q
+
+    serial = [run(q) for q in inputs]
+    with ThreadPoolExecutor(8) as pool:
+        parallel = list(pool.map(run, inputs))
+    assert all(np.array_equal(a, b) for a, b in zip(serial, parallel))
+
+
+# ---- sanitizers -------------------------------------------------------------------------
+
+DRIVER = r"""
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+%(includes)s
+
+static unsigned long long state = 88172645463325252ULL;
+static double uniform(void) /* xorshift64: deterministic data, no library state */
+{
+    state ^= state << 13; state ^= state >> 7; state ^= state << 17;
+    return (double)(state >> 11) / 9007199254740992.0;
+}
+
+/* Arrays of exactly the documented sizes, so any read or write past them is caught. */
+#define EXERCISE(NAME)                                                                  \
+    do {                                                                                \
+        static const size_t sizes[] = {1, 2, 3, 7, 511, 512, 513, 1100};                \
+        for (size_t s = 0; s < sizeof sizes / sizeof sizes[0]; ++s) {                   \
+            const size_t n = sizes[s], cells = n + 2 * NAME##_HALO;                     \
+            const size_t faces = n + 1 + 2 * NAME##_FACE_HALO;                          \
+            REAL *q = malloc(cells * sizeof *q), *out = malloc(cells * sizeof *out);     \
+            REAL *u = malloc(faces * sizeof *u);                                        \
+            REAL *work = malloc(NAME##_workspace_size(n) * sizeof *work);               \
+            for (size_t i = 0; i < cells; ++i) { q[i] = (REAL)uniform(); out[i] = 0; }  \
+            for (size_t i = 0; i < faces; ++i) {                                        \
+                const double r = uniform();                                             \
+                u[i] = (REAL)(r < 0.1 ? 0.0 : (s %% 2 ? 2.0 * r - 1.0 : r));            \
+            }                                                                           \
+            NAME##_fill_periodic(n, q);                                                 \
+            NAME##_step(n, q, out, u, (REAL)0.45, work);                                \
+            for (int k = 0; k < NAME##_STAGES; ++k)                                     \
+                NAME##_stage(k, n, q, q, out, u, (REAL)0.45, work);                     \
+            for (size_t i = 0; i < n; ++i)                                              \
+                if (!isfinite(out[NAME##_HALO + i])) { printf("%%s: not finite\n", #NAME); return 1; } \
+            free(q); free(out); free(u); free(work);                                    \
+        }                                                                               \
+        printf("%%s ok\n", #NAME);                                                      \
+    } while (0)
+
+int main(void)
+{
+%(calls)s
+    return 0;
+}
+"""
+
+
+@pytest.mark.parametrize("precision", PRECISIONS)
+def test_every_example_runs_clean_under_the_sanitizers(tmp_path, precision):
+    write_sources(tmp_path, precision)
+    names = sorted(ALL_SCHEMES)
+    real = "float" if precision == "float" else "double"
+    driver = DRIVER % {
+        "includes": f"#define REAL {real}\n" + "".join(f'#include "{n}.h"\n' for n in names),
+        "calls": "".join(f"    EXERCISE({n});\n" for n in names),
+    }
+    (tmp_path / "driver.c").write_text(driver)
+    sources = [f"{n}.c" for n in names] + ["driver.c"]
+    build = subprocess.run([need("gcc"), "-std=c99", "-O1", "-g", "-fno-omit-frame-pointer",
+                            "-fsanitize=address,undefined", "-fno-sanitize-recover=all",
+                            *sources, "-lm", "-o", "driver"], cwd=tmp_path,
+                           capture_output=True, text=True)
+    assert build.returncode == 0, build.stderr
+    env = dict(os.environ, ASAN_OPTIONS="detect_leaks=1:abort_on_error=0",
+               UBSAN_OPTIONS="print_stacktrace=1:halt_on_error=1")
+    env.pop("LD_PRELOAD", None)
+    run = subprocess.run([str(tmp_path / "driver")], capture_output=True, text=True, env=env,
+                         timeout=300)
+    assert run.returncode == 0, run.stdout + run.stderr
+    assert run.stderr == ""
+    assert run.stdout.split("\n")[:-1] == [f"{n} ok" for n in names]
