@@ -9,7 +9,6 @@ from conftest import EXAMPLES
 
 from fluxloom.compiler import load_scheme
 from fluxloom.runtime.cli import main
-from fluxloom.runtime.commands.build import _fortran_emitter
 from fluxloom.runtime.kernel import load_kernel
 
 VANLEER = str(EXAMPLES / "lw_vanleer.loom")
@@ -22,9 +21,7 @@ def build(*args) -> int:
 def expected_names(name: str, target: str = "all") -> set[str]:
     names = set()
     if target in ("c", "all"):
-        names |= {f"{name}.h", f"{name}.c"}
-        if _fortran_emitter() is not None:
-            names.add(f"{name}_mod.f90")
+        names |= {f"{name}.h", f"{name}.c", f"{name}_mod.f90"}
     if target in ("numpy", "all"):
         names.add(f"{name}.py")
     return names

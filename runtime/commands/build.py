@@ -6,10 +6,10 @@ differs from what would be written is the user's, so it is left alone unless
 """
 from __future__ import annotations
 
-import importlib
 from pathlib import Path
 
 from fluxloom.compiler import LoomError
+from fluxloom.compiler.emit import c_files
 from fluxloom.compiler.emit.numpy_ import numpy_source
 
 from .common import add_set_option, add_spec_argument, scheme_from_args
@@ -34,28 +34,6 @@ def register(sub) -> None:
     parser.add_argument("--force", action="store_true",
                         help="overwrite files in DIR that differ from what would be written")
     parser.set_defaults(run=run)
-
-
-def c_files(scheme, precision: str) -> dict[str, str]:
-    """NAME.h and NAME.c, plus the Fortran interface module, from the C back end."""
-    from fluxloom.compiler.emit.c import c_sources
-
-    files = dict(c_sources(scheme, precision))
-    fortran = _fortran_emitter()
-    if fortran is not None:
-        files.update(fortran(scheme, precision))
-    return files
-
-
-def _fortran_emitter():
-    """The Fortran interface emitter, `fortran_sources(scheme, precision) -> {name: text}`."""
-    try:
-        module = importlib.import_module("fluxloom.compiler.emit.fortran")
-    except ModuleNotFoundError as err:
-        if err.name != "fluxloom.compiler.emit.fortran":
-            raise
-        return None
-    return getattr(module, "fortran_sources", None)
 
 
 def generated_files(scheme, target: str, precision: str) -> dict[str, str]:
