@@ -1,0 +1,110 @@
+"""`fluxloom bench FILE [--cells N] [--steps K] [--json]`: how fast the kernels run.
+
+Reports cell-updates per second of the generated C (at -O2 and -O3) and numpy
+kernels, of the hand-written kernels of the same scheme where there is one, and
+of a streaming copy, for three velocity fields, plus the ratios the project's
+speed targets are stated in. Nothing here is a test: speed is only measured.
+"""
+from __future__ import annotations
+
+import json
+import sys
+
+from fluxloom.compiler import LoomError
+
+from ..speed import OPT_LEVELS, VELOCITY_FIELDS, measure, targets
+from .common import add_set_option, add_spec_argument, scheme_from_args
+
+MIN_CELLS = 64
+
+
+def register(sub) -> None:
+    parser = sub.add_parser(
+        "bench", help="measure kernel speed (cell-updates per second)",
+        description="Time the generated C and numpy kernels against hand-written kernels of "
+                    "the same scheme and a streaming copy, for smooth (sign-changing), "
+                    "constant-sign and random-sign face velocities.")
+    add_spec_argument(parser)
+    add_set_option(parser)
+    parser.add_argument("--cells", type=int, default=1_000_000, metavar="N",
+                        help="interior cells (default: 1000000)")
+    parser.add_argument("--steps", type=int, default=20, metavar="K",
+                        help="steps per timed run; the best of 3 runs counts (default: 20)")
+    parser.add_argument("--json", action="store_true", help="print JSON instead of tables")
+    parser.set_defaults(run=run)
+
+
+def _mega(value) -> str:
+    return "-" if value is None else f"{value / 1e6:9.1f}"
+
+
+def render(result, found) -> str:
+    lines = [f"{result.scheme}: {result.cells} cells, best of 3 runs of {result.steps} steps, "
+             "double precision",
+             f"hand-written counterpart: {result.counterpart or 'none (generated kernels only)'}",
+             "speed in million cell-updates per second"]
+    label_width = 44
+    for f in result.fields:
+        lines.append("")
+        title = f"velocity {f.field} ({f.sign_changes} sign changes)"
+        lines.append(f"{title:<{label_width}}" + "".join(f"{opt:>10}" for opt in OPT_LEVELS))
+        rows = [("generated C", f.generated_c), ("hand-written C", f.handwritten_c),
+                ("streaming copy", f.stream)]
+        for label, values in rows:
+            if values:
+                lines.append(f"  {label:<{label_width - 2}}" + "".join(
+                    f" {_mega(values.get(opt))}" for opt in OPT_LEVELS))
+        lines.append(f"  {'generated numpy (no flags)':<{label_width - 2}} {_mega(f.generated_numpy)}")
+        if f.handwritten_numpy is not None:
+            lines.append(f"  {'hand-written numpy':<{label_width - 2}} {_mega(f.handwritten_numpy)}")
+    lines.append("")
+    lines.append("numpy peak extra memory (arrays of the domain's size):")
+    for key, value in result.numpy_memory.items():
+        lines.append(f"  {key:<28} {value:6.2f}")
+    lines.append("")
+    lines.append("targets (ratio from this run, target)")
+    for t in found:
+        lines.append(f"  {'met   ' if t.met else 'MISSED'} {t.value:6.2f} >= {t.target:4.2f}  {t.what}")
+    return "\n".join(lines)
+
+
+def as_json(result, found) -> dict:
+    return {
+        "scheme": result.scheme,
+        "cells": result.cells,
+        "steps": result.steps,
+        "precision": "double",
+        "unit": "cell-updates per second",
+        "counterpart": result.counterpart,
+        "fields": [{
+            "velocity": f.field,
+            "sign_changes": f.sign_changes,
+            "generated_c": f.generated_c,
+            "handwritten_c": f.handwritten_c or None,
+            "stream": f.stream,
+            "generated_numpy": f.generated_numpy,
+            "handwritten_numpy": f.handwritten_numpy,
+        } for f in result.fields],
+        "numpy_peak_extra_arrays": result.numpy_memory,
+        "targets": [{"what": t.what, "ratio": t.value, "target": t.target, "met": t.met}
+                    for t in found],
+    }
+
+
+def run(args) -> int:
+    if args.cells < MIN_CELLS:
+        raise LoomError(f"--cells must be at least {MIN_CELLS}, given {args.cells}", file="--cells")
+    if args.steps < 1:
+        raise LoomError(f"--steps must be at least 1, given {args.steps}", file="--steps")
+    scheme = scheme_from_args(args)
+    def progress(text):
+        print(f"measuring {scheme.name}: {text}", file=sys.stderr, flush=True)
+    result = measure(scheme, args.cells, args.steps, fields=VELOCITY_FIELDS,
+                     progress=None if args.json else progress)
+    limited_single_step = scheme.limited and scheme.time == "euler"
+    found = targets(result, limited_single_step)
+    if args.json:
+        print(json.dumps(as_json(result, found), indent=2))
+    else:
+        print(render(result, found))
+    return 0

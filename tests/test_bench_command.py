@@ -1,0 +1,78 @@
+"""`fluxloom bench`: the hand-written kernels really compute the same schemes, and the
+command reports every number it promises. Speed itself is never asserted."""
+from __future__ import annotations
+
+import json
+
+import numpy as np
+import pytest
+from conftest import EXAMPLES
+
+from fluxloom.benchmarks import counterpart
+from fluxloom.compiler import load_scheme
+from fluxloom.runtime.cli import main
+from fluxloom.runtime.kernel import load_kernel
+from fluxloom.runtime.speed import handwritten_c, sign_changes, velocity_field
+
+
+@pytest.mark.parametrize("name", ["upwind", "lax_wendroff", "lw_vanleer"])
+def test_handwritten_kernels_match_the_generated_ones(name):
+    """A speed ratio only means something if both sides compute the same step."""
+    scheme = load_scheme(EXAMPLES / f"{name}.loom")
+    hand = counterpart(scheme)
+    assert hand is not None and hand.name == name
+    kernel = load_kernel(scheme, "numpy")
+    rng = np.random.default_rng(8)
+    n = 300
+    q_in = rng.random(n + 2 * hand.halo)
+    u = rng.uniform(-1, 1, n + 1)
+    u[::7] = 0.0
+    expected = kernel.step(q_in, u, 0.45)
+    by_numpy = q_in.copy()
+    hand.numpy_step(n, q_in, by_numpy, u, 0.45, hand.halo)
+    ffi, lib = handwritten_c("-O2")
+    by_c = q_in.copy()
+    getattr(lib, hand.c_function)(n, ffi.from_buffer("double[]", q_in),
+                                  ffi.from_buffer("double[]", by_c), ffi.from_buffer("double[]", u),
+                                  0.45, ffi.from_buffer("double[]", np.zeros(n + 1)))
+    h = hand.halo
+    np.testing.assert_allclose(by_numpy[h:-h], expected[h:-h], rtol=1e-13, atol=1e-15)
+    np.testing.assert_allclose(by_c[h:-h], expected[h:-h], rtol=1e-13, atol=1e-15)
+
+
+def test_counterparts_only_for_equivalent_schemes():
+    assert counterpart(load_scheme(EXAMPLES / "vanleer_clip.loom")) is None  # clip differs
+    assert counterpart(load_scheme(EXAMPLES / "lw_minmod.loom")) is None
+    assert counterpart(load_scheme(EXAMPLES / "upwind_rk3.loom")) is None
+
+
+def test_velocity_fields():
+    n = 1000
+    smooth, constant, noisy = (velocity_field(k, n) for k in ("smooth", "constant", "random"))
+    assert sign_changes(smooth) == 4 and sign_changes(constant) == 0
+    assert sign_changes(noisy) > n // 4
+    for u in (smooth, constant, noisy):
+        assert len(u) == n + 1 and u[0] == u[-1]
+
+
+def test_bench_json_reports_every_kernel_and_target(capsys):
+    assert main(["bench", str(EXAMPLES / "lw_vanleer.loom"), "--cells", "500", "--steps", "1",
+                 "--json"]) == 0
+    report = json.loads(capsys.readouterr().out)
+    assert report["counterpart"] == "lw_vanleer" and report["cells"] == 500
+    assert [f["velocity"] for f in report["fields"]] == ["smooth", "constant", "random"]
+    for f in report["fields"]:
+        for group in ("generated_c", "handwritten_c", "stream"):
+            assert set(f[group]) == {"-O2", "-O3"} and all(v > 0 for v in f[group].values())
+        assert f["generated_numpy"] > 0 and f["handwritten_numpy"] > 0
+    assert all(v >= 0 for v in report["numpy_peak_extra_arrays"].values())
+    kinds = " ".join(t["what"] for t in report["targets"])
+    assert "hand-written C" in kinds and "streaming copy" in kinds and "memory" in kinds
+
+
+def test_bench_without_counterpart_and_bad_options(capsys):
+    assert main(["bench", str(EXAMPLES / "lw_fct.loom"), "--cells", "300", "--steps", "1"]) == 0
+    out = capsys.readouterr().out
+    assert "none (generated kernels only)" in out and "generated numpy" in out
+    assert main(["bench", str(EXAMPLES / "upwind.loom"), "--cells", "3"]) == 2
+    assert "--cells must be at least" in capsys.readouterr().err
