@@ -16,7 +16,7 @@ from dataclasses import dataclass
 
 import sympy
 
-from ..diagnostics import LoomError
+from ..diagnostics import LoomError, Span
 from .intervals import CourantSet
 from .monotone import analyse_monotone
 from .symbol import LinearScheme, linear_coefficients
@@ -44,6 +44,25 @@ def low_flux_scheme(scheme) -> LinearScheme | None:
     return LinearScheme("low flux", "euler", coefficients)
 
 
+def _low_flux_error(scheme, message: str) -> LoomError:
+    """A LoomError pointing at the low_flux statement when the spec file can be read.
+
+    The IR keeps no source spans, so the statement is found again in the file text.
+    """
+    try:
+        with open(scheme.file, encoding="utf-8") as handle:
+            text = handle.read()
+    except OSError:
+        return LoomError(message, file=scheme.file)
+    for number, line in enumerate(text.splitlines(), start=1):
+        code = line.split("#", 1)[0]
+        col = code.find("low_flux")
+        if col >= 0 and "=" in code[col:]:
+            span = Span(number, col + 1, number, col + 1 + len("low_flux"))
+            return LoomError(message, span, file=scheme.file, source=text)
+    return LoomError(message, file=scheme.file, source=text)
+
+
 def check_low_flux(scheme) -> None:
     """Raise a LoomError when `correct fct` has no usable monotone low_flux."""
     if scheme.correct != "fct":
@@ -53,14 +72,15 @@ def check_low_flux(scheme) -> None:
                         "(the monotone flux the correction falls back to)", file=scheme.file)
     low = low_flux_scheme(scheme)
     if low is None:
-        raise LoomError("the low_flux must be linear in q so that its monotonicity can be "
-                        "shown (for example low_flux = u * q[0])", file=scheme.file)
+        raise _low_flux_error(scheme, "the low_flux must be linear in q so that its "
+                              "monotonicity can be shown (for example low_flux = u * q[0])")
     result = analyse_monotone(low)
     if not result.holds:
         coefficients = ", ".join(f"q[j{m:+d}]: {sympy.sstr(v)}" for m, v in result.coefficients)
-        raise LoomError("the low_flux is monotone at no Courant number (its update coefficients "
-                        f"{coefficients} are never all >= 0 on an interval of c), so "
-                        "'correct fct' cannot keep the solution within bounds", file=scheme.file)
+        raise _low_flux_error(scheme, "the low_flux is monotone at no Courant number (its "
+                              f"update coefficients {coefficients} are never all >= 0 on an "
+                              "interval of c), so 'correct fct' cannot keep the solution "
+                              "within bounds")
 
 
 def analyse_bounds(scheme) -> Bounds | None:

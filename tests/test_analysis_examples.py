@@ -1,0 +1,150 @@
+"""Every example analyses; the JSON document has the promised shape; the
+command line behaves; Godunov's barrier holds over all examples."""
+from __future__ import annotations
+
+import json
+
+import pytest
+import sympy
+
+from fluxloom.compiler import LoomError, load_scheme, scheme_from_text
+from fluxloom.compiler.analysis import analyse, check_low_flux
+from fluxloom.runtime.cli import main
+
+from conftest import EXAMPLE_FILES, EXAMPLES
+
+REQUIRED = {"scheme", "time", "halo", "consistent", "order", "modified_equation", "stability",
+            "conservative", "convergent", "monotone", "limiters", "tvd"}
+
+
+def test_every_example_analyses(example_path):
+    doc = analyse(load_scheme(example_path)).to_json()
+    assert REQUIRED <= set(doc)
+    assert set(doc["order"]) >= {"space", "time", "overall"}
+    assert doc["stability"]["kind"] in ("unconditional", "conditional", "unstable")
+    assert set(doc["convergent"]) >= {"holds", "courant_min", "courant_max"}
+    assert set(doc["monotone"]) >= {"holds", "courant_max"}
+    assert set(doc["tvd"]) >= {"holds", "courant_min", "courant_max"}
+    for lim in doc["limiters"].values():
+        assert set(lim) >= {"psi_at_1", "sweby_tvd", "second_order_region", "symmetric"}
+    for term in doc["modified_equation"]:
+        assert set(term) >= {"derivative", "coefficient"}
+        sympy.sympify(term["coefficient"])  # an exact expression sympy reads back
+    json.loads(json.dumps(doc))  # plain JSON: numbers, strings, bools, null
+
+
+def test_godunov_barrier_over_all_examples():
+    # Godunov 1959, Mat. Sb. 47:271 [mem, citation from memory]: a linear monotone scheme is
+    # at most first order. No example found monotone on an interval may claim more.
+    found_monotone = []
+    for path in EXAMPLE_FILES:
+        doc = analyse(load_scheme(path)).to_json()
+        if doc["linear"] and doc["monotone"]["holds"]:
+            found_monotone.append(path.stem)
+            assert doc["order"]["overall"] <= 1, path.stem
+    assert {"upwind", "lax_friedrichs", "upwind_rk3"} <= set(found_monotone)
+
+
+@pytest.mark.parametrize("stem, low, high", [
+    # Monotone where every coefficient is >= 0: upwind (1 - c, c) and Lax-Friedrichs
+    # ((1 + c)/2, (1 - c)/2) for 0 <= c <= 1 (LeVeque 2002 [mem]).
+    ("upwind", 0, 1), ("lax_friedrichs", 0, 1)])
+def test_monotone_intervals(stem, low, high):
+    doc = analyse(load_scheme(EXAMPLES / f"{stem}.loom")).to_json()["monotone"]
+    assert doc["holds"] and (doc["courant_min"], doc["courant_max"]) == (low, high)
+
+
+def test_lax_wendroff_not_monotone():
+    # Lax-Wendroff has a_{+1} = -c(1 - c)/2 < 0 (REFERENCE.md; Godunov 1959 [mem]).
+    doc = analyse(load_scheme(EXAMPLES / "lax_wendroff.loom")).to_json()["monotone"]
+    assert doc["holds"] is False
+    c = sympy.Symbol("c", nonnegative=True)
+    assert sympy.simplify(sympy.sympify(doc["coefficients"]["1"], locals={"c": c})
+                          + c * (1 - c) / 2) == 0
+
+
+def test_conservation_and_its_sources(example_path):
+    scheme = load_scheme(example_path)
+    doc = analyse(scheme).to_json()
+    if scheme.clip is not None:
+        assert doc["conservative"] is False
+        assert doc["conservation"]["source"] == "clip"
+        assert "post-step clamp" in doc["conservation"]["reason"]
+        assert doc["bounds"]["bounded"] is True and doc["verdict_sources"]["bounded"] == "clip"
+    else:
+        assert doc["conservative"] is True
+
+
+def test_clip_keeps_the_scheme_verdicts():
+    plain = analyse(load_scheme(EXAMPLES / "lax_wendroff.loom")).to_json()
+    clipped = analyse(load_scheme(EXAMPLES / "lw_clip.loom")).to_json()
+    assert clipped["stability"]["courant_max"] == plain["stability"]["courant_max"]
+    assert clipped["order"]["overall"] == plain["order"]["overall"]
+    assert clipped["verdict_sources"]["stability"] == "scheme"
+    assert clipped["verdict_sources"]["conservative"] == "clip"
+
+
+def test_fct_verdicts():
+    # Zalesak 1979, J. Comput. Phys. 31:335 [pub]: corrected fluxes telescope; bounded where
+    # the low-order (upwind) step is monotone, 0 <= c <= 1 (its coefficients 1 - c and c).
+    doc = analyse(load_scheme(EXAMPLES / "lw_fct.loom")).to_json()
+    assert doc["conservative"] is True and doc["conservation"]["source"] == "fct"
+    assert doc["bounds"]["kind"] == "fct"
+    assert doc["bounded"]["holds"] is True
+    assert (doc["bounded"]["courant_min"], doc["bounded"]["courant_max"]) == (0, 1)
+    assert doc["order"]["overall"] == 2 and "correction bites" in doc["order"]["note"]
+
+
+FCT_BAD_LOW = """scheme bad {
+  time euler
+  low_flux = u * (q[0] + q[1]) / 2
+  flux = u * (q[0] + (1 - c) / 2 * (q[1] - q[0]))
+  correct fct
+}"""
+
+
+def test_fct_with_a_low_flux_monotone_nowhere_is_an_error(tmp_path):
+    # The centred flux with forward Euler has coefficient -c/2 on q[j+1] (never monotone).
+    with pytest.raises(LoomError, match="monotone at no Courant number"):
+        check_low_flux(scheme_from_text(FCT_BAD_LOW))
+    path = tmp_path / "bad.loom"
+    path.write_text(FCT_BAD_LOW)
+    with pytest.raises(LoomError) as err:
+        analyse(load_scheme(path))
+    assert err.value.span is not None and err.value.span.line == 3
+    assert main(["check", str(path)]) == 2
+
+
+def test_check_json_and_exit_status(capsys):
+    assert main(["check", str(EXAMPLES / "upwind.loom"), "--json"]) == 0
+    doc = json.loads(capsys.readouterr().out)
+    assert doc["stability"]["courant_max"] == 1.0
+    assert doc["stability"]["courant_max_exact"] == "1"
+    # An unstable scheme is a finding, not an error.
+    assert main(["check", str(EXAMPLES / "ftcs.loom")]) == 0
+    out = capsys.readouterr().out
+    assert "stability     unstable" in out
+
+
+@pytest.mark.parametrize("value", ["0", "-1", "abc", "nan"])
+def test_bad_courant_is_bad_input(value, capsys):
+    assert main(["check", str(EXAMPLES / "upwind.loom"), "--courant", value]) == 2
+    assert "--courant" in capsys.readouterr().err
+
+
+def test_set_overrides_reach_the_analysis(capsys):
+    # kappa = -1 with SSP-RK3: largest stable c 0.6281 (REFERENCE.md MOL table, [derived]).
+    assert main(["check", str(EXAMPLES / "kappa_rk3.loom"), "--set", "kappa=-1", "--json"]) == 0
+    doc = json.loads(capsys.readouterr().out)
+    assert abs(doc["stability"]["courant_max"] - 0.6281) < 1e-3
+    assert main(["check", str(EXAMPLES / "kappa_rk3.loom"), "--set", "kapa=0"]) == 2
+
+
+def test_dispersion_table_at_requested_courant():
+    # Upwind at c = 1 is the exact shift: |G| = 1 and no phase error at any resolution
+    # (common practice, no source).
+    doc = analyse(load_scheme(EXAMPLES / "upwind.loom"), courant=1.0).to_json()["dispersion"]
+    assert [r["cells_per_wavelength"] for r in doc["rows"]] == [4, 8, 16, 32]
+    for row in doc["rows"]:
+        assert abs(row["amplitude_per_step"] - 1) < 1e-12
+        assert abs(row["phase_error_per_step"]) < 1e-12

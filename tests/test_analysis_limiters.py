@@ -1,0 +1,147 @@
+"""Limiters and TVD against published facts (Sweby 1984 and the reference list)."""
+from __future__ import annotations
+
+import numpy
+import pytest
+import sympy
+
+from fluxloom.compiler import load_scheme, scheme_from_text
+from fluxloom.compiler.analysis import analyse
+from fluxloom.compiler.analysis.limiters import analyse_limiter
+from fluxloom.compiler.symbols import R
+
+from conftest import EXAMPLES
+
+r = R
+LIMITERS = {
+    # Bodies as published (REFERENCE.md "Flux limiters"; sources there, all [mem]).
+    "minmod": sympy.Max(0, sympy.Min(1, r)),                                    # Roe 1986
+    "superbee": sympy.Max(0, sympy.Min(2 * r, 1), sympy.Min(r, 2)),             # Roe 1986; Sweby 1984
+    "vanleer": (r + sympy.Abs(r)) / (1 + sympy.Abs(r)),                          # van Leer 1974
+    "mc": sympy.Max(0, sympy.Min(2 * r, (1 + r) / 2, 2)),                        # van Leer 1977
+    "vanalbada": sympy.Max(0, r) * (r + 1) / (r**2 + 1),                         # van Albada et al. 1982
+    "koren": sympy.Max(0, sympy.Min(2 * r, (1 + 2 * r) / 3, 2)),                 # Koren 1993
+}
+
+
+@pytest.mark.parametrize("name", sorted(LIMITERS))
+def test_six_limiters_in_sweby_region_and_its_second_order_part(name):
+    # Sweby 1984, SIAM J. Numer. Anal. 21:995 [mem, citation from memory]: all six lie in the
+    # TVD region and its second-order part, with psi(1) = 1 (REFERENCE.md, [derived]).
+    facts = analyse_limiter(name, LIMITERS[name])
+    assert facts.psi_at_1 == 1
+    assert facts.sweby_tvd is True
+    assert facts.second_order_region is True
+    assert facts.method.startswith("exact")
+
+
+@pytest.mark.parametrize("name, symmetric", [
+    # Symmetry psi(r)/r = psi(1/r) [pub: Arora and Roe 1997, J. Comput. Phys. 132:3];
+    # the table in REFERENCE.md: all symmetric but Koren (Koren 1993 [mem]).
+    ("minmod", True), ("superbee", True), ("vanleer", True), ("mc", True),
+    ("vanalbada", True), ("koren", False),
+])
+def test_limiter_symmetry(name, symmetric):
+    assert analyse_limiter(name, LIMITERS[name]).symmetric is symmetric
+
+
+def test_van_albada_peak():
+    # van Albada peaks at about 1.2071 at r = 1 + sqrt(2) (REFERENCE.md, [derived]); the
+    # value there is (1 + sqrt(2)) / 2.
+    facts = analyse_limiter("vanalbada", LIMITERS["vanalbada"])
+    assert sympy.simplify(facts.sup_psi - (1 + sympy.sqrt(2)) / 2) == 0
+    assert abs(float(facts.sup_psi) - 1.2071) < 1e-4
+
+
+def test_limiter_slopes_at_one():
+    # Left and right derivatives at r = 1, from the published bodies (common practice, no
+    # source): minmod 1 | 0, superbee 0 | 1, van Leer 1/2, MC 1/2, Koren 2/3.
+    got = {n: (f.slope_left, f.slope_right)
+           for n, f in ((n, analyse_limiter(n, b)) for n, b in LIMITERS.items())}
+    assert got["minmod"] == (1, 0)
+    assert got["superbee"] == (0, 1)
+    assert got["vanleer"] == (sympy.Rational(1, 2),) * 2
+    assert got["mc"] == (sympy.Rational(1, 2),) * 2
+    assert got["koren"] == (sympy.Rational(2, 3),) * 2
+
+
+def test_exact_verdicts_agree_with_a_dense_numpy_sample():
+    # Independent check with numpy: sample each limiter on a dense grid and test Sweby's
+    # inequalities directly (common practice, no source).
+    grid = numpy.concatenate([numpy.linspace(-5, 0, 501), numpy.linspace(1e-4, 50, 200001)])
+    for name, body in LIMITERS.items():
+        psi = sympy.lambdify(R, body, modules="numpy")(grid)
+        pos = grid > 0
+        inside = (numpy.all(psi[~pos] == 0) and numpy.all(psi[pos] >= 0)
+                  and numpy.all(psi[pos] <= numpy.minimum(2 * grid[pos], 2) + 1e-12))
+        assert inside == analyse_limiter(name, body).sweby_tvd, name
+
+
+def test_tidewater_in_region_not_symmetric():
+    # Our own tidewater limiter (examples/tidewater.loom): in Sweby's region and its second-order
+    # part, not symmetric. Independent check with numpy on a grid (common practice, no source).
+    scheme = load_scheme(EXAMPLES / "tidewater.loom")
+    facts = analyse(scheme).limiters[0]
+    assert (facts.sweby_tvd, facts.second_order_region, facts.symmetric) == (True, True, False)
+    psi = scheme.limiters[0].lambdified()
+    rs = numpy.linspace(0.01, 20, 4000)
+    assert numpy.all(psi(rs) <= numpy.minimum(2 * rs, 2))
+    assert not numpy.allclose(psi(rs) / rs, psi(1 / rs))
+
+
+def test_overreach_outside_sweby_region_yet_tvd_on_a_middle_band():
+    # REFERENCE.md "Courant-dependent form" (Sweby 1984 [mem]; [derived] from Harten's C):
+    # psi = max(0, min(3r, 1), min(r, 3)) is outside the Courant-free region, yet one step is
+    # TVD exactly for 1/3 <= c <= 2/3.
+    result = analyse(load_scheme(EXAMPLES / "lw_overreach.loom"))
+    assert result.limiters[0].sweby_tvd is False
+    main = result.tvd.stable_set.main
+    assert (main.lo, main.hi) == (sympy.Rational(1, 3), sympy.Rational(2, 3))
+    assert result.tvd.holds is True
+    # c = 1 is the exact shift, TVD too; nothing else in (2/3, oo).
+    assert all(p.is_point for p in result.tvd.stable_set.islands)
+
+
+def test_courant_dependent_condition_checked_with_numpy():
+    # The same condition, psi(r)/r <= 2/c and psi(r) <= 2/(1 - c) for all r (Sweby 1984 [mem]),
+    # evaluated with numpy over a grid of c and r, independent of the analysis code.
+    psi = load_scheme(EXAMPLES / "lw_overreach.loom").limiters[0].lambdified()
+    rs = numpy.concatenate([numpy.linspace(1e-6, 1, 20001), numpy.linspace(1, 100, 20001)])
+    sup_ratio, sup_psi = numpy.max(psi(rs) / rs), numpy.max(psi(rs))
+    tvd_set = analyse(load_scheme(EXAMPLES / "lw_overreach.loom")).tvd.stable_set
+    for cv in numpy.linspace(0.01, 0.99, 99):
+        numpy_says = sup_ratio <= 2 / cv + 1e-9 and sup_psi <= 2 / (1 - cv) + 1e-9
+        assert numpy_says == tvd_set.contains(cv), cv
+
+
+@pytest.mark.parametrize("stem", ["lw_minmod", "lw_superbee", "lw_vanleer", "lw_mc",
+                                  "lw_vanalbada", "lw_koren", "tidewater"])
+def test_limited_lax_wendroff_tvd_for_courant_up_to_one(stem):
+    # A limiter inside Sweby's region makes flux-limited Lax-Wendroff TVD for 0 <= c <= 1
+    # (Sweby 1984 [mem]).
+    result = analyse(load_scheme(EXAMPLES / f"{stem}.loom"))
+    main = result.tvd.stable_set.main
+    assert (main.lo, main.hi) == (0, 1)
+
+
+def test_ssp_scaling_of_the_tvd_interval():
+    # SSP-RK3 keeps the forward-Euler TVD interval (SSP coefficient 1; Gottlieb and Shu 1998
+    # [mem]). For g = q0 + psi/2 (q1 - q0), Harten's C = c(1 + psi(r)/(2r) - psi(r')/2) with
+    # van Leer's psi in [0, 2), psi/r in [0, 2): C <= 2c, so TVD for c <= 1/2 (derived by hand
+    # from Harten 1983 [mem]).
+    result = analyse(load_scheme(EXAMPLES / "vanleer_rk3.loom"))
+    main = result.tvd.stable_set.main
+    assert (main.lo, main.hi) == (0, sympy.Rational(1, 2))
+
+
+def test_rk4_tvd_is_undecided():
+    # Classical RK4 is not SSP (Gottlieb, Shu and Tadmor 2001 [mem]): no TVD claim carries over.
+    text = """scheme v {
+  time rk4
+  let r = ratio(q[0] - q[-1], q[1] - q[0])
+  limiter vanleer(r) = (r + abs(r)) / (1 + abs(r))
+  flux = u * (q[0] + vanleer(r) / 2 * (q[1] - q[0]))
+}"""
+    result = analyse(scheme_from_text(text))
+    assert result.tvd.holds is None
+    assert "not strong-stability preserving" in result.tvd.reason
