@@ -37,6 +37,7 @@ def evaluate(text: str, **arrays):
     sympy.Min(x, y, 2 * z), sympy.Max(0, sympy.Min(1, x)), sympy.Abs(x - y) / (1 + sympy.Abs(x)),
     sympy.sign(x) * y, sympy.sqrt(x * x + 1), x ** 3 - y ** 2, 1 / (1 + x * x), (x + 2) ** -2,
     sympy.Rational(1, 3) * x + sympy.Rational(2, 7), sympy.Max(x, y, z, 0) - sympy.Min(x, -y),
+    y / x ** 2, y / x ** 3, z / (x + 3) ** 4, x ** 5 * y, y / sympy.sqrt(x * x + 1), 2 ** x, x ** -5,
 ])
 def test_printed_expression_matches_sympy(expr):
     """Printed numpy code and sympy's own evaluation agree on random points."""

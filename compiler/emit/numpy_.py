@@ -94,13 +94,13 @@ class NumpyKernelPrinter(NumPyPrinter):
         base, exp = expr.args
         if exp == sympy.S.Half:
             return f"np.sqrt({self._print(base)})"
-        if exp.is_Integer and 1 < abs(int(exp)) <= 3:
-            # Repeated products: cheaper than np.power and exact in the same way as C.
+        if exp.is_Integer and 2 <= abs(int(exp)) <= 4:
+            # Repeated products, bracketed so that y/x**2 stays y/(x*x).
             factor = self.parenthesize(base, PRECEDENCE["Mul"])
             product = "*".join([factor] * abs(int(exp)))
-            return product if exp > 0 else f"1/({product})"
+            return f"({product})" if exp > 0 else f"(1/({product}))"
         if exp == -1:
-            return f"1/{self.parenthesize(base, PRECEDENCE['Mul'])}"
+            return f"(1/{self.parenthesize(base, PRECEDENCE['Mul'])})"
         return super()._print_Pow(expr, rational=rational)
 
 
