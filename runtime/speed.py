@@ -170,9 +170,13 @@ class BenchResult:
     numpy_memory: dict[str, float] = field(default_factory=dict)  # peak extra, in domain arrays
 
 
-def measure(scheme: Scheme, cells: int, steps: int, repeats: int = 3,
+def measure(scheme: Scheme, cells: int, steps: int, repeats: int = 5,
             fields=VELOCITY_FIELDS, opt_levels=OPT_LEVELS, progress=None) -> BenchResult:
-    """Time every kernel of scheme on every velocity field (double precision)."""
+    """Time every kernel of scheme on every velocity field (double precision).
+
+    The kernels take turns within each of the `repeats` rounds and each keeps its
+    best round, so a change in machine load hits all of them alike.
+    """
     hand = counterpart(scheme)
     module = numpy_module(scheme, "double")
     libraries = {opt: build.compile_c(scheme, "double", opt) for opt in opt_levels}
@@ -186,42 +190,56 @@ def measure(scheme: Scheme, cells: int, steps: int, repeats: int = 3,
         def domain(halo, face_halo=0, work=0):
             return Domain(cells, halo, face_halo, u, work, dt_dx)
 
-        generated_c, handwritten, stream = {}, {}, {}
+        runners = {}
         for opt, (ffi, lib) in libraries.items():
             d = domain(module.HALO, module.FACE_HALO, lib_workspace(lib, scheme.name, cells))
-            generated_c[opt] = cells / seconds_per_step(
-                _c_caller(ffi, getattr(lib, f"{scheme.name}_step"), d, True), steps, repeats)
+            runners["generated C", opt] = _c_caller(ffi, getattr(lib, f"{scheme.name}_step"), d, True)
             hand_ffi, hand_lib = handwritten_c(opt)
             if hand is not None:
                 d = domain(hand.halo, 0, cells + 1)
-                handwritten[opt] = cells / seconds_per_step(
-                    _c_caller(hand_ffi, getattr(hand_lib, hand.c_function), d, True), steps, repeats)
-            d = domain(0)
-            source, target = (hand_ffi.from_buffer("double[]", a) for a in d.arrays)
-            stream[opt] = cells / seconds_per_step(
-                lambda: hand_lib.stream_copy(cells, source, target), steps, repeats)
-
-        d = domain(module.HALO, module.FACE_HALO, module.workspace_size(cells))
-        work = d.work if module.workspace_size(cells) else None
-
-        def numpy_step():
-            a, b = d.pair()
-            module.step(cells, a, b, d.u_face, dt_dx, work)
-        generated_numpy = cells / seconds_per_step(numpy_step, steps, repeats)
-        memory[f"generated ({kind})"] = peak_extra_arrays(numpy_step, cells, 8)
-
-        handwritten_numpy = None
+                runners["hand-written C", opt] = _c_caller(
+                    hand_ffi, getattr(hand_lib, hand.c_function), d, True)
+            runners["stream", opt] = _stream_caller(hand_ffi, hand_lib, domain(0))
+        runners["generated numpy", None] = _numpy_caller(
+            module.step, domain(module.HALO, module.FACE_HALO, module.workspace_size(cells)),
+            module.workspace_size(cells) > 0)
         if hand is not None:
             e = domain(hand.halo)
+            runners["hand-written numpy", None] = _numpy_caller(
+                lambda n, a, b, u_face, dt, work: hand.numpy_step(n, a, b, u_face, dt, hand.halo),
+                e, False)
+        best = dict.fromkeys(runners, float("inf"))
+        for _ in range(repeats):
+            for key, step in runners.items():
+                best[key] = min(best[key], seconds_per_step(step, steps, 1))
+        speed = {key: cells / seconds for key, seconds in best.items()}
+        memory[f"generated ({kind})"] = peak_extra_arrays(runners["generated numpy", None], cells, 8)
+        if hand is not None:
+            memory[f"hand-written ({kind})"] = peak_extra_arrays(
+                runners["hand-written numpy", None], cells, 8)
 
-            def hand_numpy_step():
-                a, b = e.pair()
-                hand.numpy_step(cells, a, b, e.u_face, dt_dx, hand.halo)
-            handwritten_numpy = cells / seconds_per_step(hand_numpy_step, steps, repeats)
-            memory[f"hand-written ({kind})"] = peak_extra_arrays(hand_numpy_step, cells, 8)
-        results.append(FieldResult(kind, sign_changes(u), generated_c, handwritten, stream,
-                                   generated_numpy, handwritten_numpy))
+        def by_opt(label):
+            return {opt: speed[label, opt] for opt in opt_levels if (label, opt) in speed}
+        results.append(FieldResult(kind, sign_changes(u), by_opt("generated C"),
+                                   by_opt("hand-written C"), by_opt("stream"),
+                                   speed["generated numpy", None],
+                                   speed.get(("hand-written numpy", None))))
     return BenchResult(scheme.name, cells, steps, hand.name if hand else None, tuple(results), memory)
+
+
+def _stream_caller(ffi, lib, domain: Domain):
+    source, target = (ffi.from_buffer("double[]", a) for a in domain.arrays)
+    n = domain.n
+    return lambda: lib.stream_copy(n, source, target)
+
+
+def _numpy_caller(step_function, domain: Domain, with_work: bool):
+    work = domain.work if with_work else None
+
+    def step():
+        a, b = domain.pair()
+        step_function(domain.n, a, b, domain.u_face, domain.dt_dx, work)
+    return step
 
 
 def lib_workspace(lib, name: str, cells: int) -> int:

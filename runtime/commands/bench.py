@@ -29,7 +29,7 @@ def register(sub) -> None:
     parser.add_argument("--cells", type=int, default=1_000_000, metavar="N",
                         help="interior cells (default: 1000000)")
     parser.add_argument("--steps", type=int, default=20, metavar="K",
-                        help="steps per timed run; the best of 3 runs counts (default: 20)")
+                        help="steps per timed run; the best of 5 runs counts (default: 20)")
     parser.add_argument("--json", action="store_true", help="print JSON instead of tables")
     parser.set_defaults(run=run)
 
@@ -39,7 +39,7 @@ def _mega(value) -> str:
 
 
 def render(result, found) -> str:
-    lines = [f"{result.scheme}: {result.cells} cells, best of 3 runs of {result.steps} steps, "
+    lines = [f"{result.scheme}: {result.cells} cells, best of 5 runs of {result.steps} steps, "
              "double precision",
              f"hand-written counterpart: {result.counterpart or 'none (generated kernels only)'}",
              "speed in million cell-updates per second"]
