@@ -90,6 +90,7 @@ class Analysis:
         return analysis_document(self)
 
 
+CACHE_SIZE = 256
 _CACHE: dict[tuple[str, float], Analysis] = {}
 
 
@@ -98,6 +99,8 @@ def analyse(scheme, courant: float = 0.5) -> Analysis:
     check_low_flux(scheme)
     key = (scheme.fingerprint, float(courant))
     if key not in _CACHE:
+        if len(_CACHE) >= CACHE_SIZE:
+            _CACHE.pop(next(iter(_CACHE)))  # oldest first
         _CACHE[key] = _analyse(scheme, float(courant))
     return _CACHE[key]
 

@@ -164,9 +164,9 @@ def analysis_document(a) -> dict:
                           "scheme is judged by TVD (see tvd)")
         mono["bounding"] = [{"label": m.label, "holds": m.holds, **_set(m.monotone)}
                             for m in a.monotone]
+        mono["source"] = "limiter"
         undecided.append("monotone: nonlinear scheme")
-    if s.clip is not None:
-        mono["source"] = "scheme"
+    if s.clip is not None and mono["holds"] is not None:
         mono["reason"] += "; the clamp is pointwise and non-decreasing, so it keeps this verdict"
     if s.correct == "fct":
         mono["source"] = "fct"

@@ -1,0 +1,116 @@
+"""PNG figures of the symbolic analysis (`fluxloom check --plots DIR`).
+
+|G| over theta at several Courant numbers, the stability map over (c, theta),
+the relative phase speed, and each limiter's curve over Sweby's region. A file
+already there is replaced only when fluxloom wrote it or with --force.
+"""
+from __future__ import annotations
+
+from pathlib import Path
+
+import numpy as np
+import sympy
+
+from fluxloom.compiler import LoomError
+from fluxloom.compiler.symbols import C, R
+
+from .plots import _save, is_ours, plt
+
+THETA = np.linspace(1e-4, np.pi, 721)
+
+
+def _courants(analysis) -> list[float]:
+    span = analysis.stable_interval
+    top = float(sympy.N(span.hi)) if span is not None and span.hi.is_finite else 1.0
+    picks = sorted({round(top * f, 4) for f in (0.25, 0.5, 0.75, 1.0)} | {analysis.courant})
+    return picks + [round(top * 1.1, 4)]
+
+
+def _g_of(linear_scheme):
+    z = sympy.Symbol("z")
+    f = sympy.lambdify((C, z), linear_scheme.amplification, modules="numpy")
+    return lambda c, theta: np.broadcast_to(f(c, np.exp(1j * theta)), np.shape(theta))
+
+
+def amplification_figure(analysis, path: Path) -> Path:
+    fig, ax = plt.subplots(figsize=(6.4, 4.4))
+    g = _g_of(analysis.linearisation.smooth[0])
+    for c in _courants(analysis):
+        ax.plot(THETA, np.abs(g(c, THETA)), label=f"c = {c:g}")
+    ax.axhline(1.0, color="black", lw=0.8, ls=":")
+    ax.set_xlabel("theta = k dx")
+    ax.set_ylabel("|G|")
+    ax.set_title(f"{analysis.scheme.name}: amplification factor "
+                 f"({analysis.linearisation.smooth[0].label})", fontsize=9)
+    ax.legend(fontsize=7)
+    return _save(fig, path)
+
+
+def stability_map_figure(analysis, path: Path) -> Path:
+    span = analysis.stable_interval
+    top = float(sympy.N(span.hi)) if span is not None and span.hi.is_finite else 1.0
+    cs = np.linspace(1e-3, max(2.2, 1.5 * top), 331)
+    thetas = THETA[THETA >= 0.05]  # below this |G| - 1 is at round-off level and the contour speckles
+    g = _g_of(analysis.linearisation.smooth[0])
+    growth = np.array([np.abs(g(c, thetas)) for c in cs]).T
+    fig, ax = plt.subplots(figsize=(6.4, 4.4))
+    image = ax.pcolormesh(cs, thetas, np.log10(np.maximum(growth, 1e-6)), shading="auto",
+                          cmap="RdBu_r", vmin=-0.5, vmax=0.5)
+    ax.contour(cs, thetas, growth, levels=[1.0], colors="black", linewidths=0.8)
+    fig.colorbar(image, ax=ax, label="log10 |G|")
+    ax.set_xlabel("Courant number c")
+    ax.set_ylabel("theta")
+    ax.set_title(f"{analysis.scheme.name}: stability map (|G| = 1 contour)", fontsize=9)
+    return _save(fig, path)
+
+
+def phase_speed_figure(analysis, path: Path) -> Path:
+    fig, ax = plt.subplots(figsize=(6.4, 4.4))
+    g = _g_of(analysis.linearisation.smooth[0])
+    for c in _courants(analysis)[:-1]:
+        phase = np.unwrap(np.angle(g(c, THETA)))
+        ax.plot(THETA, -phase / (c * THETA), label=f"c = {c:g}")
+    ax.axhline(1.0, color="black", lw=0.8, ls=":")
+    ax.set_xlabel("theta = k dx")
+    ax.set_ylabel("numerical / exact phase speed")
+    ax.set_title(f"{analysis.scheme.name}: relative phase speed", fontsize=9)
+    ax.legend(fontsize=7)
+    return _save(fig, path)
+
+
+def limiter_figure(analysis, limiter, path: Path) -> Path:
+    r = np.linspace(-1.0, 4.0, 1001)
+    psi = np.broadcast_to(sympy.lambdify(R, analysis.scheme.bound(limiter.body), "numpy")(r),
+                          r.shape)
+    fig, ax = plt.subplots(figsize=(6.0, 4.4))
+    pos = r >= 0
+    ax.fill_between(r[pos], 0, np.minimum(2 * r[pos], 2), color="0.88", label="Sweby TVD region")
+    minmod = np.maximum(0, np.minimum(1, r))
+    superbee = np.maximum(0, np.maximum(np.minimum(2 * r, 1), np.minimum(r, 2)))
+    ax.fill_between(r[pos], minmod[pos], superbee[pos], color="0.7", label="second-order part")
+    ax.plot(r, psi, color="C3", lw=1.6, label=f"{limiter.name}(r)")
+    ax.set_xlabel("r")
+    ax.set_ylabel("psi(r)")
+    ax.set_ylim(-0.2, max(3.2, float(np.max(psi)) + 0.2))
+    ax.set_title(f"{analysis.scheme.name}: limiter {limiter.name}", fontsize=9)
+    ax.legend(fontsize=7, loc="upper left")
+    return _save(fig, path)
+
+
+def write_plots(analysis, directory: Path, force: bool = False) -> list[Path]:
+    """Write every figure into directory (created if needed); return the paths."""
+    directory.mkdir(parents=True, exist_ok=True)
+    name = analysis.scheme.name
+    jobs = []
+    if analysis.linearisation.smooth:
+        jobs += [(directory / f"{name}_amplification.png", amplification_figure),
+                 (directory / f"{name}_stability_map.png", stability_map_figure),
+                 (directory / f"{name}_phase_speed.png", phase_speed_figure)]
+    for limiter in analysis.scheme.limiters:
+        jobs.append((directory / f"{name}_limiter_{limiter.name}.png",
+                     lambda a, p, lim=limiter: limiter_figure(a, lim, p)))
+    for path, _ in jobs:
+        if path.exists() and not force and not is_ours(path):
+            raise LoomError(f"{path} exists and was not written by fluxloom; "
+                            "use --force to overwrite it", file="--plots")
+    return [make(analysis, path) for path, make in jobs]
