@@ -49,36 +49,78 @@ class Consistency:
     note: str
 
 
-def _series(laurent: dict, order: int) -> list[sympy.Expr]:
-    """Coefficients of x^n, n = 0..order, of sum_m b_m exp(m x)."""
-    return [sympy.expand(sum((v * sympy.Integer(m) ** n for m, v in laurent.items()),
-                             sympy.Integer(0)) / sympy.factorial(n)) for n in range(order + 1)]
+class _Coefficients:
+    """Arithmetic for series coefficients: the field QQ(c) when the coefficients are
+    rational functions of c with rational coefficients (fast and exact), else sympy."""
+
+    def __init__(self, values):
+        self.field = sympy.QQ.frac_field(C)
+        try:
+            self.convert = [self.field.from_sympy(sympy.sympify(v)) for v in values]
+            self.fast = True
+        except (sympy.CoercionFailed, sympy.PolynomialError, ValueError):
+            self.convert = [sympy.sympify(v) for v in values]
+            self.fast = False
+
+    def zero(self):
+        return self.field.zero if self.fast else sympy.Integer(0)
+
+    def one(self):
+        return self.field.one if self.fast else sympy.Integer(1)
+
+    def number(self, value):
+        return self.field.from_sympy(sympy.Rational(value)) if self.fast else sympy.Rational(value)
+
+    def simplify(self, value):
+        return value if self.fast else sympy.expand(value)
+
+    def to_sympy(self, value):
+        return self.field.to_sympy(value) if self.fast else sympy.expand(value)
 
 
-def _log_series(coeffs: list[sympy.Expr]) -> list[sympy.Expr]:
+def _series(laurent: dict, order: int):
+    """Coefficients of x^n, n = 0..order, of sum_m b_m exp(m x), and their arithmetic."""
+    offsets = list(laurent)
+    arith = _Coefficients([laurent[m] for m in offsets])
+    out = []
+    for n in range(order + 1):
+        total = arith.zero()
+        for m, v in zip(offsets, arith.convert):
+            total = total + v * arith.number(sympy.Integer(m) ** n)
+        out.append(arith.simplify(total * arith.number(sympy.Rational(1, sympy.factorial(n)))))
+    return out, arith
+
+
+def _log_series(coeffs, arith) -> list[sympy.Expr]:
     """Coefficients of ln(sum_n G_n x^n), given G_0 = 1, truncated at the same order."""
     order = len(coeffs) - 1
-    h = [sympy.Integer(0)] + coeffs[1:]
-    out = [sympy.Integer(0)] * (order + 1)
-    power = [sympy.Integer(1)] + [sympy.Integer(0)] * order
+    h = [arith.zero()] + list(coeffs[1:])
+    out = [arith.zero()] * (order + 1)
+    power = [arith.one()] + [arith.zero()] * order
     for j in range(1, order + 1):
-        power = [sympy.expand(sum((power[i] * h[n - i] for i in range(n + 1)), sympy.Integer(0)))
-                 for n in range(order + 1)]
-        sign = sympy.Integer(1) if j % 2 else sympy.Integer(-1)
+        new = []
         for n in range(order + 1):
-            out[n] += sign * power[n] / j
-    return [sympy.expand(v) for v in out]
+            total = arith.zero()
+            for i in range(n + 1):
+                total = total + power[i] * h[n - i]
+            new.append(arith.simplify(total))
+        power = new
+        weight = arith.number(sympy.Rational(1 if j % 2 else -1, j))
+        for n in range(order + 1):
+            out[n] = arith.simplify(out[n] + weight * power[n])
+    return [arith.to_sympy(v) for v in out]
 
 
-def _terms(log_coeffs, per_step: bool, wanted: int = 2) -> list[Term]:
-    """The first `wanted` nonzero a_m with m >= 2, factored for reading."""
+def _terms(log_coeffs, per_step: bool, wanted: int = 2, factor: bool = True) -> list[Term]:
+    """The first `wanted` nonzero a_m with m >= 2 (factored for reading)."""
     out = []
     for m in range(2, len(log_coeffs)):
-        value = sympy.expand(log_coeffs[m])
-        if value == 0:
+        value = log_coeffs[m]
+        if value == 0 or sympy.expand(value) == 0:
             continue
         a_m = value / C if per_step else value
-        out.append(Term(m, sympy.factor(a_m) * U * DX ** (m - 1)))
+        a_m = sympy.factor(a_m) if factor else sympy.cancel(a_m)
+        out.append(Term(m, a_m * U * DX ** (m - 1)))
         if len(out) == wanted:
             break
     return out
@@ -116,18 +158,20 @@ def analyse_consistency(scheme: LinearScheme) -> Consistency:
     if not scheme.update:
         return Consistency(scheme.label, False, None, None, None, (), (), "the update is empty")
     euler = scheme.time == "euler"
-    lam = _series(scheme.semi_discrete, SERIES_ORDER)
+    lam_series, lam_arith = _series(scheme.semi_discrete, SERIES_ORDER)
+    lam = [lam_arith.to_sympy(v) for v in lam_series]
     consistent = sympy.simplify(lam[0]) == 0 and sympy.simplify(lam[1] + 1) == 0
     if not consistent:
         return Consistency(scheme.label, False, None, None, None, (), (),
                            f"the semi-discrete symbol gives a_1 = {sympy.sstr(-lam[1])}*(-u), not -u"
                            if sympy.simplify(lam[0]) == 0 else "constants are not preserved")
-    full = _log_series(_series(scheme.update, SERIES_ORDER))
+    full = _log_series(*_series(scheme.update, SERIES_ORDER))
     terms = _terms(full, per_step=True)
     overall = terms[0].derivative - 1 if terms else None
     spatial_terms = _terms(lam, per_step=False)
     if euler:
-        space, time, note = _split_orders(_terms(full, per_step=True, wanted=SERIES_ORDER))
+        space, time, note = _split_orders(_terms(full, per_step=True, wanted=SERIES_ORDER,
+                                                 factor=False))
         spatial = ()
     else:
         space = spatial_terms[0].derivative - 1 if spatial_terms else None

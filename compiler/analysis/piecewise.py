@@ -51,9 +51,14 @@ def pieces(body: sympy.Expr) -> tuple[tuple[sympy.Expr, sympy.Interval], ...] | 
 
 
 def is_rational_in_r(expr: sympy.Expr) -> bool:
-    num, den = sympy.fraction(sympy.cancel(expr))
-    return all(sympy.Poly(part, R).domain.is_QQ or sympy.Poly(part, R).domain.is_ZZ
-               for part in (num, den) if part.free_symbols <= {R}) and expr.free_symbols <= {R}
+    """A quotient of polynomials in r with rational coefficients."""
+    if not expr.free_symbols <= {R}:
+        return False
+    try:
+        return all(sympy.Poly(part, R).domain.is_QQ or sympy.Poly(part, R).domain.is_ZZ
+                   for part in sympy.fraction(sympy.cancel(expr)))
+    except sympy.PolynomialError:
+        return False
 
 
 def piece_at(body_pieces, point: sympy.Expr, side: int = 0) -> sympy.Expr | None:

@@ -23,6 +23,7 @@ from .symbol import S, LinearScheme
 
 NUMERIC_TOLERANCE = 1e-5     # Courant-number tolerance of the numeric path
 NUMERIC_C_RANGE = 8.0        # the numeric path scans 0 < c <= this
+NUMERIC_C_STEP = 0.005       # ... in steps of this
 GROWTH_SLACK = 1e-12         # |G|^2 - 1 below this counts as <= 0 (round-off)
 MAX_EXACT_DEGREE = 12        # above this degree in s the discriminant is left to numerics
 
@@ -65,44 +66,81 @@ def stable_set(scheme: LinearScheme) -> CourantSet:
     if excess == 0:
         return CourantSet((Span(sympy.Integer(0), sympy.oo, True, False),),
                           "exact: |G| = 1 for every c and theta")
-    exact = _exact_set(excess)
-    return exact if exact is not None else numeric_set(scheme)
+    try:
+        exact = _exact_set(excess)
+    except (sympy.PolynomialError, NotImplementedError, ValueError, TypeError):
+        exact = None  # sympy could not treat these coefficients exactly; scan instead
+    if exact is not None and _numeric_agrees(scheme, exact):
+        return exact
+    return numeric_set(scheme)
 
 
 def _exact_set(excess: sympy.Expr) -> CourantSet | None:
-    try:
-        poly = sympy.Poly(excess, S, C)
-    except sympy.PolynomialError:
+    numerator, denominator = sympy.fraction(sympy.together(excess))
+    if S in denominator.free_symbols:
         return None
-    if not poly.domain.is_QQ and not poly.domain.is_ZZ:
-        return None
-    q = sympy.Poly(excess, S)   # coefficients in c
-    while q.eval(0).is_zero if not hasattr(q.eval(0), "expand") else sympy.expand(q.eval(0)) == 0:
+    for part in (numerator, denominator):
+        poly = sympy.Poly(part, S, C)
+        if not (poly.domain.is_QQ or poly.domain.is_ZZ):
+            return None
+    q = sympy.Poly(sympy.expand(numerator), S)   # coefficients in c
+    while sympy.expand(q.eval(0)) == 0:
         q = sympy.Poly(sympy.cancel(q.as_expr() / S), S)
     while sympy.expand(q.eval(1)) == 0:
         q = sympy.Poly(sympy.cancel(q.as_expr() / (1 - S)), S)
     if q.degree() > MAX_EXACT_DEGREE:
         return None
     reduced = q.as_expr()
-    critical = []
-    for boundary in (reduced.subs(S, 0), reduced.subs(S, 1), q.LC()):
+    # Repeated factors keep their sign pattern but make the discriminant vanish
+    # identically; the square-free part has the same sign changes.
+    square_free = sympy.sqf_part(reduced) if reduced.free_symbols else reduced
+    sf = sympy.Poly(square_free, S)
+    critical = intervals.positive_roots(denominator, C)
+    for boundary in (square_free.subs(S, 0), square_free.subs(S, 1), sf.LC()):
         critical += intervals.positive_roots(sympy.numer(sympy.together(boundary)), C)
-    if q.degree() >= 2:
-        disc = sympy.discriminant(sympy.Poly(reduced, S))
+    if sf.degree() >= 2:
+        disc = sympy.discriminant(sf)
+        if sympy.expand(disc.as_expr()) == 0:
+            return None
         critical += intervals.positive_roots(sympy.numer(sympy.together(disc.as_expr())), C)
+    sign_of_denominator = sympy.Lambda(C, denominator)
 
     def holds(c_value) -> bool:
-        return _nonpositive_on_unit(sympy.Poly(reduced.subs(C, c_value), S))
+        sign = 1 if sign_of_denominator(c_value) > 0 else -1
+        return _nonpositive_on_unit(sympy.Poly(sign * reduced.subs(C, c_value), S))
 
     def holds_at_point(c_value) -> bool:
         if c_value.is_Rational:
-            return holds(c_value)
-        return _numeric_nonpositive(reduced, float(sympy.N(c_value, 30)))
+            return sign_of_denominator(c_value) != 0 and holds(c_value)
+        return _numeric_nonpositive(excess, float(sympy.N(c_value, 30)))
 
     return intervals.decide(critical, holds, holds_at_point,
                             method="exact (sympy: roots in c of |G|^2 - 1 at s = 0, s = 1, "
                                    "its leading coefficient and its discriminant in s, "
                                    "s = sin^2(theta/2))")
+
+
+def _numeric_agrees(scheme: LinearScheme, exact: CourantSet) -> bool:
+    """A guard on the exact path: spot-check its verdict at 48 Courant numbers.
+
+    Inside the set |G| must not exceed 1 on a theta grid; outside it (away from
+    its ends) some theta on a fine grid must show growth.
+    """
+    g_of = scheme.lambdified()
+    coarse = numpy.linspace(0.0, numpy.pi, 1025)
+    fine = numpy.linspace(0.0, numpy.pi, 16001)
+    main = exact.main
+    top = intervals.number(main.hi) if main is not None and main.hi != sympy.oo else 4.0
+    ends = [intervals.number(v) for p in exact.parts for v in (p.lo, p.hi) if v != sympy.oo]
+    for c_value in numpy.linspace(top / 64, min(2 * top, NUMERIC_C_RANGE), 48):
+        if any(abs(c_value - e) < 1e-3 for e in ends):
+            continue
+        if exact.contains(c_value):
+            if max_growth(g_of, c_value, coarse) > 1e-9:
+                return False
+        elif max_growth(g_of, c_value, fine) <= GROWTH_SLACK:
+            return False
+    return True
 
 
 def _nonpositive_on_unit(poly: sympy.Poly) -> bool:
@@ -147,8 +185,11 @@ def numeric_set(scheme: LinearScheme) -> CourantSet:
     def stable(c_value: float, grid=coarse) -> bool:
         return max_growth(g_of, c_value, grid) <= GROWTH_SLACK
 
-    cs = numpy.arange(1, int(NUMERIC_C_RANGE * 1000) + 1) / 1000.0
-    verdicts = [stable(c) for c in cs]
+    cs = numpy.arange(1, int(NUMERIC_C_RANGE / NUMERIC_C_STEP) + 1) * NUMERIC_C_STEP
+    with numpy.errstate(all="ignore"):
+        grid_c, grid_theta = numpy.meshgrid(cs, coarse, indexing="ij")
+        growth = numpy.abs(numpy.broadcast_to(g_of(grid_c, grid_theta), grid_c.shape)) ** 2 - 1
+    verdicts = numpy.max(growth, axis=1) <= GROWTH_SLACK
     parts: list[Span] = []
     start = None
     for i, (c_value, ok) in enumerate(zip(cs, verdicts)):
@@ -161,8 +202,9 @@ def numeric_set(scheme: LinearScheme) -> CourantSet:
     if start is not None:
         parts.append(Span(_rational(start), sympy.oo, True, False))
     return CourantSet(tuple(parts),
-                      f"numeric: theta grid of 2001 points on [0, pi] (8001 near each boundary), "
-                      f"c scanned in steps of 1/1000 up to {NUMERIC_C_RANGE:g}, boundaries bisected",
+                      f"numeric: theta grid of 2001 points on [0, pi] (8001 while bisecting), "
+                      f"c scanned in steps of {NUMERIC_C_STEP:g} up to {NUMERIC_C_RANGE:g} "
+                      f"(bands narrower than the step may be missed), boundaries bisected",
                       NUMERIC_TOLERANCE)
 
 
