@@ -148,3 +148,71 @@ def test_dispersion_table_at_requested_courant():
     for row in doc["rows"]:
         assert abs(row["amplitude_per_step"] - 1) < 1e-12
         assert abs(row["phase_error_per_step"]) < 1e-12
+
+
+def test_numeric_path_agrees_with_exact_path():
+    # The numeric fallback (theta grid + bisection, tolerance 1e-5 stated) against the exact
+    # sympy path on schemes where both run: the limits must agree to the stated tolerance.
+    from fluxloom.compiler.analysis.stability import NUMERIC_TOLERANCE, numeric_set, stable_set
+    from fluxloom.compiler.analysis.symbol import linearise
+
+    for stem in ("kappa_rk3", "beam_warming", "upwind_rk3"):
+        linear = linearise(load_scheme(EXAMPLES / f"{stem}.loom")).smooth[0]
+        exact, numeric = stable_set(linear), numeric_set(linear)
+        assert exact.tolerance is None and numeric.tolerance == NUMERIC_TOLERANCE
+        assert abs(float(exact.main.hi) - float(numeric.main.hi)) <= 2 * NUMERIC_TOLERANCE, stem
+
+
+ODD_SPECS = {
+    # A face nonlinear without a named limiter: linear analysis is undecided, never guessed.
+    "abs_face": ("scheme odd {\n  flux = u * (q[0] + abs(q[1] - q[0]) / 4)\n}", "undecided"),
+    # A param that is not rational: the numeric stability path, tolerance stated.
+    "irrational_param": ("scheme odd {\n  param k = sqrt(2)/4\n  time ssp_rk3\n"
+                         "  flux = u * (q[0] + k * (q[1] - q[0]))\n}", "numeric"),
+    # A limiter that is not piecewise rational: sampled, and the method says so.
+    "sqrt_limiter": ("scheme odd {\n  let r = ratio(q[0] - q[-1], q[1] - q[0])\n"
+                     "  limiter s(r) = max(0, min(sqrt(abs(r)), 2))\n"
+                     "  flux = u * (q[0] + (1 - c) / 2 * s(r) * (q[1] - q[0]))\n}", "sampled"),
+    # c in a denominator of the face.
+    "c_denominator": ("scheme odd {\n  flux = u * (q[0] + (1 - c) / (2 * (1 + c)) * (q[1] - q[0]))\n}",
+                      "exact"),
+}
+
+
+@pytest.mark.parametrize("name", sorted(ODD_SPECS))
+def test_unusual_schemes_analyse_and_say_how(name):
+    text, how = ODD_SPECS[name]
+    doc = analyse(scheme_from_text(text)).to_json()
+    json.dumps(doc)
+    if how == "undecided":
+        assert doc["stability"]["kind"] is None and doc["undecided"]
+    elif how == "numeric":
+        assert doc["stability"]["method"].startswith("numeric") and doc["stability"]["tolerance"] <= 1e-4
+    elif how == "sampled":
+        (lim,) = doc["limiters"].values()
+        assert lim["method"].startswith("sampled") and lim["sweby_tvd"] is False
+    else:
+        assert doc["stability"]["method"].startswith("exact")
+        # G = 1 - c(1 - 1/z)(1 + k(z - 1)), k = (1 - c)/(2(1 + c)), evaluated directly with
+        # numpy on a theta grid: |G| <= 1 just below c = 1 and > 1 just above.
+        import numpy
+        z = numpy.exp(1j * numpy.linspace(0, numpy.pi, 2001))
+
+        def growth(c):
+            k = (1 - c) / (2 * (1 + c))
+            return numpy.max(numpy.abs(1 - c * (1 - 1 / z) * (1 + k * (z - 1))))
+        assert growth(0.99) <= 1 + 1e-12 and growth(1.01) > 1
+        assert doc["stability"]["courant_max"] == 1.0
+
+
+def test_plots_are_written_and_foreign_files_kept(tmp_path):
+    from fluxloom.runtime.analysis_plots import write_plots
+
+    analysis = analyse(load_scheme(EXAMPLES / "lw_superbee.loom"))
+    written = write_plots(analysis, tmp_path)
+    assert len(written) == 4 and all(p.read_bytes().startswith(b"\x89PNG") for p in written)
+    assert write_plots(analysis, tmp_path)  # our own files are replaced
+    (tmp_path / "lw_superbee_amplification.png").write_bytes(b"someone else's")
+    with pytest.raises(LoomError, match="--force"):
+        write_plots(analysis, tmp_path)
+    assert write_plots(analysis, tmp_path, force=True)
