@@ -186,8 +186,7 @@ def write_verification(v: Verification, directory: Path, force: bool = False) ->
                plots.profiles_figure(v, directory / figures["final profiles"])]
     if v.stability is not None:
         written.append(plots.stability_figure(v, directory / f"{stem}-stability.png"))
-    doc = verification_json(v)
-    doc["note"] = MARKER
+    doc = {"note": MARKER, **verification_json(v)}  # the marker first: is_ours reads the head
     written.append(write_text(directory / f"{stem}-verify.json",
                               json.dumps(doc, indent=2) + "\n", force))
     written.append(write_text(directory / f"{stem}-verify.md",
