@@ -34,7 +34,27 @@ class Term:
 
     @property
     def coefficient_text(self) -> str:
-        return sympy.sstr(self.coefficient)
+        return sympy.sstr(readable(self.coefficient))
+
+
+def readable(expr: sympy.Expr) -> sympy.Expr:
+    """The same value with factors (c - a), a > 0, written as (a - c) where the signs
+    allow: u*dx*(1 - c)/2 rather than -dx*u*(c - 1)/2."""
+    coeff, factors = sympy.factor(expr).as_coeff_mul()
+    factors = list(factors)
+    flippable = [i for i, f in enumerate(factors)
+                 if isinstance(f.as_base_exp()[0], sympy.Add) and f.as_base_exp()[1].is_odd
+                 and C in f.free_symbols and f.as_base_exp()[0].as_coeff_Add()[0] < 0]
+    want_odd = coeff < 0
+    if (len(flippable) % 2 == 1) != want_odd:
+        flippable = flippable[:-1]
+    if not flippable:
+        return expr
+    for i in flippable:
+        base, power = factors[i].as_base_exp()
+        factors[i] = sympy.Pow(-base, power, evaluate=False) if power != 1 else -base
+    sign = -1 if len(flippable) % 2 else 1
+    return sympy.Mul(sign * coeff, *factors, evaluate=False)
 
 
 @dataclass(frozen=True)
