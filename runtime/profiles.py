@@ -43,7 +43,8 @@ class Profile:
         """Averages over the n cells of [0, 1) of the profile carried `shift` to the right."""
         edges = np.arange(n + 1, dtype=float) / n - shift
         values = self._periodic_antiderivative(edges)
-        return np.diff(values) * n
+        # true averages lie in [low, high]; clipping removes only round-off (1 + 1e-15)
+        return np.clip(np.diff(values) * n, self.low, self.high)
 
     def scaled(self, low: float, high: float) -> "Profile":
         """The same shape mapped affinely onto [low, high] (for schemes clamped to a range)."""
