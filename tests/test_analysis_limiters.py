@@ -145,3 +145,20 @@ def test_rk4_tvd_is_undecided():
     result = analyse(scheme_from_text(text))
     assert result.tvd.holds is None
     assert "not strong-stability preserving" in result.tvd.reason
+
+
+def test_inline_minmod_slope_matches_the_named_limiter():
+    # minmod written inline as a slope (sign/min/abs) is the same scheme as lw_minmod, so it
+    # gets the same verdicts: TVD for 0 <= c <= 1 (Sweby 1984 [mem]), second order in smooth
+    # monotone regions, stable for 0 <= c <= 1.
+    text = """scheme inline_minmod {
+  flux = u * (q[0] + (1 - c) / 2 * (sign(q[1] - q[0]) + sign(q[0] - q[-1])) / 2
+              * min(abs(q[1] - q[0]), abs(q[0] - q[-1])))
+}""".replace("\n              ", " ")
+    inline = analyse(scheme_from_text(text)).to_json()
+    named = analyse(load_scheme(EXAMPLES / "lw_minmod.loom")).to_json()
+    for key in ("courant_min", "courant_max"):
+        assert inline["tvd"][key] == named["tvd"][key]
+        assert inline["stability"][key] == named["stability"][key]
+    assert inline["order"]["overall"] == named["order"]["overall"] == 2
+    assert "random rational states" in inline["tvd"]["reason"]

@@ -21,7 +21,7 @@ from .intervals import CourantSet, Span
 from .limiters import LimiterFacts, analyse_limiter
 from .monotone import Monotone, analyse_monotone
 from .stability import Stability, analyse_stability, kind_of
-from .symbol import Linearisation, limiter_curvature, linearise
+from .symbol import Linearisation, linearise
 from .timemethods import method
 from .tvd import TVD, analyse_tvd
 
@@ -116,11 +116,8 @@ def _analyse(scheme, courant: float) -> Analysis:
     tvd = analyse_tvd(scheme, whole_step)
     dispersion = analyse_dispersion(lin.smooth[0], courant) if lin.smooth and courant > 0 else None
     cap_note = ""
-    if not lin.exact and lin.smooth:
-        for lim in scheme.limiters:
-            curvature = limiter_curvature(scheme.bound(lim.body))
-            if any(v is None or v != 0 for v in curvature):
-                cap_note = (f"the limiter {lim.name} is curved at r = 1, so the linearised "
-                            f"order is claimed up to {SMOOTH_ORDER_CAP}")
+    if not lin.exact and lin.smooth and lin.curved:
+        cap_note = (f"{', '.join(lin.curved)} is curved at r = 1, so the linearised order is "
+                    f"claimed up to {SMOOTH_ORDER_CAP}")
     return Analysis(scheme, courant, lin, consistency, stability, analyse_conservation(scheme),
                     monotone, limiters, tvd, dispersion, analyse_bounds(scheme), cap_note)

@@ -128,6 +128,7 @@ class Linearisation:
     bounding: tuple[LinearScheme, ...] # limiter frozen at 0 and at psi(1); empty when linear
     exact: bool                        # True when the scheme is itself linear
     note: str                          # how the linear schemes were obtained, or why none
+    curved: tuple[str, ...] = ()       # limiters (or phi) with nonzero curvature at r = 1
 
 
 def linearise(scheme, face: sympy.Expr | None = None) -> Linearisation:
@@ -179,11 +180,49 @@ def linearise(scheme, face: sympy.Expr | None = None) -> Linearisation:
         if coefficients is not None:
             bounding.append(LinearScheme(label, scheme.time, coefficients))
     if not calls:
-        notes.append("the face is nonlinear in q without a named limiter")
+        implicit = _linearise_upwind_form(scheme)
+        if implicit is not None:
+            return implicit
+        notes.append("the face is nonlinear in q without a named limiter, and not of the "
+                     "form q[0] + k(c) phi(r) (q[1] - q[0])")
     note = "; ".join(notes) if notes else (
         "limiters linearised at r = 1 (value and slope) for smooth monotone data; "
         "bounding schemes with each limiter frozen at 0 and at psi(1)")
-    return Linearisation(tuple(smooth), tuple(bounding), False, note)
+    curved = tuple(type(call).__name__ for call in calls
+                   if any(v is None or v != 0 for v in limiter_curvature(
+                       scheme.bound(scheme.limiter(type(call).__name__).body))))
+    return Linearisation(tuple(smooth), tuple(bounding), False, note, tuple(dict.fromkeys(curved)))
+
+
+def _linearise_upwind_form(scheme) -> Linearisation | None:
+    """Linear schemes for a face q[0] + k(c) phi(r) (q[1] - q[0]) written without a named limiter."""
+    from .upwind_form import upwind_form
+
+    form = upwind_form(scheme)
+    if form is None:
+        return None
+    value, left, right = limiter_slopes(form.phi)
+    if value is None or left is None or right is None:
+        return None
+    q0, q1, qm = (sympy.Symbol(n, real=True) for n in ("q_0", "q_1", "q_m1"))
+    jump, behind = q1 - q0, q0 - qm
+    smooth, seen = [], set()
+    for label, slope in (("right slope", right), ("left slope", left)):
+        face = q0 + form.k * (value * jump + slope * (behind - jump))
+        coefficients = linear_coefficients(sympy.expand(face))
+        if coefficients is None or coefficients in seen:
+            continue
+        seen.add(coefficients)
+        smooth.append(LinearScheme(f"linearised at r = 1 ({label})" if left != right
+                                   else "linearised at r = 1", scheme.time, coefficients))
+    bounding = [LinearScheme("phi frozen at 0", scheme.time, ((0, sympy.Integer(1)),)),
+                LinearScheme("phi frozen at phi(1)", scheme.time,
+                             linear_coefficients(sympy.expand(q0 + form.k * value * jump)))]
+    curved = ("phi",) if any(v is None or v != 0 for v in limiter_curvature(form.phi)) else ()
+    return Linearisation(tuple(smooth), tuple(bounding), False,
+                         f"nonlinear face of the form q[0] + k(c) phi(r) (q[1] - q[0]) "
+                         f"({form.how}), linearised at r = 1 (value and slope of phi); bounding "
+                         f"schemes with phi frozen at 0 and at phi(1)", curved)
 
 
 def _ratios_as_quotients(expr: sympy.Expr) -> sympy.Expr | None:

@@ -14,10 +14,11 @@ from dataclasses import dataclass
 
 import sympy
 
-from ..symbols import C, R, Ratio, limiter_calls, q
+from ..symbols import C, R, limiter_calls
 from . import intervals, piecewise
 from .intervals import CourantSet, Span
 from .timemethods import method
+from .upwind_form import upwind_form
 
 
 @dataclass(frozen=True)
@@ -32,29 +33,6 @@ class TVD:
 
 def undecided(reason: str, source: str = "scheme") -> TVD:
     return TVD(None, None, "undecided", reason, source)
-
-
-def split_upwind_biased(scheme) -> tuple[sympy.Expr, sympy.Expr] | None:
-    """(k(c), phi(r)) with g = q[0] + k(c) phi(r) (q[1] - q[0]), or None."""
-    g = scheme.bound(scheme.face)
-    if not set(scheme.offsets) <= {-1, 0, 1}:
-        return None
-    q0, d = sympy.symbols("Q_upwind D_jump", real=True)
-    subs = {q(0): q0, q(1): q0 + d, q(-1): q0 - R * d}
-    replaced = g.xreplace(subs).replace(Ratio, lambda a, b: sympy.cancel(a / b))
-    # Limiter calls now have argument r; expand them to bodies in r.
-    expanded = scheme.expand_limiters(replaced)
-    b = sympy.cancel((expanded - q0) / d)
-    if b.has(q0) or b.has(d):
-        return None
-    parts = sympy.separatevars(sympy.factor(b), [R, C], dict=True, force=True)
-    if not parts:
-        if C not in b.free_symbols:
-            return sympy.Integer(1), b
-        return None
-    k = parts["coeff"] * parts.get(C, 1)
-    phi = parts.get(R, 1)
-    return sympy.simplify(k), phi
 
 
 def _inf_sup(parts, divide_by_r: bool = False):
@@ -85,11 +63,11 @@ def analyse_tvd(scheme, monotone_whole_step: CourantSet | None) -> TVD:
         return TVD(not monotone_whole_step.empty, monotone_whole_step,
                    "linear scheme: TVD exactly where monotone (Harten 1983), "
                    "from the coefficients of the whole step", "", _source(scheme))
-    split = split_upwind_biased(scheme)
-    if split is None:
+    form = upwind_form(scheme)
+    if form is None:
         return undecided("no split g = q[0] + k(c) phi(r) (q[1] - q[0]) with "
                          "r = (q[0] - q[-1]) / (q[1] - q[0]) was found for this face")
-    k, phi = split
+    k, phi = form.k, form.phi
     parts = piecewise.pieces(phi)
     if parts is None:
         return undecided(f"phi(r) = {sympy.sstr(phi)} is not piecewise rational, "
@@ -120,7 +98,8 @@ def analyse_tvd(scheme, monotone_whole_step: CourantSet | None) -> TVD:
     incremental = f"c*(1 + ({sympy.sstr(k)})*(phi(r)/r - phi(r')))" + \
         f", phi(r) = {sympy.sstr(phi)}"
     detail = (f"Harten C = {incremental}; inf/sup of phi = {_t(phi_lo)}, {_t(phi_hi)}; "
-              f"of phi/r = {_t(ratio_lo)}, {_t(ratio_hi)} (exact, piece by piece)")
+              f"of phi/r = {_t(ratio_lo)}, {_t(ratio_hi)} (exact, piece by piece); "
+              f"form {form.how}")
     if scheme.time == "euler":
         return TVD(not fe_set.empty, fe_set, "exact: Harten's incremental form over all ratios",
                    detail, _source(scheme), incremental)
