@@ -190,6 +190,42 @@ def stage_expression(printer: KernelPrinter, update) -> tuple[str, str | None]:
     return out, acc
 
 
+def plan_uses_c(plan: KernelPlan) -> bool:
+    return plan.flux.uses_c
+
+
+def block_signature(ctype: str, plan: KernelPlan, uses_start: bool, uses_c: bool):
+    """Parameter list of the per-block function and the matching call (m as '@M')."""
+    entries = []
+    if plan.stages > 1:
+        entries.append(("int stage", "stage"))
+    entries.append(("size_t m", "@M"))
+    if uses_start:
+        entries.append((f"const {ctype} *restrict start", "q_start + halo + b"))
+    entries.append((f"const {ctype} *restrict state", "q_stage + halo + b"))
+    entries.append((f"{ctype} *restrict out", "q_out + halo + b"))
+    if plan.accumulator:
+        entries.append((f"{ctype} *restrict acc", "accumulator + b"))
+    entries.append((f"const {ctype} *restrict u", "u_face + b + 1"))
+    entries.append((f"{ctype} dt_dx", "dt_dx"))
+    entries.append((f"{ctype} *restrict flux", "flux"))
+    return [p for p, _ in entries], [a for _, a in entries]
+
+
+def wrap_list(items, first_column: int, indent: int, width: int = 96) -> str:
+    """Comma-separated items, broken onto lines indented by `indent` past `width`."""
+    lines, current, column = [], [], first_column
+    for item in items:
+        piece = item + ", "
+        if current and column + len(piece) > width:
+            lines.append(", ".join(current) + ",")
+            current, column = [], indent
+        current.append(item)
+        column += len(piece)
+    lines.append(", ".join(current))
+    return ("\n" + " " * indent).join(lines)
+
+
 @dataclass(frozen=True)
 class StageCall:
     stage: int
@@ -231,6 +267,12 @@ def c_context(scheme: Scheme, precision: str = "double", verdicts: bool = True) 
         stages.append({"index": s, "out": out, "acc": acc,
                        "clip": plan.clip is not None and s == plan.stages - 1})
     uses_start = any(u.start != 0 or u.acc_start != 0 for u in plan.stage_updates)
+    parameters, arguments = block_signature(printer.ctype, plan, uses_start, plan_uses_c(plan))
+    block_parameters = wrap_list(parameters, len(f"static inline void {plan.name}_block("), 8)
+    block_full = wrap_list([a.replace("@M", f"{plan.name}_FLUX_BLOCK") for a in arguments],
+                           12 + len(f"{plan.name}_block("), 16)
+    block_last = wrap_list([a.replace("@M", "n - b") for a in arguments],
+                           12 + len(f"{plan.name}_block("), 16)
     clip = None
     if plan.clip is not None:
         clip = tuple(real_literal(printer, v) for v in plan.clip)
@@ -256,6 +298,9 @@ def c_context(scheme: Scheme, precision: str = "double", verdicts: bool = True) 
         "fluxes": fluxes,
         "stages": stages,
         "uses_start": uses_start,
+        "block_parameters": block_parameters,
+        "block_full_block": block_full,
+        "block_last_block": block_last,
         "accumulator": plan.accumulator,
         "stage_calls": step_calls(plan),
         "stage_buffers": stage_buffers(plan),
