@@ -528,3 +528,81 @@ end program shift
     run = subprocess.run([str(tmp_path / "shift")], capture_output=True, text=True, check=True)
     # u < 0: values move one cell to the left, the first wraps round to the end.
     assert [float(v) for v in run.stdout.split()] == [0.5, 0.75, 1.0, 1.25, 1.5, 0.25]
+
+
+# ---- the printer ------------------------------------------------------------------------
+
+def printed_cases():
+    from fluxloom.compiler.symbols import R, Ratio, param_symbol, q
+
+    a, b, kappa = q(0), q(1), param_symbol("kappa")
+    return [
+        Ratio(a - b, b),
+        Ratio(a, b),
+        sympy.Max(0, sympy.Min(2 * R, 1), sympy.Min(R, 2)),
+        sympy.Min(a, b, R),
+        sympy.Abs(R) * sympy.sign(a) + sympy.sign(b),
+        (R + sympy.Abs(R)) / (1 + sympy.Abs(R)),
+        sympy.sqrt(R**2 + 1) + R**3 - R**-2 + R**5,
+        sympy.Rational(1, 3) * R - sympy.Rational(5, 7) + kappa * a,
+    ]
+
+
+POINTS = [(0.75, -1.5, 2.0), (-2.5, 0.0, 0.5), (3.0, 3.0, -0.25), (0.0, 1.0, 1.0)]
+
+
+@pytest.mark.parametrize("precision", PRECISIONS)
+def test_printed_expressions_evaluate_like_sympy(tmp_path, precision):
+    """Each printed expression, compiled by gcc with the scheme's helpers, gives the
+    value sympy computes from the definitions (ratio = a/b where b != 0, else 0)."""
+    from fluxloom.compiler.emit.c import KernelPrinter
+    from fluxloom.compiler.symbols import R, Ratio, param_symbol, q
+
+    scheme = ALL_SCHEMES["kappa_rk3"]
+    printer = KernelPrinter(plan_kernel(scheme), precision)
+    printer.helpers_used.update(("min", "max", "ratio", "sign"))
+    real = printer.ctype
+    cases = printed_cases()
+    functions = "".join(f"static {real} case{i}({real} q_0, {real} q_1, {real} r) "
+                        f"{{ (void)q_0; (void)q_1; (void)r; return {printer.doprint(e)}; }}\n"
+                        for i, e in enumerate(cases))
+    calls = "".join(f'    printf("%.17g\\n", (double)case{i}(({real}){x}, ({real}){y}, ({real}){z}));\n'
+                    for i in range(len(cases)) for x, y, z in POINTS)
+    # The kernel source supplies the helpers (min, max, ratio, sign) the printer names.
+    kernel = c_sources(scheme, precision, verdicts=False)
+    (tmp_path / "kappa_rk3.h").write_text(kernel["kappa_rk3.h"])
+    helpers = kernel["kappa_rk3.c"].split("/* The upwind-frame value")[0]
+    extra = "".join(f"static inline {real} kappa_rk3_{name}({real} a, {real} b) "
+                    f"{{ return a {op} b ? a : b; }}\n"
+                    for name, op in (("min", "<"), ("max", ">")) if f"kappa_rk3_{name}(" not in helpers)
+    extra += (f"static inline {real} kappa_rk3_ratio({real} a, {real} b) "
+              f"{{ return a / (b != 0 ? b : {'HUGE_VALF' if precision == 'float' else 'HUGE_VAL'}); }}\n"
+              if "kappa_rk3_ratio(" not in helpers else "")
+    extra += (f"static inline {real} kappa_rk3_sign({real} x) {{ return ({real})((x > 0) - (x < 0)); }}\n"
+              if "kappa_rk3_sign(" not in helpers else "")
+    (tmp_path / "cases.c").write_text(helpers + extra + "#include <stdio.h>\n" + functions
+                                       + "int main(void)\n{\n" + calls + "    return 0;\n}\n")
+    build = subprocess.run([need("gcc"), "-std=c99", "-O2", "-Wall", "-Wextra", "-Wpedantic",
+                            "-Wconversion", "-Werror", "cases.c", "-lm", "-o", "cases"],
+                           cwd=tmp_path, capture_output=True, text=True)
+    assert build.returncode == 0, build.stderr
+    got = [float(v) for v in subprocess.run([str(tmp_path / "cases")], capture_output=True,
+                                            text=True, check=True).stdout.split()]
+    ratio_rule = lambda x, y: sympy.Piecewise((x / y, sympy.Ne(y, 0)), (0, True))
+    want = []
+    for e in cases:
+        e = e.replace(Ratio, ratio_rule).subs(param_symbol("kappa"), sympy.Rational(1, 3))
+        for x, y, z in POINTS:
+            want.append(float(e.subs({q(0): sympy.nsimplify(x), q(1): sympy.nsimplify(y),
+                                      R: sympy.nsimplify(z)}).evalf(30)))
+    tolerance = 1e-6 if precision == "float" else 1e-15
+    assert np.allclose(got, want, rtol=tolerance, atol=tolerance)
+
+
+def test_the_printer_is_strict():
+    from fluxloom.compiler.emit.c import KernelPrinter
+    from sympy.printing.codeprinter import PrintMethodNotImplementedError
+
+    printer = KernelPrinter(plan_kernel(ALL_SCHEMES["upwind"]))
+    with pytest.raises(PrintMethodNotImplementedError):
+        printer.doprint(sympy.Function("unknown_function")(sympy.Symbol("x")))

@@ -12,11 +12,11 @@ from dataclasses import dataclass
 import sympy
 from sympy.codegen.ast import float32, float64, real
 from sympy.printing.c import C99CodePrinter
-from sympy.printing.precedence import PRECEDENCE, precedence
+from sympy.printing.precedence import PRECEDENCE
 
 from ..diagnostics import LoomError
 from ..ir import Scheme
-from ..symbols import C, R, offset_of
+from ..symbols import C, R, offset_of, q
 from .environment import render
 from .plan import FaceProgram, KernelPlan, banner_lines, plan_kernel
 
@@ -105,15 +105,6 @@ class KernelPrinter(C99CodePrinter):
 
 # ---- source assembly -------------------------------------------------------
 
-@dataclass(frozen=True)
-class CFunctionBody:
-    """A face or limiter program printed as C statements."""
-
-    arguments: tuple[str, ...]
-    statements: tuple[str, ...]
-    result: str
-
-
 def print_program(printer: KernelPrinter, program: FaceProgram) -> tuple[tuple[str, ...], str]:
     lines = tuple(f"const {printer.ctype} {printer._print(sym)} = {printer._print(value)};"
                   for sym, value in program.temporaries)
@@ -135,18 +126,13 @@ class FluxFunction:
 
 def flux_function(printer: KernelPrinter, program: FaceProgram, suffix: str) -> FluxFunction:
     statements, result = print_program(printer, program)
-    names = [printer._print(sympy_q) for sympy_q in _q_symbols(program.offsets)]
+    names = [printer._print(q(k)) for k in program.offsets]
     params = [f"{printer.ctype} {n}" for n in names]
     if program.uses_c:
         params.append(f"{printer.ctype} c")
     loads = tuple((n, k, 1 - k) for n, k in zip(names, program.offsets))
     return FluxFunction(suffix, ", ".join(params) or "void", statements, result,
                         program.guard_c, program.uses_c, loads)
-
-
-def _q_symbols(offsets):
-    from ..symbols import q
-    return [q(k) for k in offsets]
 
 
 def real_literal(printer: KernelPrinter, value: sympy.Expr) -> str:
@@ -190,11 +176,7 @@ def stage_expression(printer: KernelPrinter, update) -> tuple[str, str | None]:
     return out, acc
 
 
-def plan_uses_c(plan: KernelPlan) -> bool:
-    return plan.flux.uses_c
-
-
-def block_signature(ctype: str, plan: KernelPlan, uses_start: bool, uses_c: bool):
+def block_signature(ctype: str, plan: KernelPlan, uses_start: bool):
     """Parameter list of the per-block function and the matching call (m as '@M')."""
     entries = []
     if plan.stages > 1:
@@ -267,7 +249,7 @@ def c_context(scheme: Scheme, precision: str = "double", verdicts: bool = True) 
         stages.append({"index": s, "out": out, "acc": acc,
                        "clip": plan.clip is not None and s == plan.stages - 1})
     uses_start = any(u.start != 0 or u.acc_start != 0 for u in plan.stage_updates)
-    parameters, arguments = block_signature(printer.ctype, plan, uses_start, plan_uses_c(plan))
+    parameters, arguments = block_signature(printer.ctype, plan, uses_start)
     block_parameters = wrap_list(parameters, len(f"static inline void {plan.name}_block("), 8)
     block_full = wrap_list([a.replace("@M", f"{plan.name}_FLUX_BLOCK") for a in arguments],
                            12 + len(f"{plan.name}_block("), 16)
