@@ -114,9 +114,9 @@ SORT_KEYS = {"name": ("label", False), "order": ("order", True),
              "speed": ("speed", True)}
 
 
-def _interval_text(tvd) -> str:
+def _interval_text(tvd, undecided: bool = False) -> str:
     if tvd is None:
-        return "no"
+        return "undecided" if undecided else "no"
     low, high = tvd
     return f"[{low or 0:g}, {high:g}]" if high is not None else f"[{low or 0:g}, inf)"
 
@@ -163,7 +163,7 @@ def measure_variant(variant: Variant, backend: str, precision: str, courant: flo
     return Row(
         label=variant.label, order=pred.order, stable_max=pred.stable_max,
         stability_kind=pred.stability_kind,
-        tvd="yes" if pred.monotone_at(courant) and pred.tvd is None else _interval_text(pred.tvd),
+        tvd=_interval_text(pred.tvd, (pred.source.get("tvd") or {}).get("holds") is None),
         l1=e.l1 if e else None, l2=e.l2 if e else None, linf=e.linf if e else None,
         square_l1=square.errors.l1 if square.errors else None,
         new_extrema=max(s.new_extrema for s in shapes),
@@ -230,8 +230,8 @@ def run(args) -> int:
                           "rows": [r.to_json() for r in rows]}, indent=2))
     else:
         print(f"compare at c = {args.courant:g}, N = {args.cells} (errors after one revolution: "
-              f"l1/l2/linf on the smooth bell, l1 on the square wave; speed on "
-              f"{args.backend} {args.precision})")
+              f"l1/l2/linf on the smooth bell, l1 on the square wave; mass drift: the larger of "
+              f"a steady and a sign-changing flow; speed on {args.backend} {args.precision})")
         print(compare_table(rows))
     if args.plot:
         overlay(rows, Path(args.plot), args.courant, args.cells)
