@@ -61,7 +61,11 @@ def numpy_module(scheme: Scheme, precision: str = "double") -> types.ModuleType:
 # ---- the kernel object ----------------------------------------------------------
 
 class Kernel:
-    """A loaded kernel: `step` advances one whole step of one scheme."""
+    """A loaded kernel: `step` advances one whole step of one scheme.
+
+    The object keeps one workspace per domain size for its steps, so one Kernel
+    should not step from several threads at once (load one per thread).
+    """
 
     def __init__(self, name, backend, precision, halo, face_halo, stages, workspace_size,
                  run_step):

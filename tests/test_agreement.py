@@ -140,3 +140,17 @@ def test_periodic_step_uses_the_halos_it_is_given(precision):
         filled = fill_periodic(np.concatenate([np.zeros(h), interior, np.zeros(h)]).astype(kernel.dtype), h)
         u = np.full(n + 1, 0.5, kernel.dtype)
         np.testing.assert_array_equal(kernel.step(by_hand, u, 0.4), kernel.step(filled, u, 0.4))
+
+
+@pytest.mark.parametrize("backend", ["numpy", "c"])
+def test_tiny_periodic_domains(example_path, backend):
+    """Fewer cells than ghost cells: the periodic halo wraps around more than once."""
+    scheme = load_scheme(example_path)
+    kernel = load_kernel(scheme, backend, "double")
+    rng = np.random.default_rng(37)
+    for n in (1, 2, 3):
+        q0 = rng.random(n)
+        u = random_velocities(rng, n + 1, np.float64)
+        u[-1] = u[0]
+        expected = reference_run(scheme, q0, u, DT_DX, 2)
+        assert relative(run_periodic(kernel, q0, u, DT_DX, 2), expected) <= 1e-12, n

@@ -207,6 +207,8 @@ def test_stage_by_stage_equals_the_whole_step():
             fill_periodic(target, h)
             current = target
         np.testing.assert_array_equal(current[h:-h], whole[h:-h])
+        with pytest.raises(ValueError, match="stage must be"):
+            module.stage(module.STAGES, n, q_in, q_in, target, u, 0.3, work)
 
 
 def circulant_operator(scheme, n):
