@@ -344,3 +344,26 @@ def test_module_is_generated_once_per_fingerprint():
     other = load_scheme(EXAMPLES / "kappa_rk3.loom", {"kappa": sympy.Rational(0)})
     assert numpy_module(other) is not numpy_module(load_scheme(EXAMPLES / "kappa_rk3.loom"))
     assert numpy_module(other).PARAMS == {"kappa": 0}
+
+
+def test_generated_text_does_not_depend_on_the_hash_seed():
+    """Same spec, same bytes, also across processes with different string hashing."""
+    import os
+    import subprocess
+    import sys
+
+    script = ("import hashlib, sys\n"
+              "from fluxloom.compiler import load_scheme\n"
+              "from fluxloom.compiler.emit.numpy_ import numpy_source\n"
+              "h = hashlib.sha256()\n"
+              "for path in sys.argv[1:]:\n"
+              "    h.update(numpy_source(load_scheme(path), 'double', ('x',)).encode())\n"
+              "print(h.hexdigest())\n")
+    specs = [str(EXAMPLES / f"{name}.loom") for name in ("lw_koren", "kappa_rk3", "lw_fct")]
+    digests = set()
+    for seed in ("1", "2"):
+        env = dict(os.environ, PYTHONHASHSEED=seed)
+        done = subprocess.run([sys.executable, "-c", script, *specs], env=env,
+                              capture_output=True, text=True, check=True)
+        digests.add(done.stdout.strip())
+    assert len(digests) == 1
