@@ -9,6 +9,8 @@ Nothing here calls the analysis' own symbol code.
 """
 from __future__ import annotations
 
+import os
+
 import numpy
 import pytest
 import sympy
@@ -109,3 +111,44 @@ def test_stability_limit_from_eigenvalues(path):
         lo, hi = (mid, hi) if stable(mid) else (lo, mid)
     assert doc["courant_min"] == 0
     assert abs(lo - doc["courant_max"]) < 1e-3
+
+
+# ---- random linear schemes: the exact stability set against eigenvalues -----------------
+
+from hypothesis import HealthCheck, given, settings, strategies as st  # noqa: E402
+
+from fluxloom.compiler import scheme_from_text  # noqa: E402
+from fluxloom.compiler.analysis.stability import stable_set  # noqa: E402
+from fluxloom.compiler.analysis.symbol import linearise  # noqa: E402
+
+small = st.fractions(min_value=-1, max_value=1, max_denominator=6)
+
+
+@st.composite
+def linear_specs(draw):
+    """A consistent linear face on offsets -1, 0, 1 (weights sum to 1), maybe c-dependent."""
+    method = draw(st.sampled_from(["euler", "ssp_rk2", "ssp_rk3", "rk4"]))
+    a_m1, a_1 = draw(small), draw(small)
+    b_m1, b_1 = (draw(small), draw(small)) if method == "euler" else (0, 0)
+    face = (f"({a_m1} + ({b_m1}) * c) * q[-1] + (1 - ({a_m1}) - ({a_1}) - ({b_m1}) * c - ({b_1}) * c) * q[0]"
+            f" + ({a_1} + ({b_1}) * c) * q[1]")
+    if method != "euler":
+        face = face.replace(" * c", " * 0")
+    return f"scheme random_linear {{\n  time {method}\n  flux = u * ({face})\n}}"
+
+
+@pytest.mark.slow
+@settings(max_examples=int(os.environ.get("FLUXLOOM_HYPOTHESIS_EXAMPLES", "30")), deadline=None,
+          suppress_health_check=[HealthCheck.too_slow])
+@given(linear_specs())
+def test_exact_stability_set_matches_eigenvalues(text):
+    scheme = scheme_from_text(text)
+    exact = stable_set(linearise(scheme).smooth[0])
+    ends = [float(v) for p in exact.parts for v in (p.lo, p.hi) if v.is_finite]
+    for c in numpy.arange(0.01, 3.0, 0.01):
+        if any(abs(c - e) < 2e-3 for e in ends):
+            continue
+        eig_stable = eigen_growth(scheme, c, 256) <= 1 + 1e-12
+        if eig_stable and not exact.contains(c):
+            eig_stable = eigen_growth(scheme, c, 8192) <= 1 + 1e-12  # a narrow band of growth
+        assert eig_stable == exact.contains(c), (text, c)
