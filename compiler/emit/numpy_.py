@@ -24,9 +24,10 @@ from .plan import FaceProgram, banner_lines, plan_kernel
 
 PRECISIONS = {"double": "np.float64", "float": "np.float32"}
 
-BLOCK_CELLS = 1 << 15
-"""Cells per block: 256 KiB of doubles, so temporaries stay in L2 cache while
-numpy can still reuse them in place (it only does so above 256 KiB)."""
+BLOCK_BYTES = 256 * 1024
+"""Bytes of one block-sized temporary: small enough to stay in L2 cache, large
+enough for numpy to reuse temporaries in place (it does so from 256 KiB)."""
+ITEM_BYTES = {"double": 8, "float": 4}
 
 
 class NumpyKernelPrinter(NumPyPrinter):
@@ -245,7 +246,7 @@ def numpy_module(scheme: Scheme, precision: str = "double", banner=None) -> Nump
         face_halo=plan.face_halo,
         stages=tuple(stage_expression(printer, u) for u in plan.stage_updates),
         accumulator=plan.accumulator,
-        block_cells=BLOCK_CELLS,
+        block_cells=BLOCK_BYTES // ITEM_BYTES[precision],
         params=tuple((param_name(name), name, printer.doprint(value))
                      for name, value in plan.params),
         limiters=limiters,
