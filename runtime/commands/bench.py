@@ -38,9 +38,9 @@ def _mega(value) -> str:
     return "-" if value is None else f"{value / 1e6:9.1f}"
 
 
-def render(result, found) -> str:
+def render(result, found, params=()) -> str:
     lines = [f"{result.scheme}: {result.cells} cells, best of 5 runs of {result.steps} steps, "
-             "double precision",
+             "double precision" + "".join(f", {p.name} = {p.value}" for p in params),
              f"hand-written counterpart: {result.counterpart or 'none (generated kernels only)'}",
              "speed in million cell-updates per second"]
     label_width = 44
@@ -68,12 +68,13 @@ def render(result, found) -> str:
     return "\n".join(lines)
 
 
-def as_json(result, found) -> dict:
+def as_json(result, found, params=()) -> dict:
     return {
         "scheme": result.scheme,
         "cells": result.cells,
         "steps": result.steps,
         "precision": "double",
+        "params": {p.name: str(p.value) for p in params},
         "unit": "cell-updates per second",
         "counterpart": result.counterpart,
         "fields": [{
@@ -104,7 +105,7 @@ def run(args) -> int:
     limited_single_step = scheme.limited and scheme.time == "euler"
     found = targets(result, limited_single_step)
     if args.json:
-        print(json.dumps(as_json(result, found), indent=2))
+        print(json.dumps(as_json(result, found, scheme.params), indent=2))
     else:
-        print(render(result, found))
+        print(render(result, found, scheme.params))
     return 0
