@@ -24,8 +24,17 @@ from conftest import EXAMPLE_FILES
 LINEAR = [p for p in EXAMPLE_FILES if not load_scheme(p).limited]
 
 
+_FACES = {}
+
+
 def face_values(scheme):
     """A numpy function: (q, c) -> face values g_{j+1/2} for u > 0 on a periodic grid."""
+    if scheme.fingerprint not in _FACES:
+        _FACES[scheme.fingerprint] = _face_values(scheme)
+    return _FACES[scheme.fingerprint]
+
+
+def _face_values(scheme):
     g = scheme.bound_face
     symbols = sorted((s for s in g.free_symbols if offset_of(s) is not None), key=offset_of)
     f = sympy.lambdify([C, *symbols], g, modules="numpy")
@@ -138,7 +147,7 @@ def linear_specs(draw):
 
 
 @pytest.mark.slow
-@settings(max_examples=int(os.environ.get("FLUXLOOM_HYPOTHESIS_EXAMPLES", "30")), deadline=None,
+@settings(max_examples=int(os.environ.get("FLUXLOOM_HYPOTHESIS_EXAMPLES", "20")), deadline=None,
           suppress_health_check=[HealthCheck.too_slow])
 @given(linear_specs())
 def test_exact_stability_set_matches_eigenvalues(text):
