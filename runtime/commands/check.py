@@ -129,9 +129,13 @@ def render(doc: dict) -> str:
         if len(st["schemes"]) > 1 or sch.get("islands"):
             out.append(f"  {sch['label']}: {sch['kind']}, stable for {sch['set']}")
     if len(st["schemes"]) == 1:
-        out.append(f"  G(z) = {st['schemes'][0]['amplification_z']}")
-        if st["schemes"][0].get("semi_discrete_z"):
-            out.append(f"  lambda(z) = {st['schemes'][0]['semi_discrete_z']}")
+        only = st["schemes"][0]
+        if only.get("semi_discrete_z"):
+            out.append(f"  G = R(c lambda(z)), lambda(z) = {only['semi_discrete_z']}, z = exp(i theta)")
+        else:
+            out.append(f"  G(z) = {only['amplification_z']}, z = exp(i theta)")
+        if len(only["abs_squared_s"]) <= 160:
+            out.append(f"  |G|^2 = {only['abs_squared_s']}, s = sin^2(theta/2)")
     if "time_method" in st:
         tm = st["time_method"]
         out.append(f"  R(z) = {tm['stability_polynomial']}; imaginary-axis limit "
