@@ -15,16 +15,22 @@ import matplotlib.ticker  # noqa: E402
 import matplotlib.pyplot as plt  # noqa: E402  (after choosing the back end)
 import numpy as np  # noqa: E402
 
+from fluxloom.compiler import LoomError  # noqa: E402
+
 from .profiles import cell_centres  # noqa: E402
 
 PNG_TAG = "fluxloom"
 _METADATA = {"Software": PNG_TAG}
 
 
-def _save(fig, path: Path) -> Path:
-    fig.tight_layout()
-    fig.savefig(path, dpi=110, metadata=_METADATA)
-    plt.close(fig)
+def _save(fig, path: Path, **layout) -> Path:
+    fig.tight_layout(**layout)
+    try:
+        fig.savefig(path, dpi=110, metadata=_METADATA)
+    except OSError as err:
+        raise LoomError(f"cannot write {path}: {err.strerror or err}", file=str(path)) from None
+    finally:
+        plt.close(fig)
     return path
 
 
@@ -125,7 +131,7 @@ def overlay_figure(entries, path: Path, title: str = "final profiles") -> Path:
     names = []
     for _, finals in entries:
         names += [p for p in finals if p not in names]
-    fig, axes = plt.subplots(1, len(names), figsize=(4.6 * len(names), 3.6), squeeze=False)
+    fig, axes = plt.subplots(1, len(names), figsize=(4.6 * len(names), 3.9), squeeze=False)
     for ax, name in zip(axes[0], names):
         exact_drawn = False
         for label, finals in entries:
@@ -139,9 +145,11 @@ def overlay_figure(entries, path: Path, title: str = "final profiles") -> Path:
             ax.plot(x, final, linewidth=0.9, label=label)
         ax.set_title(name, fontsize=9)
         ax.set_xlabel("x")
-        ax.legend(fontsize=6)
+    handles, labels = axes[0][0].get_legend_handles_labels()
+    fig.legend(handles, labels, loc="lower center", ncol=min(len(labels), 6), fontsize=7,
+               frameon=False)
     fig.suptitle(title, fontsize=10)
-    return _save(fig, path)
+    return _save(fig, path, rect=(0, 0.08 + 0.04 * (len(labels) > 6), 1, 1))
 
 
 def is_ours(path: Path) -> bool:

@@ -40,7 +40,10 @@ def check_writable(path: Path, force: bool) -> None:
 
 def write_text(path: Path, text: str, force: bool = False) -> Path:
     check_writable(path, force)
-    path.write_text(text)
+    try:
+        path.write_text(text)
+    except OSError as err:
+        raise LoomError(f"cannot write {path}: {err.strerror or err}", file=str(path)) from None
     return path
 
 
