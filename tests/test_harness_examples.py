@@ -6,6 +6,7 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+import sympy
 
 from fluxloom.compiler import load_scheme, scheme_from_text
 from fluxloom.runtime import harness, profiles
@@ -163,3 +164,18 @@ def test_low_order_flux_alone_is_monotone_by_its_coefficients(courant):
     update = np.array(columns).T
     assert update.min() >= -1e-15
     assert np.allclose(update.sum(axis=0), 1.0)
+
+
+@pytest.mark.parametrize("stem, kappa, limit", [
+    # ../shared/REFERENCE.md, "Largest stable Courant number, method of lines" [derived]
+    # (tables of such limits: Baldauf 2008, J. Comput. Phys. 227:6638, from memory).
+    ("upwind_rk3", None, 1.2564), ("centred_rk4", None, 2 * 2 ** 0.5),
+    ("kappa_rk2", None, 0.8736), ("kappa_rk3", None, 1.6259),
+    ("kappa_rk3", 0, 1.1758), ("kappa_rk3", -1, 0.6281), ("kappa_rk2", -1, 0.5),
+])
+def test_method_of_lines_limits_measured_on_the_kernels(stem, kappa, limit):
+    overrides = {} if kappa is None else {"kappa": sympy.Integer(kappa)}
+    k = load_kernel(load_scheme(EXAMPLES / f"{stem}.loom", overrides), "numpy")
+    result = harness.stability_sweep(k, 1.0, limit, linear=True)
+    assert result.method == "spectral"
+    assert result.measured_max == pytest.approx(limit, abs=0.005)
