@@ -107,7 +107,8 @@ class Domain:
         return self.arrays[self.turn], self.arrays[self.turn ^ 1]
 
 
-def _c_caller(ffi, function, domain: Domain, with_work: bool):
+def _c_caller(ffi, function, domain: Domain):
+    """One step of a C kernel with the (n, q_in, q_out, u_face, dt_dx, work) signature."""
     pointers = [ffi.from_buffer("double[]", a) for a in domain.arrays]
     u = ffi.from_buffer("double[]", domain.u_face)
     work = ffi.from_buffer("double[]", domain.work)
@@ -117,10 +118,7 @@ def _c_caller(ffi, function, domain: Domain, with_work: bool):
     def step():
         turn[0] ^= 1
         source, target = pointers[turn[0]], pointers[turn[0] ^ 1]
-        if with_work:
-            function(n, source, target, u, dt_dx, work)
-        else:
-            function(n, source, target, u, dt_dx)
+        function(n, source, target, u, dt_dx, work)
     return step
 
 
@@ -193,12 +191,12 @@ def measure(scheme: Scheme, cells: int, steps: int, repeats: int = 5,
         runners = {}
         for opt, (ffi, lib) in libraries.items():
             d = domain(module.HALO, module.FACE_HALO, lib_workspace(lib, scheme.name, cells))
-            runners["generated C", opt] = _c_caller(ffi, getattr(lib, f"{scheme.name}_step"), d, True)
+            runners["generated C", opt] = _c_caller(ffi, getattr(lib, f"{scheme.name}_step"), d)
             hand_ffi, hand_lib = handwritten_c(opt)
             if hand is not None:
                 d = domain(hand.halo, 0, cells + 1)
                 runners["hand-written C", opt] = _c_caller(
-                    hand_ffi, getattr(hand_lib, hand.c_function), d, True)
+                    hand_ffi, getattr(hand_lib, hand.c_function), d)
             runners["stream", opt] = _stream_caller(hand_ffi, hand_lib, domain(0))
         runners["generated numpy", None] = _numpy_caller(
             module.step, domain(module.HALO, module.FACE_HALO, module.workspace_size(cells)),
