@@ -367,3 +367,26 @@ def test_generated_text_does_not_depend_on_the_hash_seed():
                               capture_output=True, text=True, check=True)
         digests.add(done.stdout.strip())
     assert len(digests) == 1
+
+
+@pytest.mark.parametrize("name", ["lw_vanleer", "lw_fct", "kappa_rk3", "centred_rk4", "vanleer_clip"])
+def test_peak_extra_memory_stays_below_eight_domain_arrays(name):
+    """Issue 4's memory target, measured with tracemalloc (memory, not time); the
+    temporaries are block-sized, so the peak does not grow with the domain."""
+    from fluxloom.runtime.kernel import periodic_faces
+    from fluxloom.runtime.speed import peak_extra_arrays, profile, velocity_field
+
+    module = numpy_module(load_scheme(EXAMPLES / f"{name}.loom"), "double")
+    peaks = {}
+    for n in (100_000, 400_000):
+        q_in = fill_periodic(np.concatenate([np.zeros(module.HALO), profile(n),
+                                             np.zeros(module.HALO)]), module.HALO)
+        q_out = q_in.copy()
+        work = np.zeros(module.workspace_size(n))
+        for kind in ("smooth", "random"):
+            u = periodic_faces(velocity_field(kind, n), module.FACE_HALO)
+            arrays = peak_extra_arrays(lambda: module.step(n, q_in, q_out, u, 0.8, work), n, 8)
+            assert arrays <= 8
+            peaks[n, kind] = arrays * n * 8
+    for kind in ("smooth", "random"):
+        assert peaks[400_000, kind] < 1.5 * peaks[100_000, kind]
