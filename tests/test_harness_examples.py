@@ -179,3 +179,17 @@ def test_method_of_lines_limits_measured_on_the_kernels(stem, kappa, limit):
     result = harness.stability_sweep(k, 1.0, limit, linear=True)
     assert result.method == "spectral"
     assert result.measured_max == pytest.approx(limit, abs=0.005)
+
+
+def test_a_wide_clamp_is_judged_by_its_own_range():
+    # Data in [0, 1] under a clamp to [-1, 2]: Lax-Wendroff's wiggles leave the data's
+    # range but not the clamp's, which is all the clamp promises.
+    text = ("scheme lw_wide_clip {\n  time euler\n"
+            "  flux = u * (q[0] + (1 - c) / 2 * (q[1] - q[0]))\n  clip -1, 2\n}\n")
+    scheme = scheme_from_text(text)
+    prediction = Prediction.from_analysis(analysis_document(scheme, 0.5), scheme)
+    result = verify_kernel(load_kernel(scheme, "numpy"), prediction,
+                           Options(cells=(25, 50, 100), stability=False))
+    bounds = [f for f in result.findings if f.check == "bounds"]
+    assert bounds and all(f.verdict == "agree" and "[-1, 2]" in f.predicted for f in bounds)
+    assert any(not sh.bounded for sh in result.shapes)  # left the data's own range

@@ -17,7 +17,7 @@ from fluxloom.compiler import LoomError, load_scheme
 from fluxloom.compiler.ir import parse_override
 
 from .. import harness, plots
-from ..findings import Prediction, json_safe
+from ..findings import Prediction, in_clip_range, json_safe
 from ..profiles import BELL, MIXED, SQUARE
 from ..report import check_writable, table
 from .verify import add_kernel_options, analysis_document, load_for_measuring, progress_printer
@@ -149,11 +149,9 @@ def measure_variant(variant: Variant, backend: str, precision: str, courant: flo
     kernel = load_for_measuring(scheme, backend, precision)
     clip = pred.clip
 
+
     def in_range(profile):
-        # the clamp must not judge the scheme's own errors: profiles lie inside its range
-        if clip and (profile.low < clip[0] or profile.high > clip[1]):
-            return profile.scaled(*clip)
-        return profile
+        return in_clip_range(profile, clip)
     smooth = harness.convergence(kernel, in_range(BELL), courant, 1.0, (cells,)).rows[0]
     square = harness.convergence(kernel, in_range(SQUARE), courant, 1.0, (cells,)).rows[0]
     shapes = [harness.shape(kernel, in_range(p), courant, 1.0, cells) for p in (SQUARE, MIXED)]
