@@ -44,7 +44,7 @@ def monotone_set(coefficients) -> CourantSet:
         critical += intervals.positive_roots(sympy.denom(v), C)
 
     def holds(c_value) -> bool:
-        return all(sympy.simplify(v.subs(C, c_value)) >= 0 for v in values)
+        return all(bool(v.subs(C, c_value) >= 0) for v in values)
 
     return intervals.decide(critical, holds, method="exact (roots in c of every update coefficient)")
 

@@ -12,7 +12,7 @@ from functools import lru_cache
 import numpy
 import sympy
 
-from ..symbols import R
+from ..symbols import R, Ratio
 
 SAMPLE_GRID = "r in [-4, 0] step 1/200, (0, 20] step 1/2000, and 10^k for k up to 6"
 
@@ -27,6 +27,100 @@ def sample_points() -> numpy.ndarray:
 @lru_cache(maxsize=256)
 def pieces(body: sympy.Expr) -> tuple[tuple[sympy.Expr, sympy.Interval], ...] | None:
     """The body as (rational expression, interval) pairs covering the reals, or None."""
+    found = _pieces_by_breakpoints(body)
+    if found is not None:
+        return found
+    return _pieces_by_sympy(body)
+
+
+class _NotRational(Exception):
+    pass
+
+
+def _resolve(expr: sympy.Expr, at: sympy.Rational, switches: set) -> sympy.Expr:
+    """The rational expression that equals expr near r = at, choosing every max/min/abs
+    branch by its exact value there; the polynomials whose roots may switch a branch
+    are collected in switches."""
+    if expr == R or expr.is_Number:
+        return expr
+    if isinstance(expr, (sympy.Min, sympy.Max)):
+        args = [_resolve(a, at, switches) for a in expr.args]
+        for i, a in enumerate(args):
+            for b in args[i + 1:]:
+                switches.add(sympy.numer(sympy.together(a - b)))
+        values = [a.subs(R, at) for a in args]
+        pick = max if isinstance(expr, sympy.Max) else min
+        return args[values.index(pick(values))]
+    if isinstance(expr, (sympy.Abs, sympy.sign)):
+        inner = _resolve(expr.args[0], at, switches)
+        switches.update(sympy.fraction(sympy.together(inner)))
+        value = inner.subs(R, at)
+        if isinstance(expr, sympy.Abs):
+            return inner if value >= 0 else -inner
+        return sympy.sign(value)
+    if isinstance(expr, Ratio):
+        top, bottom = (_resolve(a, at, switches) for a in expr.args)
+        switches.add(sympy.numer(sympy.together(bottom)))
+        return sympy.Integer(0) if bottom.subs(R, at) == 0 else top / bottom
+    if isinstance(expr, sympy.Pow):
+        if not expr.exp.is_Integer:
+            raise _NotRational
+        return _resolve(expr.base, at, switches) ** expr.exp
+    if isinstance(expr, (sympy.Add, sympy.Mul)):
+        return expr.func(*[_resolve(a, at, switches) for a in expr.args])
+    raise _NotRational
+
+
+def _pieces_by_breakpoints(body: sympy.Expr):
+    """Refine a partition of the reals until every part has one active branch."""
+    if body.free_symbols - {R}:
+        return None
+    cuts: list = []
+    try:
+        for _ in range(20):  # each round adds the switches seen; a handful suffice
+            points = [-sympy.oo] + cuts + [sympy.oo]
+            switches: set = set()
+            parts = []
+            for a, b in zip(points, points[1:]):
+                here = rational_between(a, b)
+                parts.append((sympy.cancel(_resolve(body, here, switches)), a, b))
+            new = set(cuts)
+            for poly in switches:
+                if poly.free_symbols:
+                    new.update(_real_roots(poly))
+            if len(new) == len(cuts):
+                return _as_intervals(parts)
+            cuts = sorted(new, key=lambda v: float(v))
+    except (_NotRational, sympy.PolynomialError, TypeError):
+        return None
+    return None
+
+
+def _real_roots(poly: sympy.Expr) -> list:
+    p = sympy.Poly(poly, R)
+    if not (p.domain.is_QQ or p.domain.is_ZZ):
+        raise _NotRational
+    return [root for root in sympy.real_roots(p)]
+
+
+def _as_intervals(parts):
+    """Merge neighbours with the same expression; intervals closed on the left."""
+    merged = []
+    for expr, a, b in parts:
+        if merged and merged[-1][0] == expr:
+            merged[-1] = (expr, merged[-1][1], b)
+        else:
+            merged.append((expr, a, b))
+    out = []
+    for expr, a, b in merged:
+        if not is_rational_in_r(expr):
+            return None
+        interval = sympy.Interval(a, b, left_open=(a == -sympy.oo), right_open=True)
+        out.append((expr, interval))
+    return tuple(out)
+
+
+def _pieces_by_sympy(body: sympy.Expr):
     try:
         folded = sympy.piecewise_fold(body.rewrite(sympy.Piecewise))
         if isinstance(folded, sympy.Piecewise):

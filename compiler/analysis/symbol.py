@@ -13,6 +13,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 from functools import cached_property
 
+import numpy
 import sympy
 
 from ..symbols import C, R, Ratio, limiter_calls, offset_of
@@ -71,6 +72,10 @@ class LinearScheme:
         for m, v in b.items():
             for n, w in b.items():
                 h[m - n] = h.get(m - n, 0) + v * w
+        try:
+            return _chebyshev_sum_fast(h)
+        except (sympy.PolynomialError, sympy.CoercionFailed):
+            pass  # coefficients not polynomial in c over QQ: the general sympy path
         cos_theta = 1 - 2 * S
         total = h.get(0, 0)
         for k, v in h.items():
@@ -78,12 +83,40 @@ class LinearScheme:
                 total += 2 * v * sympy.chebyshevt(k, cos_theta)
         return sympy.expand(total)
 
+    def numeric(self):
+        """A fast numpy G: (cs, thetas) -> array of shape (len(cs), len(thetas)).
+
+        Evaluates each coefficient b_m(c) once per c and sums b_m(c) exp(i m theta)
+        as a matrix product.
+        """
+        offsets = sorted(self.update)
+        coefficient = [sympy.lambdify(C, self.update[m], modules="numpy") for m in offsets]
+        exponents = numpy.array(offsets, dtype=float)
+
+        def g(cs, thetas):
+            cs = numpy.atleast_1d(numpy.asarray(cs, dtype=float))
+            thetas = numpy.atleast_1d(numpy.asarray(thetas, dtype=float))
+            values = numpy.array([numpy.broadcast_to(f(cs), cs.shape) for f in coefficient]).T
+            waves = numpy.exp(1j * numpy.outer(exponents, thetas))
+            return values @ waves
+        return g
+
     def lambdified(self):
         """A numpy function G(c, theta) for plots and numeric scans."""
         theta = sympy.Symbol("theta", real=True)
         expr = sum((v * sympy.exp(sympy.I * m * theta) for m, v in self.update.items()),
                    sympy.Integer(0))
         return sympy.lambdify((C, theta), expr, modules="numpy")
+
+
+def _chebyshev_sum_fast(h: Laurent) -> sympy.Expr:
+    """h_0 + sum_k 2 h_k T_k(1 - 2s) with polynomial arithmetic over QQ[s, c]."""
+    total = sympy.Poly(h.get(0, 0), S, C, domain="QQ")
+    for k, v in h.items():
+        if k > 0:
+            t_k = sympy.Poly(sympy.chebyshevt(k, 1 - 2 * S), S, C, domain="QQ")
+            total += 2 * sympy.Poly(sympy.expand(v), S, C, domain="QQ") * t_k
+    return total.as_expr()
 
 
 def _trim(poly: Laurent) -> Laurent:
