@@ -39,7 +39,8 @@ class NumpyKernelPrinter(NumPyPrinter):
     """
 
     def __init__(self, limiter_names=(), param_names=()):
-        super().__init__({"fully_qualified_modules": True})
+        # order "none": terms as sympy holds them, which reads q_1 - q_0, not -q_0 + q_1.
+        super().__init__({"fully_qualified_modules": True, "order": "none"})
         self._limiter_names = frozenset(limiter_names)
         self._param_names = frozenset(param_names)
         self.used_helpers: set[str] = set()
