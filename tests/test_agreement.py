@@ -13,8 +13,10 @@ import zlib
 import numpy as np
 import pytest
 from conftest import EXAMPLES
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
-from fluxloom.compiler import load_scheme
+from fluxloom.compiler import load_scheme, scheme_from_text
 from fluxloom.runtime.kernel import fill_periodic, load_kernel, run_periodic
 from fluxloom.runtime.reference import reference_run
 
@@ -183,8 +185,6 @@ UNUSUAL_SPECS = {
 
 @pytest.mark.parametrize("spec", sorted(UNUSUAL_SPECS))
 def test_constructs_beyond_the_examples_agree(spec, precision):
-    from fluxloom.compiler import scheme_from_text
-
     scheme = scheme_from_text(UNUSUAL_SPECS[spec], f"{spec}.loom")
     rng = np.random.default_rng(41)
     n = 30
@@ -197,3 +197,26 @@ def test_constructs_beyond_the_examples_agree(spec, precision):
     for got in runs.values():
         assert relative(got, expected) <= REFERENCE_TOLERANCE[precision]
     assert relative(runs["numpy"], runs["c"].astype(np.float64)) <= 10 * TOLERANCE[precision]
+
+
+_finite = st.floats(-1e3, 1e3, allow_nan=False, allow_subnormal=False)
+
+
+@settings(max_examples=30, deadline=None)
+@given(name=st.sampled_from(["lw_vanleer", "lw_fct", "kappa_rk3", "lax_friedrichs", "lw_superbee"]),
+       data=st.data())
+def test_numpy_matches_the_reference_on_arbitrary_data(name, data):
+    """Any sizes, values (plateaus included, where ratio's denominator is 0) and
+    signed velocities, zeros included: the numpy kernel is the reference."""
+    scheme = load_scheme(EXAMPLES / f"{name}.loom")
+    n = data.draw(st.integers(1, 12), label="n")
+    q0 = np.array(data.draw(st.lists(st.sampled_from([0.0, 1.0, -2.5]) | _finite,
+                                     min_size=n, max_size=n), label="q"))
+    u = np.array(data.draw(st.lists(st.sampled_from([0.0, 1.0, -1.0]) | st.floats(-1, 1),
+                                    min_size=n + 1, max_size=n + 1), label="u"))
+    u[-1] = u[0]
+    dt_dx = data.draw(st.floats(0.05, 0.9), label="dt_dx")
+    expected = reference_run(scheme, q0, u, dt_dx, 2)
+    got = run_periodic(load_kernel(scheme, "numpy"), q0, u, dt_dx, 2)
+    scale = max(np.max(np.abs(expected)), np.max(np.abs(q0)), 1e-300)
+    assert np.max(np.abs(got - expected)) <= 1e-12 * scale
