@@ -16,7 +16,7 @@ import numpy as np
 
 from fluxloom.compiler import LoomError
 from fluxloom.compiler.emit.numpy_ import numpy_source
-from fluxloom.compiler.emit.plan import plan_kernel
+from fluxloom.compiler.emit.plan import banner_lines, plan_kernel
 from fluxloom.compiler.ir import Scheme
 
 BACKENDS = ("numpy", "c")
@@ -44,10 +44,7 @@ def numpy_module(scheme: Scheme, precision: str = "double") -> types.ModuleType:
         module = _MODULES.get(key)
         if module is None:
             # The analysis verdicts only matter in files written for people (`build`).
-            banner = (f"{scheme.name}: {scheme.about}" if scheme.about else scheme.name,
-                      f"generated at run time by fluxloom (fingerprint {scheme.fingerprint}, "
-                      f"{precision} precision); do not edit")
-            source = numpy_source(scheme, precision, banner)
+            source = numpy_source(scheme, precision, banner_lines(scheme, precision, verdicts=False))
             filename = f"<fluxloom {scheme.name} {precision} {scheme.fingerprint}>"
             # Tracebacks through generated code then show its lines.
             linecache.cache[filename] = (len(source), None, source.splitlines(True), filename)
