@@ -315,8 +315,9 @@ def _convergence_finding(conv: harness.Convergence, profile: Profile, pred: Pred
     if not pred.stable_at(c):
         # No claim to test: a weak instability may not show in one revolution (the
         # stability sweep is where it is measured).
-        return Finding("convergence", context,
-                       f"not guaranteed: unstable at c = {_fmt(c)} ({pred.stability_kind})",
+        where = ("at every Courant number" if pred.stability_kind == "unstable" else
+                 f"at c = {_fmt(c)}, outside {_interval(pred.stable_min, pred.stable_max)}")
+        return Finding("convergence", context, f"not guaranteed: unstable {where}",
                        measured, AGREE, values)
     if _exact(conv, eps):
         values["exact"] = True

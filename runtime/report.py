@@ -136,7 +136,7 @@ def finding_rows(v: Verification):
 
 def _headline(v: Verification) -> str:
     o = v.options
-    return (f"verify {v.scheme} ({v.backend}, {v.precision}): c = {o.courant:g}, "
+    return (f"verify {v.scheme} ({v.backend} kernel, {v.precision}): c = {o.courant:g}, "
             f"u = {o.velocity}")
 
 
