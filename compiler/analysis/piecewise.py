@@ -219,7 +219,8 @@ def extrema_on(expr: sympy.Expr, interval: sympy.Interval) -> tuple[sympy.Expr, 
         candidates.append(sympy.limit(expr, R, end, direction))
     num, _ = sympy.fraction(sympy.cancel(sympy.diff(expr, R)))
     for root in interior_roots(num, lo, hi):
-        candidates.append(sympy.simplify(expr.subs(R, root)))
+        value = expr.subs(R, root)
+        candidates.append(value if value.is_Rational else sympy.simplify(value))
     _, den = sympy.fraction(sympy.cancel(expr))
     if interior_roots(den, lo, hi):
         return -sympy.oo, sympy.oo

@@ -67,7 +67,7 @@ def stable_set(scheme: LinearScheme) -> CourantSet:
         return CourantSet((Span(sympy.Integer(0), sympy.oo, True, False),),
                           "exact: |G| = 1 for every c and theta")
     try:
-        exact = _exact_set(excess)
+        exact = _exact_set(excess, scheme)
     except (sympy.PolynomialError, NotImplementedError, ValueError, TypeError):
         exact = None  # sympy could not treat these coefficients exactly; scan instead
     if exact is not None and _numeric_agrees(scheme, exact):
@@ -75,7 +75,7 @@ def stable_set(scheme: LinearScheme) -> CourantSet:
     return numeric_set(scheme)
 
 
-def _exact_set(excess: sympy.Expr) -> CourantSet | None:
+def _exact_set(excess: sympy.Expr, scheme: LinearScheme) -> CourantSet | None:
     numerator, denominator = sympy.fraction(sympy.together(excess))
     if S in denominator.free_symbols:
         return None
@@ -112,7 +112,9 @@ def _exact_set(excess: sympy.Expr) -> CourantSet | None:
     def holds_at_point(c_value) -> bool:
         if c_value.is_Rational:
             return sign_of_denominator(c_value) != 0 and holds(c_value)
-        return _numeric_nonpositive(excess, float(sympy.N(c_value, 30)))
+        # An irrational critical value with unstable neighbours: only a grid can say.
+        fine = numpy.linspace(0.0, numpy.pi, 16001)
+        return max_growth(scheme.numeric(), float(sympy.N(c_value, 30)), fine) <= GROWTH_SLACK
 
     return intervals.decide(critical, holds, holds_at_point,
                             method="exact (sympy: roots in c of |G|^2 - 1 at s = 0, s = 1, "
@@ -158,12 +160,6 @@ def _nonpositive_on_unit(poly: sympy.Poly) -> bool:
         if poly.eval(probe) > 0:
             return False
     return True
-
-
-def _numeric_nonpositive(expr: sympy.Expr, c_value: float) -> bool:
-    f = sympy.lambdify(S, expr.subs(C, c_value), modules="numpy")
-    s = numpy.linspace(0.0, 1.0, 20001)
-    return bool(numpy.max(numpy.broadcast_to(f(s), s.shape)) <= GROWTH_SLACK)
 
 
 # ---- numeric path ------------------------------------------------------------

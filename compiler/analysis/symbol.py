@@ -84,6 +84,10 @@ class LinearScheme:
         return sympy.expand(total)
 
     def numeric(self):
+        return self._numeric
+
+    @cached_property
+    def _numeric(self):
         """A fast numpy G: (cs, thetas) -> array of shape (len(cs), len(thetas)).
 
         Evaluates each coefficient b_m(c) once per c and sums b_m(c) exp(i m theta)

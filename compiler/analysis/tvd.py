@@ -130,14 +130,15 @@ def _scale(fe_set: CourantSet, factor) -> CourantSet | None:
 
 
 def _positive_real(expr: sympy.Expr) -> list:
+    """Positive real roots in c (the conditions are low-degree polynomials in c)."""
     expr = sympy.expand(expr)
     if C not in expr.free_symbols:
         return []
     try:
-        roots = sympy.solve(sympy.Eq(expr, 0), C)
-    except NotImplementedError:
+        found = sympy.roots(sympy.Poly(expr, C))
+    except (sympy.PolynomialError, NotImplementedError):
         return []
-    return [r for r in roots if r.is_real and r > 0]
+    return [r for r in found if r.is_real and r > 0]
 
 
 def _t(value) -> str:
