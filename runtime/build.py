@@ -13,6 +13,7 @@ import hashlib
 import importlib.machinery
 import importlib.util
 import os
+import shlex
 import shutil
 import sys
 import tempfile
@@ -52,12 +53,15 @@ def _extension_suffix() -> str:
 
 
 def compile_c(scheme: Scheme, precision: str = "double", opt: str = "-O2"):
-    """Compile (or reuse) the C kernel of scheme; returns cffi's (ffi, lib)."""
+    """Compile (or reuse) the C kernel of scheme; returns cffi's (ffi, lib).
+
+    opt holds the optimisation flags, split like a shell would ("-O3 -march=native").
+    """
     sources = c_sources(scheme, precision, verdicts=False)
     header, kernel = sources[f"{scheme.name}.h"], sources[f"{scheme.name}.c"]
     # One translation unit: the header text stands in for the #include.
     source = kernel.replace(f'#include "{scheme.name}.h"', header, 1)
-    flags = (*BUILD_FLAGS, opt)
+    flags = (*BUILD_FLAGS, *shlex.split(opt))
     name = module_name(scheme, source, flags)
     with _lock:
         module = _loaded.get(name)
