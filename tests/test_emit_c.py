@@ -606,3 +606,15 @@ def test_the_printer_is_strict():
     printer = KernelPrinter(plan_kernel(ALL_SCHEMES["upwind"]))
     with pytest.raises(PrintMethodNotImplementedError):
         printer.doprint(sympy.Function("unknown_function")(sympy.Symbol("x")))
+
+
+@pytest.mark.parametrize("name, message", [("_odd", "must start with a letter"),
+                                           ("a" * 60, "longer than the 63 characters")])
+def test_names_fortran_cannot_spell_get_a_clear_error(name, message):
+    from fluxloom.compiler import LoomError
+    from fluxloom.compiler.emit.fortran import fortran_source
+
+    scheme = scheme_from_text(f"scheme {name} {{\n  flux = u * q[0]\n}}\n")
+    with pytest.raises(LoomError, match=message):
+        fortran_source(scheme)
+    assert f"{name}.c" in c_sources(scheme, verdicts=False)  # the C target still builds

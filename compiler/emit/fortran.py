@@ -10,6 +10,7 @@ from __future__ import annotations
 import sympy
 from sympy.printing.fortran import FCodePrinter
 
+from ..diagnostics import LoomError
 from ..ir import Scheme
 from .c import check_precision
 from .environment import render
@@ -42,8 +43,11 @@ class ConstantPrinter(FCodePrinter):
 
 
 def fortran_identifier(name: str) -> str:
+    """name, or a clear error when Fortran cannot spell it."""
+    if not name[:1].isalpha():
+        raise LoomError(f"'{name}' cannot name a Fortran entity (it must start with a letter); "
+                        "rename the scheme to build the Fortran interface", file="<fortran>")
     if len(name) > FORTRAN_NAME_LIMIT:
-        from ..diagnostics import LoomError
         raise LoomError(f"'{name}' is longer than the {FORTRAN_NAME_LIMIT} characters a Fortran "
                         "name may have; choose a shorter scheme or param name", file="<fortran>")
     return name
