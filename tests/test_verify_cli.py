@@ -151,3 +151,13 @@ def test_entry_point_runs_as_a_program():
                           capture_output=True, text=True, timeout=120)
     assert done.returncode == 0, done.stderr
     assert json.loads(done.stdout)["agree"] is True
+
+
+@pytest.mark.parametrize("stem, courant", [("upwind", "1"), ("quickest", "2")])
+def test_exact_shifts_are_recognised(capsys, stem, courant):
+    # At c = 1 upwind moves every value one cell; QUICKEST is stable again at c = 2 exactly
+    # (REFERENCE.md: Leonard 1979, from memory) and moves values two cells: no order to fit.
+    status, doc = run_json(capsys, EXAMPLES / f"{stem}.loom", "--courant", courant)
+    assert status == 0
+    convergence = [f for f in doc["findings"] if f["check"] == "convergence"]
+    assert all(f.get("exact") for f in convergence)
