@@ -266,14 +266,35 @@ def test_mirrored_run_mirrors(name):
     ("upwind", 1.0), ("lax_wendroff", 1.0), ("beam_warming", 2.0), ("fromm", 1.0),
     ("lax_friedrichs", 1.0),
 ])
-def test_measured_stability_limit(name, limit):
-    result = harness.stability_sweep(hand_kernel(name), 1.0, limit)
+@pytest.mark.parametrize("linear", [True, False])
+def test_measured_stability_limit(name, limit, linear):
+    # measured both ways: spectrally (one step, per-mode gain) and by growth over many steps
+    result = harness.stability_sweep(hand_kernel(name), 1.0, limit, linear=linear)
+    assert result.method == ("spectral" if linear else "growth")
     assert result.measured_max is not None
     assert abs(result.measured_max - limit) <= 0.02
 
 
-def test_ftcs_grows_at_every_courant_number_tried():
+@pytest.mark.parametrize("linear", [True, False])
+def test_ftcs_grows_at_every_courant_number_tried(linear):
     # von Neumann: |G|^2 = 1 + c^2 sin^2(theta) (common practice).
-    result = harness.stability_sweep(hand_kernel("ftcs"), -1.0, None)
+    result = harness.stability_sweep(hand_kernel("ftcs"), -1.0, None, linear=linear)
     assert result.unstable_everywhere and result.measured_max is None
     assert len(result.probes) >= 6 and all(p.grows for p in result.probes)
+
+
+def test_spectral_probe_measures_the_amplification_factor():
+    # Lax-Wendroff |G|^2 = 1 - 4c^2(1 - c^2) sin^4(theta/2) (REFERENCE.md [pub]); max over
+    # the grid's modes, computed with numpy.
+    for c in (0.5, 1.2):
+        theta = 2 * np.pi * np.arange(1, 129) / 256
+        expected = np.sqrt(1 - 4 * c * c * (1 - c * c) * np.sin(theta / 2) ** 4).max()
+        got = harness.spectral_probe(hand_kernel("lax_wendroff"), c).growth
+        assert got == pytest.approx(expected, rel=1e-12)
+
+
+def test_clamped_scheme_is_probed_underneath_the_clamp():
+    # FTCS under a clamp to [0, 1] still has |G| > 1 (the clamp hides it at large amplitude).
+    kernel = hand_kernel("ftcs_clip", clip=(0.0, 1.0))
+    result = harness.stability_sweep(kernel, 1.0, None, linear=True, clip=(0.0, 1.0))
+    assert result.unstable_everywhere
