@@ -86,7 +86,7 @@ class Analysis:
         return "conditional"
 
     def to_json(self) -> dict:
-        from .report import analysis_document
+        from .document import analysis_document
         return analysis_document(self)
 
 

@@ -14,7 +14,7 @@ from dataclasses import dataclass
 
 import sympy
 
-from ..symbols import C, R, limiter_calls
+from ..symbols import C, R
 from . import intervals, piecewise
 from .intervals import CourantSet, Span
 from .timemethods import method
@@ -147,7 +147,3 @@ def _t(value) -> str:
 
 def _source(scheme) -> str:
     return "scheme"
-
-
-def limiter_names_in(scheme) -> list[str]:
-    return [type(call).__name__ for call in limiter_calls(scheme.face, scheme.limiter_names)]
