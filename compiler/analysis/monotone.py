@@ -44,7 +44,8 @@ def monotone_set(coefficients) -> CourantSet:
         critical += intervals.positive_roots(sympy.denom(v), C)
 
     def holds(c_value) -> bool:
-        return all(bool(v.subs(C, c_value) >= 0) for v in values)
+        at = [v.subs(C, c_value) for v in values]
+        return all(a.is_finite is True and bool(a >= 0) for a in at)
 
     return intervals.decide(critical, holds, method="exact (roots in c of every update coefficient)")
 

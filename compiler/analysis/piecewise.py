@@ -27,10 +27,7 @@ def sample_points() -> numpy.ndarray:
 @lru_cache(maxsize=256)
 def pieces(body: sympy.Expr) -> tuple[tuple[sympy.Expr, sympy.Interval], ...] | None:
     """The body as (rational expression, interval) pairs covering the reals, or None."""
-    found = _pieces_by_breakpoints(body)
-    if found is not None:
-        return found
-    return _pieces_by_sympy(body)
+    return _pieces_by_breakpoints(body)
 
 
 class _NotRational(Exception):
@@ -118,30 +115,6 @@ def _as_intervals(parts):
         interval = sympy.Interval(a, b, left_open=(a == -sympy.oo), right_open=True)
         out.append((expr, interval))
     return tuple(out)
-
-
-def _pieces_by_sympy(body: sympy.Expr):
-    try:
-        folded = sympy.piecewise_fold(body.rewrite(sympy.Piecewise))
-        if isinstance(folded, sympy.Piecewise):
-            pairs = folded.as_expr_set_pairs(sympy.S.Reals)
-        else:
-            pairs = [(folded, sympy.S.Reals)]
-    except Exception:  # sympy could not split the body; the caller samples instead
-        return None
-    out = []
-    for expr, where in pairs:
-        expr = sympy.cancel(expr)
-        if not is_rational_in_r(expr):
-            return None
-        for part in (where.args if isinstance(where, sympy.Union) else (where,)):
-            if isinstance(part, sympy.Interval):
-                out.append((expr, part))
-            elif part.is_empty or isinstance(part, sympy.FiniteSet):
-                continue  # single points do not change extrema of a piece's closure
-            else:
-                return None
-    return tuple(sorted(out, key=lambda p: float(p[1].inf)))
 
 
 def is_rational_in_r(expr: sympy.Expr) -> bool:

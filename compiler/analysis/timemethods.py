@@ -105,26 +105,24 @@ def linear_order(name: str) -> int:
     return p
 
 
+def abs_squared_on_imaginary_axis(name: str) -> tuple[sympy.Expr, sympy.Symbol]:
+    """(|R(iy)|^2 as a polynomial in y, y)."""
+    y = sympy.Symbol("y", real=True)
+    value = sympy.expand_complex(sympy.Abs(stability_polynomial(name).subs(Z, sympy.I * y)) ** 2)
+    return sympy.expand(value), y
+
+
 @lru_cache(maxsize=None)
 def imaginary_axis_limit(name: str) -> sympy.Expr:
     """The largest Y with |R(iy)| <= 1 for all |y| <= Y (0 when only y = 0 is stable)."""
-    y = sympy.Symbol("y", real=True)
-    excess = sympy.expand(sympy.expand_complex(
-        sympy.Abs(stability_polynomial(name).subs(Z, sympy.I * y)) ** 2)) - 1
-    excess = sympy.Poly(sympy.expand(excess), y)
-    roots = sorted({rt for rt in sympy.real_roots(excess) if rt > 0}, key=lambda v: float(v))
-    bounds = [sympy.Integer(0)] + roots
+    from .intervals import rational_between
+
+    value, y = abs_squared_on_imaginary_axis(name)
+    excess = sympy.Poly(value - 1, y)
+    roots = sorted({root for root in sympy.real_roots(excess) if root > 0}, key=float)
     limit = sympy.Integer(0)
-    for lo, hi in zip(bounds, bounds[1:] + [None]):
-        probe = (lo + hi) / 2 if hi is not None else lo + 1
-        if excess.eval(sympy.nsimplify(sympy.N(probe, 30), rational=True)) <= 0:
-            limit = hi if hi is not None else sympy.oo
-        else:
+    for lo, hi in zip([sympy.Integer(0)] + roots, roots + [sympy.oo]):
+        if excess.eval(rational_between(lo, hi)) > 0:
             break
-    return sympy.nsimplify(limit) if limit.is_number and limit != sympy.oo and not limit.is_Rational else limit
-
-
-def abs_squared_on_imaginary_axis(name: str) -> sympy.Expr:
-    y = sympy.Symbol("y", real=True)
-    return sympy.expand(sympy.expand_complex(
-        sympy.Abs(stability_polynomial(name).subs(Z, sympy.I * y)) ** 2)), y
+        limit = hi
+    return limit

@@ -86,6 +86,8 @@ def analyse_tvd(scheme, monotone_whole_step: CourantSet | None) -> TVD:
 
     def holds(c_value) -> bool:
         low, high = extremes(c_value)
+        if sympy.nan in (low, high):  # oo - oo: C is unbounded both ways
+            return False
         return bool(low >= 0) and bool(high <= 1)
 
     critical = _positive_real(k)
