@@ -162,3 +162,50 @@ def test_inline_minmod_slope_matches_the_named_limiter():
         assert inline["stability"][key] == named["stability"][key]
     assert inline["order"]["overall"] == named["order"]["overall"] == 2
     assert "random rational states" in inline["tvd"]["reason"]
+
+
+# ---- random piecewise-linear limiters: exact verdicts against dense numpy sampling -----
+
+from hypothesis import HealthCheck, given, settings, strategies as st  # noqa: E402
+
+from fluxloom.compiler.symbols import R as _r  # noqa: E402
+
+_coef = st.fractions(min_value=0, max_value=4, max_denominator=4)
+
+
+@st.composite
+def random_limiters(draw):
+    """max(0, min(a r, b), min(d r, e)) with small rational a, b, d, e, maybe through abs."""
+    a, b, d, e = (sympy.Rational(draw(_coef)) for _ in range(4))
+    body = sympy.Max(0, sympy.Min(a * _r, b), sympy.Min(d * _r, e))
+    if draw(st.booleans()):
+        body = body.subs(_r, sympy.Abs(_r)) * (1 + sympy.sign(_r)) / 2
+    return body
+
+
+@settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(random_limiters())
+def test_exact_sweby_verdict_against_sampling(body):
+    # Sweby's region (Sweby 1984 [mem]) tested directly with numpy on a dense grid; a
+    # violation the grid sees must be reported, and a body reported inside must show none.
+    grid = numpy.concatenate([numpy.linspace(-5, 0, 1001), numpy.linspace(1e-5, 40, 400001)])
+    psi = numpy.broadcast_to(sympy.lambdify(_r, body, modules="numpy")(grid), grid.shape)
+    pos = grid > 0
+    violation = max(numpy.max(numpy.abs(psi[~pos])),
+                    numpy.max(psi[pos] - numpy.minimum(2 * grid[pos], 2)),
+                    numpy.max(-psi[pos]))
+    facts = analyse_limiter("random", body)
+    assert facts.method.startswith("exact")
+    if violation > 1e-9:
+        assert facts.sweby_tvd is False, body
+    if facts.sweby_tvd:
+        assert violation <= 1e-12, body
+    # psi(1) and symmetry checked the same way
+    assert facts.psi_at_1 == body.subs(_r, 1)
+    mirrored = numpy.broadcast_to(sympy.lambdify(_r, body, modules="numpy")(1 / grid[pos]),
+                                  grid[pos].shape)
+    asymmetry = numpy.max(numpy.abs(psi[pos] / grid[pos] - mirrored))
+    if asymmetry > 1e-9:
+        assert facts.symmetric is False, body
+    if facts.symmetric:
+        assert asymmetry <= 1e-9, body
