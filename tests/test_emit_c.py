@@ -618,3 +618,39 @@ def test_names_fortran_cannot_spell_get_a_clear_error(name, message):
     with pytest.raises(LoomError, match=message):
         fortran_source(scheme)
     assert f"{name}.c" in c_sources(scheme, verdicts=False)  # the C target still builds
+
+
+@pytest.mark.parametrize("method", ["euler", "ssp_rk2", "ssp_rk3", "rk4"])
+def test_stage_updates_are_the_butcher_method_on_a_nonlinear_problem(method):
+    """What the kernels stage is what the analysis reads: one step of the stage updates
+    (compiler/timestep.py) on y' = y^2 + y^3 equals one step of the method's Butcher
+    tableau (compiler/analysis/timemethods.py), in exact rational arithmetic."""
+    from fractions import Fraction
+
+    from fluxloom.compiler.analysis.timemethods import method as butcher_method
+    from fluxloom.compiler.timestep import stage_updates
+
+    def rhs(v):
+        return v**2 + v**3
+
+    def exact(value):
+        return Fraction(int(value.p), int(value.q))
+
+    tableau = butcher_method(method)
+    for y, h in [(Fraction(3, 7), Fraction(2, 5)), (Fraction(-5, 3), Fraction(1, 9)),
+                 (Fraction(11, 4), Fraction(-3, 8))]:
+        start, current, accumulator = y, y, Fraction(0)
+        for s in stage_updates(method):
+            rate = h * rhs(current)
+            out = (exact(s.start) * start + exact(s.stage) * current + exact(s.rate) * rate
+                   + exact(s.acc) * accumulator)
+            if s.accumulates:
+                accumulator = (exact(s.acc_start) * start + exact(s.acc_keep) * accumulator
+                               + exact(s.acc_rate) * rate)
+            current = out
+        slopes = []
+        for row in tableau.butcher_a:
+            stage_value = y + h * sum((exact(a) * k for a, k in zip(row, slopes)), Fraction(0))
+            slopes.append(rhs(stage_value))
+        butcher = y + h * sum(exact(b) * k for b, k in zip(tableau.butcher_b, slopes))
+        assert current == butcher
