@@ -654,3 +654,57 @@ def test_stage_updates_are_the_butcher_method_on_a_nonlinear_problem(method):
             slopes.append(rhs(stage_value))
         butcher = y + h * sum(exact(b) * k for b, k in zip(tableau.butcher_b, slopes))
         assert current == butcher
+
+
+# ---- constructs the examples do not combine -------------------------------------------
+
+UNUSUAL = {  # specs of our own, combining what no example does
+    "fct_clip": """scheme fct_clip {
+  time euler
+  low_flux = u * q[0]
+  flux = u * (q[0] + (1 - c) / 4 * (q[1] - q[-1]))
+  correct fct
+  clip 0, 1
+}""",
+    "rk4_clip_param": """scheme rk4_clip_param {
+  param beta = 0.25
+  param gamma = 2
+  time rk4
+  let r = ratio(q[0] - q[-1], q[1] - q[0])
+  limiter smooth(r) = max(0, r) * sqrt(1 + r^2) / (1 + abs(r)^3) + sign(r) * beta
+  flux = u * (q[0] + smooth(r) / gamma * (q[1] - q[0]) - beta / 8 * (q[2] - 2 * q[1] + q[0]))
+  clip -1/2, 3/2
+}""",
+    "wide_guard": """scheme wide_guard {
+  time euler
+  flux = u * ((q[0] + q[1]) / 2 - (q[1] - q[0]) / (2 * c) + c^2 * min(q[-2], q[3], q[0]) / 7)
+}""",
+}
+
+
+@pytest.mark.parametrize("precision", PRECISIONS)
+def test_unusual_combinations_compile_without_a_warning(tmp_path, precision):
+    for text in UNUSUAL.values():
+        for name, source in c_sources(scheme_from_text(text), precision, verdicts=False).items():
+            (tmp_path / name).write_text(source)
+    done = subprocess.run([need("gcc"), *STRICT, "-c", *[f"{n}.c" for n in UNUSUAL]],
+                          cwd=tmp_path, capture_output=True, text=True)
+    assert done.returncode == 0 and done.stderr == "", done.stderr
+
+
+@pytest.mark.parametrize("name", sorted(UNUSUAL))
+def test_unusual_combinations_agree_with_the_reference(name):
+    """FCT with a clamp, RK4 with a clamp, params inside a limiter with sign and sqrt,
+    a 1/c guard with a wide stencil: the C kernel against the face-by-face reference."""
+    from fluxloom.runtime.reference import reference_run
+
+    scheme = scheme_from_text(UNUSUAL[name])
+    rng = np.random.default_rng(zlib.crc32(name.encode()))
+    n = 40
+    q = rng.uniform(0.0, 1.0, n)
+    u = rng.uniform(-1.0, 1.0, n + 1)
+    u[::5] = 0.0
+    u[-1] = u[0]
+    got = run_periodic(load_kernel(scheme, "c"), q, u, 0.4, 3)
+    want = reference_run(scheme, q, u, 0.4, 3)
+    assert np.max(np.abs(got - want)) < 1e-13
