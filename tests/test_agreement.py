@@ -212,8 +212,11 @@ def test_numpy_matches_the_reference_on_arbitrary_data(name, data):
     n = data.draw(st.integers(1, 12), label="n")
     q0 = np.array(data.draw(st.lists(st.sampled_from([0.0, 1.0, -2.5]) | _finite,
                                      min_size=n, max_size=n), label="q"))
-    u = np.array(data.draw(st.lists(st.sampled_from([0.0, 1.0, -1.0]) | st.floats(-1, 1),
-                                    min_size=n + 1, max_size=n + 1), label="u"))
+    # |u| >= 1e-3 or exactly 0: a Lax-Friedrichs flux holds 1/c, which overflows for a
+    # subnormal Courant number in every implementation of u * g, the reference's too.
+    speed = st.floats(1e-3, 1.0)
+    velocity = st.sampled_from([0.0, 1.0, -1.0]) | speed | speed.map(lambda v: -v)
+    u = np.array(data.draw(st.lists(velocity, min_size=n + 1, max_size=n + 1), label="u"))
     u[-1] = u[0]
     dt_dx = data.draw(st.floats(0.05, 0.9), label="dt_dx")
     expected = reference_run(scheme, q0, u, dt_dx, 2)
