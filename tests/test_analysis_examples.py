@@ -236,3 +236,14 @@ def test_generated_stage_updates_have_the_analysed_stability_polynomial(name):
                            + update.acc_rate * d_l)
         stage = sympy.expand(out)
     assert sympy.expand(stage - stability_polynomial(name)) == 0
+
+
+def test_unconditional_and_inconsistent_shift():
+    # flux = u q[0] / c moves every value one cell per step whatever c is: |G| = 1 for all c
+    # (unconditionally stable) but consistent only at c = 1, so not convergent (common
+    # practice, no source).
+    doc = analyse(scheme_from_text("scheme shift {\n  flux = u * q[0] / c\n}")).to_json()
+    assert doc["stability"]["kind"] == "unconditional"
+    assert doc["stability"]["courant_max"] is None
+    assert doc["stability"]["courant_max_exact"] == "oo"
+    assert doc["consistent"] is False and doc["convergent"]["holds"] is False

@@ -109,8 +109,11 @@ def render(doc: dict) -> str:
 
     order = doc["order"]
     out.append("")
-    out.append(f"consistency   {_yes(doc['consistent'])}; order {order['overall']} overall "
-               f"(space {order['space']}, time {order['time']}) at fixed Courant number")
+    if order["overall"] is None:
+        out.append(f"consistency   {_yes(doc['consistent'])}; no order")
+    else:
+        out.append(f"consistency   {_yes(doc['consistent'])}; order {order['overall']} overall "
+                   f"(space {order['space']}, time {order['time']}) at fixed Courant number")
     for term in doc["modified_equation"]:
         out.append(f"  {term['coefficient']} * {term['derivative']}")
     if doc["modified_equation"]:
