@@ -202,6 +202,7 @@ def analysis_document(a) -> dict:
     if a.dispersion is not None:
         doc["dispersion"] = {
             "label": a.dispersion.label, "courant": a.dispersion.courant,
+            "stable_at_courant": bool(span is not None and span.contains(a.dispersion.courant)),
             "rows": [{"cells_per_wavelength": r.cells_per_wavelength, "theta": r.theta,
                       "amplitude_per_step": r.amplitude_per_step,
                       "phase_error_per_step": r.phase_error_per_step,

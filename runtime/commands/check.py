@@ -204,7 +204,8 @@ def render(doc: dict) -> str:
     disp = doc.get("dispersion")
     if disp:
         out.append("")
-        out.append(f"dispersion    at c = {disp['courant']:g} ({disp['label']})")
+        where = "" if disp["stable_at_courant"] else ", outside the stable interval"
+        out.append(f"dispersion    at c = {disp['courant']:g} ({disp['label']}{where})")
         out.append("  cells/wave   |G|/step   phase err/step   rel. speed   |G|/wavelength   phase err/wavelength")
         for r in disp["rows"]:
             out.append(f"  {r['cells_per_wavelength']:>10d}   {r['amplitude_per_step']:8.5f}   "
