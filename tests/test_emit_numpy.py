@@ -231,8 +231,9 @@ def circulant_operator(scheme, n):
 def test_runge_kutta_step_is_the_stability_polynomial(name, order):
     """On a linear problem an s-stage RK method of order s (s <= 4) is the truncated
     exponential sum of z^m/m!, m <= s (Butcher 2008, Numerical Methods for Ordinary
-    Differential Equations, sec. 238 [mem]); checked with numpy matrix powers of the
-    semi-discrete operator built from the face coefficients."""
+    Differential Equations; citation and section from memory; also common practice).
+    Checked with numpy matrix powers of the semi-discrete operator built from the
+    face coefficients."""
     scheme = load_scheme(EXAMPLES / f"{name}.loom")
     kernel = load_kernel(scheme, "numpy")
     n, dt_dx = 24, 0.4
