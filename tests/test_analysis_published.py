@@ -136,7 +136,8 @@ CENTRED_RK = "scheme k {{\n  time {method}\n  flux = u * (q[0] + q[1]) / 2\n}}"
     (KAPPA_RK, "-1", "ssp_rk2", 0.5),
     (KAPPA_RK, "-1", "ssp_rk3", 0.6281),
     (KAPPA_RK, "-1", "rk4", 0.6963),
-])
+], ids=lambda v: v if isinstance(v, str) and "\n" not in v else (
+    {UPWIND_RK: "upwind", CENTRED_RK: "centred", KAPPA_RK: "kappa"}.get(v, str(v))))
 def test_method_of_lines_courant_limits(template, kappa, method, limit):
     overrides = {"kappa": sympy.Rational(kappa)} if kappa is not None else None
     scheme = scheme_from_text(template.format(method=method), overrides=overrides)
@@ -146,7 +147,8 @@ def test_method_of_lines_courant_limits(template, kappa, method, limit):
 
 
 @pytest.mark.parametrize("template, kappa", [(CENTRED_RK, None), (KAPPA_RK, "1/3"),
-                                             (KAPPA_RK, "0"), (KAPPA_RK, "-1")])
+                                             (KAPPA_RK, "0"), (KAPPA_RK, "-1")],
+                         ids=["centred", "kappa=1/3", "kappa=0", "kappa=-1"])
 def test_forward_euler_method_of_lines_unstable(template, kappa):
     # REFERENCE.md table: centred and kappa schemes with forward Euler are unstable [derived].
     text = template.format(method="euler")
