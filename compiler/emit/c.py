@@ -288,6 +288,9 @@ def c_context(scheme: Scheme, precision: str = "double", verdicts: bool = True) 
         "stage_buffers": stage_buffers(plan),
         "clip": clip,
         "block": FLUX_BLOCK,
+        # continuation lines of the two long prototypes line up under "("
+        "stage_indent": " " * len(f"void {plan.name}_stage("),
+        "step_indent": " " * len(f"void {plan.name}_step("),
     }
 
 
