@@ -11,18 +11,16 @@ from dataclasses import dataclass
 
 import sympy
 
-from ..diagnostics import LoomError
 from . import intervals
 from .bounds import Bounds, analyse_bounds, check_low_flux
 from .conservation import Conservation, analyse_conservation
 from .consistency import Consistency, analyse_consistency
 from .dispersion import Dispersion, analyse_dispersion
-from .intervals import CourantSet, Span
+from .intervals import Span
 from .limiters import LimiterFacts, analyse_limiter
 from .monotone import Monotone, analyse_monotone
-from .stability import Stability, analyse_stability, kind_of
+from .stability import Stability, analyse_stability
 from .symbol import Linearisation, linearise
-from .timemethods import method
 from .tvd import TVD, analyse_tvd
 
 __all__ = ["Analysis", "analyse", "check_low_flux"]
