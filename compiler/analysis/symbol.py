@@ -47,6 +47,10 @@ class LinearScheme:
     @cached_property
     def update(self) -> Laurent:
         """Coefficients b_m of q_{j+m} in one whole step: G(z) = sum b_m z^m."""
+        try:
+            return self._update_by_polynomials()
+        except (sympy.PolynomialError, sympy.CoercionFailed):
+            pass  # coefficients not polynomial in c over QQ: the general sympy path
         step = {m: C * v for m, v in self.semi_discrete.items()}
         out: Laurent = {0: sympy.Integer(1)}
         poly = sympy.Poly(stability_polynomial(self.time), Z)
@@ -57,6 +61,29 @@ class LinearScheme:
             for m, v in power.items():
                 out[m] = out.get(m, 0) + weight * v
         return _trim({m: sympy.expand(v) for m, v in out.items()})
+
+    def _update_by_polynomials(self) -> Laurent:
+        """The same sum with QQ[z, c] polynomial arithmetic: lambda(z) z^shift = P(z, c),
+        so (c lambda)^k = c^k P^k z^(-k shift)."""
+        if not self.semi_discrete:
+            return {0: sympy.Integer(1)}
+        shift = -min(self.semi_discrete)
+        p = sympy.Poly(sum((v * Z ** (m + shift) for m, v in self.semi_discrete.items()),
+                           sympy.Integer(0)), Z, C, domain="QQ")
+        r = sympy.Poly(stability_polynomial(self.time), Z)
+        degree = r.degree()
+        total = sympy.Poly(Z ** (degree * shift), Z, C, domain="QQ")
+        power = sympy.Poly(1, Z, C, domain="QQ")
+        c_poly = sympy.Poly(C, Z, C, domain="QQ")
+        for k in range(1, degree + 1):
+            power = power * p * c_poly
+            weight = r.coeff_monomial(Z ** k)
+            total += power * weight * sympy.Poly(Z ** ((degree - k) * shift), Z, C, domain="QQ")
+        out: Laurent = {}
+        for (z_power, c_power), value in total.terms():
+            m = z_power - degree * shift
+            out[m] = out.get(m, 0) + sympy.Rational(value) * C ** c_power
+        return _trim(out)
 
     @cached_property
     def amplification(self) -> sympy.Expr:
@@ -94,7 +121,7 @@ class LinearScheme:
         as a matrix product.
         """
         offsets = sorted(self.update)
-        coefficient = [sympy.lambdify(C, self.update[m], modules="numpy") for m in offsets]
+        coefficient = [_numpy_function_of_c(self.update[m]) for m in offsets]
         exponents = numpy.array(offsets, dtype=float)
 
         def g(cs, thetas):
@@ -111,6 +138,15 @@ class LinearScheme:
         expr = sum((v * sympy.exp(sympy.I * m * theta) for m, v in self.update.items()),
                    sympy.Integer(0))
         return sympy.lambdify((C, theta), expr, modules="numpy")
+
+
+def _numpy_function_of_c(value: sympy.Expr):
+    """value(c) for numpy arrays: Horner on the coefficients when it is a polynomial."""
+    try:
+        coefficients = [float(v) for v in sympy.Poly(value, C).all_coeffs()]
+    except (sympy.PolynomialError, TypeError):
+        return sympy.lambdify(C, value, modules="numpy")
+    return lambda cs: numpy.polyval(coefficients, cs)
 
 
 def _chebyshev_sum_fast(h: Laurent) -> sympy.Expr:
@@ -200,7 +236,7 @@ def linearise(scheme, face: sympy.Expr | None = None) -> Linearisation:
         if coefficients is None:
             notes.append("the face is not linear in q after linearising at r = 1")
             break
-        key = tuple((k, sympy.simplify(a)) for k, a in coefficients)
+        key = tuple((k, sympy.cancel(a)) for k, a in coefficients)
         if key in seen:
             continue
         seen.add(key)
