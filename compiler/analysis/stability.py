@@ -57,8 +57,16 @@ def analyse_stability(scheme: LinearScheme) -> Stability:
         semi = sympy.sstr(sum((v * z ** m for m, v in sorted(scheme.semi_discrete.items())),
                               sympy.Integer(0)))
     return Stability(scheme.label, sympy.sstr(scheme.amplification),
-                     sympy.sstr(sympy.factor(scheme.abs_squared - 1) + 1) if scheme.update else "1",
+                     _abs_squared_text(scheme.abs_squared),
                      semi, stable_set(scheme))
+
+
+def _abs_squared_text(value: sympy.Expr) -> str:
+    """|G|^2 for reading: 1 + factored excess when that is cheap, else expanded."""
+    excess = sympy.expand(value - 1)
+    if len(sympy.Add.make_args(excess)) <= 24:
+        return sympy.sstr(sympy.factor(excess) + 1)
+    return sympy.sstr(value)
 
 
 def stable_set(scheme: LinearScheme) -> CourantSet:
