@@ -24,7 +24,8 @@ TOKEN_WORDS = {
 @lru_cache(maxsize=1)
 def _parser() -> lark.Lark:
     text = resources.files("fluxloom.grammar").joinpath("loom.lark").read_text("utf-8")
-    return lark.Lark(text, parser="lalr", strict=True, propagate_positions=True,
+    # cache=True keeps the built LALR tables in the temp dir, keyed by the grammar text.
+    return lark.Lark(text, parser="lalr", strict=True, propagate_positions=True, cache=True,
                      maybe_placeholders=False)
 
 

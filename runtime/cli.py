@@ -12,7 +12,7 @@ from importlib import metadata
 
 from fluxloom.compiler import LoomError
 
-from .commands import ORDER
+from .commands import ORDER, SUMMARIES
 
 EXIT_BAD_INPUT = 2
 EXIT_INTERNAL = 3
@@ -25,13 +25,17 @@ def version() -> str:
         return "0+unknown"
 
 
-def build_parser() -> argparse.ArgumentParser:
+def build_parser(only: str | None = None) -> argparse.ArgumentParser:
+    """The argument parser; with `only`, just that command's module is imported."""
     parser = argparse.ArgumentParser(
         prog="fluxloom",
         description="Analyse, generate and verify conservative flux-form transport schemes.")
     parser.add_argument("--version", action="version", version=f"fluxloom {version()}")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND")
     for name in ORDER:
+        if only is not None and name != only:
+            sub.add_parser(name, help=SUMMARIES[name])
+            continue
         try:
             module = importlib.import_module(f"fluxloom.runtime.commands.{name}")
         except ModuleNotFoundError as err:
@@ -47,7 +51,9 @@ class _ArgumentError(Exception):
 
 
 def main(argv=None) -> int:
-    parser = build_parser()
+    argv = sys.argv[1:] if argv is None else list(argv)
+    command = next((a for a in argv if not a.startswith("-")), None)
+    parser = build_parser(only=command if command in ORDER else "")
     args = parser.parse_args(argv)
     if not getattr(args, "command", None):
         parser.print_help()
