@@ -93,7 +93,8 @@ class Prediction:
 
     @classmethod
     def from_analysis(cls, doc: dict, scheme) -> "Prediction":
-        order = (doc.get("order") or {}).get("overall")
+        found = doc.get("order") or {}
+        order = found.get("at_courant", found.get("overall"))
         stability = doc.get("stability") or {}
         monotone = doc.get("monotone") or {}
         tvd = doc.get("tvd") or {}

@@ -208,7 +208,16 @@ def test_ftcs_modified_equation_and_orders():
     # second in space (von Neumann / modified equation, common practice; REFERENCE.md).
     assert same(coefficient("ftcs", 2), -U * DX * c / 2)
     order = analyse(load_scheme(EXAMPLES / "ftcs.loom")).order
-    assert order == {"space": 2, "time": 1, "overall": 1}
+    assert order == {"space": 2, "time": 1, "overall": 1, "at_courant": 1}
+
+
+def test_fromm_gains_an_order_at_half_courant():
+    # Fromm: a3 = (u dx^2/12)(1 - c)(1 - 2c) vanishes at c = 1/2, where the scheme is
+    # third order (Fromm 1968, J. Comput. Phys. 3:176; from memory, REFERENCE.md).
+    fromm = load_scheme(EXAMPLES / "fromm.loom")
+    assert analyse(fromm, courant=0.5).order["at_courant"] == 3
+    assert analyse(fromm, courant=0.4).order["at_courant"] == 2
+    assert analyse(fromm, courant=0.5).order["overall"] == 2
 
 
 def test_quickest_modified_equation():

@@ -94,7 +94,7 @@ def test_a_disagreement_exits_1(capsys, monkeypatch):
 
     def overclaiming(scheme, courant):
         doc = dict(real(scheme, courant))
-        doc["order"] = {**doc["order"], "overall": 2}
+        doc["order"] = {**doc["order"], "overall": 2, "at_courant": 2}
         return doc
     monkeypatch.setattr(verify_command, "analysis_document", overclaiming)
     status = main(["verify", str(EXAMPLES / "upwind.loom")])
@@ -161,3 +161,13 @@ def test_exact_shifts_are_recognised(capsys, stem, courant):
     assert status == 0
     convergence = [f for f in doc["findings"] if f["check"] == "convergence"]
     assert all(f.get("exact") for f in convergence)
+
+
+def test_fromm_at_half_courant_measures_the_order_the_analysis_gives(capsys):
+    # Fromm is third order at c = 1/2, where a3 = (u dx^2/12)(1 - c)(1 - 2c) vanishes
+    # (Fromm 1968, J. Comput. Phys. 3:176; from memory, REFERENCE.md): check must say 3
+    # there and verify must measure it.
+    assert main(["verify", str(EXAMPLES / "fromm.loom"), "--courant", "0.5", "--json"]) == 0
+    doc = json.loads(capsys.readouterr().out)
+    assert doc["predicted_order"] == 3
+    assert abs(doc["observed_order"]["l1"] - 3) < 0.3

@@ -60,7 +60,19 @@ class Analysis:
     @property
     def order(self) -> dict:
         return {"space": self._order("order_space"), "time": self._order("order_time"),
-                "overall": self._order("order_overall")}
+                "overall": self._order("order_overall"), "at_courant": self.order_at_courant}
+
+    @property
+    def order_at_courant(self) -> int | None:
+        """The overall order at this analysis's Courant number (can exceed the generic one)."""
+        if not self.consistency or self.courant <= 0 or not self.linearisation.exact:
+            # a limited scheme's linearisation says nothing finer than its generic order
+            return self._order("order_overall")
+        values = [c.order_at(self.courant) for c in self.consistency]
+        if any(v is None for v in values):
+            return None
+        value = min(values)
+        return min(value, SMOOTH_ORDER_CAP) if self.order_cap_note else value
 
     @property
     def stable_interval(self) -> Span | None:

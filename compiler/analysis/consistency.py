@@ -67,6 +67,15 @@ class Consistency:
     terms: tuple[Term, ...]              # first two nonzero terms with m >= 2 (fully discrete)
     spatial_terms: tuple[Term, ...]      # method-of-lines: of the semi-discrete operator
     note: str
+    error_terms: tuple[Term, ...] = ()   # every nonzero term kept by the series, in order
+
+    def order_at(self, courant) -> int | None:
+        """Order at one Courant number: a leading term can vanish there (Fromm at c = 1/2)."""
+        c_value = sympy.Rational(str(courant))
+        for term in self.error_terms:
+            if term.coefficient.subs({C: c_value, U: 1, DX: 1}) != 0:
+                return term.derivative - 1
+        return self.order_overall
 
 
 class _Coefficients:
@@ -189,9 +198,9 @@ def analyse_consistency(scheme: LinearScheme) -> Consistency:
     terms = _terms(full, per_step=True)
     overall = terms[0].derivative - 1 if terms else None
     spatial_terms = _terms(lam, per_step=False)
+    error_terms = tuple(_terms(full, per_step=True, wanted=SERIES_ORDER, factor=False))
     if euler:
-        space, time, note = _split_orders(_terms(full, per_step=True, wanted=SERIES_ORDER,
-                                                 factor=False))
+        space, time, note = _split_orders(list(error_terms))
         spatial = ()
     else:
         space = spatial_terms[0].derivative - 1 if spatial_terms else None
@@ -202,4 +211,5 @@ def analyse_consistency(scheme: LinearScheme) -> Consistency:
     if overall is None:
         note = (note + "; " if note else "") + \
             f"no error term up to d^{SERIES_ORDER} q/dx^{SERIES_ORDER}: order at least {SERIES_ORDER - 1}"
-    return Consistency(scheme.label, True, space, time, overall, tuple(terms[:2]), spatial, note)
+    return Consistency(scheme.label, True, space, time, overall, tuple(terms[:2]), spatial, note,
+                       error_terms)

@@ -71,6 +71,10 @@ def analysis_document(a) -> dict:
         notes.append("order of the flux in smooth regions; it drops where the FCT correction bites")
     if s.clip is not None:
         notes.append("the scheme's own order where the clamp is inactive")
+    if order["at_courant"] is not None and order["overall"] is not None \
+            and order["at_courant"] > order["overall"]:
+        notes.append(f"order {order['at_courant']} at c = {a.courant:g}: the leading error "
+                     "term vanishes there")
     doc["order"] = {**order, "note": "; ".join(dict.fromkeys(notes))}
     first = a.consistency[0] if a.consistency else None
     doc["modified_equation"] = _terms(first.terms) if first else []
