@@ -18,11 +18,22 @@ def scheme_from_text(text: str, file: str = "<spec>", overrides=None) -> Scheme:
         spec = parse_text(text, file)
         check(spec)
         scheme = lower(spec)
+        if scheme.correct == "fct":
+            _check_fct_low_flux(spec, scheme)
     except LoomError as err:
         raise err.located(file, text) from None
     except RecursionError:
         raise LoomError("expression nested too deeply", Span(1, 1)).located(file, text) from None
     return apply_overrides(scheme, dict(overrides or {}))
+
+
+def _check_fct_low_flux(spec, scheme: Scheme) -> None:
+    """`correct fct` needs a low flux that is monotone somewhere: decided by analysis."""
+    from . import syntax
+    from .analysis.bounds import check_low_flux
+
+    low = next(s for s in spec.statements if isinstance(s, syntax.Flux) and s.kind == "low_flux")
+    check_low_flux(scheme, low.value.span)
 
 
 def load_scheme(path: str | Path, overrides=None) -> Scheme:

@@ -85,6 +85,11 @@ BAD_SPECS = [
      "'correct fct' needs a monotone 'low_flux", 3, 3),
     ("fct-with-rk", "scheme a {\n  time ssp_rk3\n  low_flux = u * q[0]\n  flux = u * q[0]\n"
      "  correct fct\n}\n", "'correct fct' needs 'time euler'", 5, 3),
+    # A low flux that is monotone nowhere cannot anchor FCT: its one-step coefficients
+    # (1 + c, -c) are never all non-negative (Godunov 1959, from memory: a linear scheme is
+    # monotone iff every coefficient is >= 0).
+    ("fct-low-flux-not-monotone", "scheme a {\n  low_flux = u * q[1]\n  flux = u * q[0]\n"
+     "  correct fct\n}\n", "the low_flux is monotone at no Courant number", 2, 14),
     ("clip-not-constant", "scheme a {\n  flux = u * q[0]\n  clip 0, q[0]\n}\n",
      "not allowed in a clip", 3, 11),
     ("clip-reversed", "scheme a {\n  flux = u * q[0]\n  clip 1, 0\n}\n",

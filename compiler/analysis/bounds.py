@@ -44,27 +44,17 @@ def low_flux_scheme(scheme) -> LinearScheme | None:
     return LinearScheme("low flux", "euler", coefficients)
 
 
-def _low_flux_error(scheme, message: str) -> LoomError:
-    """A LoomError pointing at the low_flux statement when the spec file can be read.
+def _low_flux_error(scheme, message: str, span: Span | None) -> LoomError:
+    """A LoomError at the low_flux statement (the front end passes its span)."""
+    return LoomError(message, span, file=scheme.file)
 
-    The IR keeps no source spans, so the statement is found again in the file text.
+
+def check_low_flux(scheme, span: Span | None = None) -> None:
+    """Raise a LoomError when `correct fct` has no usable monotone low_flux.
+
+    Runs in the front end (compiler.scheme_from_text), so every command refuses
+    such a spec; `span` is where the low_flux statement stands.
     """
-    try:
-        with open(scheme.file, encoding="utf-8") as handle:
-            text = handle.read()
-    except OSError:
-        return LoomError(message, file=scheme.file)
-    for number, line in enumerate(text.splitlines(), start=1):
-        code = line.split("#", 1)[0]
-        col = code.find("low_flux")
-        if col >= 0 and "=" in code[col:]:
-            span = Span(number, col + 1, number, col + 1 + len("low_flux"))
-            return LoomError(message, span, file=scheme.file, source=text)
-    return LoomError(message, file=scheme.file, source=text)
-
-
-def check_low_flux(scheme) -> None:
-    """Raise a LoomError when `correct fct` has no usable monotone low_flux."""
     if scheme.correct != "fct":
         return
     if scheme.low_face is None:
@@ -73,14 +63,14 @@ def check_low_flux(scheme) -> None:
     low = low_flux_scheme(scheme)
     if low is None:
         raise _low_flux_error(scheme, "the low_flux must be linear in q so that its "
-                              "monotonicity can be shown (for example low_flux = u * q[0])")
+                              "monotonicity can be shown (for example low_flux = u * q[0])", span)
     result = analyse_monotone(low)
     if not result.holds:
         coefficients = ", ".join(f"q[j{m:+d}]: {sympy.sstr(v)}" for m, v in result.coefficients)
         raise _low_flux_error(scheme, "the low_flux is monotone at no Courant number (its "
                               f"update coefficients {coefficients} are never all >= 0 on an "
                               "interval of c), so 'correct fct' cannot keep the solution "
-                              "within bounds")
+                              "within bounds", span)
 
 
 def analyse_bounds(scheme) -> Bounds | None:
