@@ -34,8 +34,11 @@ def register(sub) -> None:
     parser.set_defaults(run=run)
 
 
+COLUMN = 19  # wide enough for "-O3 -march=native"
+
+
 def _mega(value) -> str:
-    return "-" if value is None else f"{value / 1e6:9.1f}"
+    return f"{'-':>{COLUMN - 1}}" if value is None else f"{value / 1e6:{COLUMN - 1}.1f}"
 
 
 def render(result, found, params=()) -> str:
@@ -47,7 +50,7 @@ def render(result, found, params=()) -> str:
     for f in result.fields:
         lines.append("")
         title = f"velocity {f.field} ({f.sign_changes} sign changes)"
-        lines.append(f"{title:<{label_width}}" + "".join(f"{opt:>10}" for opt in OPT_LEVELS))
+        lines.append(f"{title:<{label_width}}" + "".join(f"{opt:>{COLUMN}}" for opt in OPT_LEVELS))
         rows = [("generated C", f.generated_c), ("hand-written C", f.handwritten_c),
                 ("streaming copy", f.stream)]
         for label, values in rows:
