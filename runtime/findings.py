@@ -153,13 +153,7 @@ class Prediction:
         """Why the solution must stay within its initial bounds at c, or None."""
         if self.clip is not None:
             return "post-step clamp"
-        if self.fct and self.bounded is not None and _within(c, *self.bounded):
-            return "flux-corrected transport"
-        if self.monotone_at(c):
-            return "monotone"
-        if self.tvd_at(c):
-            return "TVD"
-        return None
+        return self.no_new_extrema_at(c)
 
     def no_new_extrema_at(self, c: float) -> str | None:
         """Why no step may create a new extremum at c, or None (a clamp is no reason)."""
