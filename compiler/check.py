@@ -154,7 +154,7 @@ def _check_expr(expr: ast.Expr, scope: _Scope, where: str, time_method: str,
             raise LoomError(f"'q[...]' is not allowed in a {where}", expr.span)
         if integer_offset(expr.offset) is None:
             raise LoomError("the offset in q[...] must be an integer such as 0, 1 or -1",
-                            _span_of(expr.offset))
+                            expr.offset.span)
         return
     if isinstance(expr, ast.Name):
         return _check_name(expr, scope, where, time_method, arg)
@@ -234,7 +234,3 @@ def integer_offset(expr: ast.Expr) -> int | None:
     if isinstance(expr, ast.Number) and re.fullmatch(r"\d+", expr.text):
         return sign * int(expr.text)
     return None
-
-
-def _span_of(expr: ast.Expr) -> Span:
-    return expr.span

@@ -9,13 +9,14 @@ from __future__ import annotations
 
 import hashlib
 from dataclasses import dataclass, field, replace
+from functools import cached_property
 from fractions import Fraction
 
 import sympy
 
 from . import syntax as ast
 from .check import integer_offset
-from .diagnostics import LoomError, Span, did_you_mean
+from .diagnostics import LoomError, did_you_mean
 from .symbols import C, R, U, Ratio, limiter_calls, limiter_function, offsets_in, param_symbol, q
 
 MAX_EXPONENT = 64  # keeps exact arithmetic on constants from running away
@@ -55,7 +56,7 @@ class Scheme:
     file: str = field(default="<spec>", compare=False)
 
     # ---- derived facts -------------------------------------------------
-    @property
+    @cached_property  # the IR is frozen, so derived facts are computed once
     def offsets(self) -> tuple[int, ...]:
         found = set(offsets_in(self.face))
         if self.low_face is not None:
@@ -108,7 +109,7 @@ class Scheme:
             subs[call] = self.bound(lim(call.args[0]))
         return expr.xreplace(subs) if subs else expr
 
-    @property
+    @cached_property
     def fingerprint(self) -> str:
         """A stable hash of everything that decides analysis and generated code."""
         parts = [self.name, self.about, self.time, sympy.srepr(self.face),
@@ -235,8 +236,6 @@ def _face_of(flux: sympy.Expr, stmt: ast.Flux) -> sympy.Expr:
     # Prefer the user's own grouping when the flux is literally u * (...).
     if isinstance(flux, sympy.Mul) and U in flux.args:
         g = sympy.Mul(*[a for a in flux.args if a != U])
-    if not any(offsets_in(g)):
-        pass  # a flux of no q is legal (e.g. zero), if odd; analysis says so
     return g
 
 

@@ -41,11 +41,15 @@ def cache_dir() -> Path:
 
 
 def module_name(scheme: Scheme, source: str, flags: tuple[str, ...]) -> str:
+    return _hashed_name(scheme.name, source, flags)
+
+
+def _hashed_name(label: str, source: str, flags: tuple[str, ...]) -> str:
     digest = hashlib.sha256()
     for part in (source, "\0".join(flags), cffi.__version__, sys.version):
         digest.update(part.encode())
         digest.update(b"\0")
-    return f"_fluxloom_{scheme.name}_{digest.hexdigest()[:16]}"
+    return f"_fluxloom_{label}_{digest.hexdigest()[:16]}"
 
 
 def _extension_suffix() -> str:
@@ -61,14 +65,19 @@ def compile_c(scheme: Scheme, precision: str = "double", opt: str = "-O2"):
     header, kernel = sources[f"{scheme.name}.h"], sources[f"{scheme.name}.c"]
     # One translation unit: the header text stands in for the #include.
     source = kernel.replace(f'#include "{scheme.name}.h"', header, 1)
+    return compile_source(scheme.name, source, c_declarations(scheme, precision), opt)
+
+
+def compile_source(label: str, source: str, declarations: str, opt: str = "-O2"):
+    """Compile (or reuse) any C source as a cffi module named by its hash; (ffi, lib)."""
     flags = (*BUILD_FLAGS, *shlex.split(opt))
-    name = module_name(scheme, source, flags)
+    name = _hashed_name(label, source, flags)
     with _lock:
         module = _loaded.get(name)
         if module is None:
             library = cache_dir() / f"{name}{_extension_suffix()}"
             if not library.exists():
-                _build(name, source, c_declarations(scheme, precision), flags, library)
+                _build(name, source, declarations, flags, library)
             module = _load(name, library)
             _loaded[name] = module
     return module.ffi, module.lib

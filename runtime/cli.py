@@ -46,10 +46,6 @@ def build_parser(only: str | None = None) -> argparse.ArgumentParser:
     return parser
 
 
-class _ArgumentError(Exception):
-    pass
-
-
 def main(argv=None) -> int:
     argv = sys.argv[1:] if argv is None else list(argv)
     command = next((a for a in argv if not a.startswith("-")), None)

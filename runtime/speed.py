@@ -8,14 +8,10 @@ in one process, one after another, on the same arrays and velocity field.
 """
 from __future__ import annotations
 
-import hashlib
-import shlex
-import sys
 import time
 import tracemalloc
 from dataclasses import dataclass, field
 
-import cffi
 import numpy as np
 
 from fluxloom.benchmarks import c_source, counterpart
@@ -127,23 +123,10 @@ def _c_caller(ffi, function, domain: Domain):
 
 # ---- the hand-written C, compiled like generated kernels ------------------------------
 
-_HANDWRITTEN: dict[str, tuple] = {}
-
-
 def handwritten_c(opt: str):
     """(ffi, lib) of benchmarks/handwritten.c built with the generated kernels' flags."""
-    if opt not in _HANDWRITTEN:
-        declarations, source = c_source()
-        flags = (*build.BUILD_FLAGS, *shlex.split(opt))
-        digest = hashlib.sha256("\0".join([source, *flags, cffi.__version__, sys.version])
-                                .encode()).hexdigest()[:16]
-        name = f"_fluxloom_handwritten_{digest}"
-        library = build.cache_dir() / f"{name}{build._extension_suffix()}"
-        if not library.exists():
-            build._build(name, source, declarations, flags, library)
-        module = build._load(name, library)
-        _HANDWRITTEN[opt] = (module.ffi, module.lib)
-    return _HANDWRITTEN[opt]
+    declarations, source = c_source()
+    return build.compile_source("handwritten", source, declarations, opt)
 
 
 # ---- the whole measurement ----------------------------------------------------------------

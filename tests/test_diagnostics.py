@@ -139,7 +139,7 @@ def test_bytes_that_are_not_utf8(tmp_path):
     ("kappa=one", "'one' is not a number"),
     ("kappa=1/0", "'1/0' is not a number"),
 ])
-def test_bad_set_values(item, fragment, example_dir=None):
+def test_bad_set_values(item, fragment):
     from pathlib import Path
     path = Path(__file__).resolve().parents[1] / "examples" / "kappa_rk3.loom"
     with pytest.raises(LoomError) as caught:

@@ -19,7 +19,7 @@ from .dispersion import Dispersion, analyse_dispersion
 from .intervals import Span
 from .limiters import LimiterFacts, analyse_limiter
 from .monotone import Monotone, analyse_monotone
-from .stability import Stability, analyse_stability
+from .stability import Stability, analyse_stability, kind_of_interval
 from .symbol import Linearisation, linearise
 from .tvd import TVD, analyse_tvd
 
@@ -88,12 +88,7 @@ class Analysis:
 
     @property
     def stability_kind(self) -> str:
-        span = self.stable_interval
-        if span is None:
-            return "unstable"
-        if span.lo == 0 and span.hi == sympy.oo:
-            return "unconditional"
-        return "conditional"
+        return kind_of_interval(self.stable_interval)
 
     def to_json(self) -> dict:
         from .document import analysis_document

@@ -42,7 +42,11 @@ class Stability:
 
 
 def kind_of(stable: CourantSet) -> str:
-    main = stable.main
+    return kind_of_interval(stable.main)
+
+
+def kind_of_interval(main) -> str:
+    """unstable | unconditional | conditional, from the stable interval nearest c = 0."""
     if main is None:
         return "unstable"
     if main.lo == 0 and main.hi == sympy.oo:
