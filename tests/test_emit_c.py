@@ -400,7 +400,7 @@ static double uniform(void) /* xorshift64: deterministic data, no library state 
 /* Arrays of exactly the documented sizes, so any read or write past them is caught. */
 #define EXERCISE(NAME)                                                                  \
     do {                                                                                \
-        static const size_t sizes[] = {1, 2, 3, 7, 511, 512, 513, 1100};                \
+        static const size_t sizes[] = {1, 2, 3, 7, 127, 128, 129, 511, 512, 513, 1100};  \
         for (size_t s = 0; s < sizeof sizes / sizeof sizes[0]; ++s) {                   \
             const size_t n = sizes[s], cells = n + 2 * NAME##_HALO;                     \
             const size_t faces = n + 1 + 2 * NAME##_FACE_HALO;                          \
