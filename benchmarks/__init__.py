@@ -1,8 +1,9 @@
 """Hand-written kernels `fluxloom bench` measures generated code against.
 
 handwritten.c: straightforward C for first-order upwind, Lax-Wendroff and van
-Leer limited Lax-Wendroff, plus a streaming copy (reads the input and writes
-the output once: the memory-bandwidth ceiling of any one-sweep kernel).
+Leer limited Lax-Wendroff, plus two streaming references: a sweep that reads a
+step's inputs (state and face velocities) and writes its output once each (the
+memory-bandwidth ceiling of any one-sweep step), and a plain copy of the state.
 handwritten_numpy.py: the same three schemes as idiomatic whole-array numpy.
 
 `counterpart(scheme)` says which hand-written kernel computes the same thing as
