@@ -178,6 +178,7 @@ def measure(scheme: Scheme, cells: int, steps: int, repeats: int = 5,
             return Domain(cells, halo, face_halo, u, work, dt_dx)
 
         runners = {}
+        streaming_domain = domain(0)
         for opt, (ffi, lib) in libraries.items():
             d = domain(module.HALO, module.FACE_HALO, lib_workspace(lib, scheme.name, cells))
             runners["generated C", opt] = _c_caller(ffi, getattr(lib, f"{scheme.name}_step"), d)
@@ -186,8 +187,8 @@ def measure(scheme: Scheme, cells: int, steps: int, repeats: int = 5,
                 d = domain(hand.halo, 0, cells + 1)
                 runners["hand-written C", opt] = _c_caller(
                     hand_ffi, getattr(hand_lib, hand.c_function), d)
-            runners["stream", opt] = _stream_caller(hand_ffi, hand_lib, domain(0))
-            runners["sweep", opt] = _sweep_caller(hand_ffi, hand_lib, domain(0))
+            runners["stream", opt], runners["sweep", opt] = _streaming_callers(
+                hand_ffi, hand_lib, streaming_domain)
         runners["generated numpy", None] = _numpy_caller(
             module.step, domain(module.HALO, module.FACE_HALO, module.workspace_size(cells)),
             module.workspace_size(cells) > 0)
@@ -215,17 +216,13 @@ def measure(scheme: Scheme, cells: int, steps: int, repeats: int = 5,
     return BenchResult(scheme.name, cells, steps, hand.name if hand else None, tuple(results), memory)
 
 
-def _stream_caller(ffi, lib, domain: Domain):
-    source, target = (ffi.from_buffer("double[]", a) for a in domain.arrays)
-    n = domain.n
-    return lambda: lib.stream_copy(n, source, target)
-
-
-def _sweep_caller(ffi, lib, domain: Domain):
+def _streaming_callers(ffi, lib, domain: Domain):
+    """(copy, sweep): the two streaming references on one domain without halos."""
     source, target = (ffi.from_buffer("double[]", a) for a in domain.arrays)
     u = ffi.from_buffer("double[]", domain.u_face)
     n = domain.n
-    return lambda: lib.stream_sweep(n, source, u, target)
+    return (lambda: lib.stream_copy(n, source, target),
+            lambda: lib.stream_sweep(n, source, u, target))
 
 
 def _numpy_caller(step_function, domain: Domain, with_work: bool):

@@ -11,3 +11,18 @@ EXAMPLE_FILES = sorted(EXAMPLES.glob("*.loom"))
 @pytest.fixture(params=EXAMPLE_FILES, ids=[p.stem for p in EXAMPLE_FILES])
 def example_path(request) -> Path:
     return request.param
+
+
+def outputs_under_hash_seeds(script: str, args, seeds) -> set[str]:
+    """The stripped stdout of `python -c script *args` run once per PYTHONHASHSEED."""
+    import os
+    import subprocess
+    import sys
+
+    outputs = set()
+    for seed in seeds:
+        env = dict(os.environ, PYTHONHASHSEED=seed)
+        done = subprocess.run([sys.executable, "-c", script, *args], env=env,
+                              capture_output=True, text=True, check=True)
+        outputs.add(done.stdout.strip())
+    return outputs

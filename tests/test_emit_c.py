@@ -10,19 +10,17 @@ point, zero velocity, FCT and clip.
 from __future__ import annotations
 
 import hashlib
-import json
 import os
 import re
 import shutil
 import subprocess
-import sys
 import zlib
 from importlib.metadata import version
 
 import numpy as np
 import pytest
 import sympy
-from conftest import EXAMPLE_FILES, EXAMPLES
+from conftest import EXAMPLE_FILES, outputs_under_hash_seeds
 
 from fluxloom.compiler import load_scheme, scheme_from_text
 from fluxloom.compiler.emit import c_files
@@ -105,12 +103,7 @@ def test_generation_is_deterministic_across_processes():
               "            digest.update(name.encode() + text.encode())\n"
               "print(digest.hexdigest())\n")
     paths = [str(p) for p in EXAMPLE_FILES]
-    digests = set()
-    for seed in ("1", "12345"):
-        env = dict(os.environ, PYTHONHASHSEED=seed)
-        done = subprocess.run([sys.executable, "-c", script, *paths], env=env,
-                              capture_output=True, text=True, check=True)
-        digests.add(done.stdout.strip())
+    digests = outputs_under_hash_seeds(script, paths, ("1", "12345"))
     here = hashlib.sha256()
     for path in paths:
         for precision in PRECISIONS:

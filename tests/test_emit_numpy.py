@@ -19,7 +19,7 @@ from fluxloom.compiler.symbols import C, Ratio, q
 from fluxloom.runtime.kernel import (KernelError, fill_periodic, load_kernel, numpy_module,
                                      run_periodic)
 
-from conftest import EXAMPLES
+from conftest import EXAMPLES, outputs_under_hash_seeds
 
 x, y, z = sympy.symbols("x y z", real=True)
 
@@ -349,10 +349,6 @@ def test_module_is_generated_once_per_fingerprint():
 
 def test_generated_text_does_not_depend_on_the_hash_seed():
     """Same spec, same bytes, also across processes with different string hashing."""
-    import os
-    import subprocess
-    import sys
-
     script = ("import hashlib, sys\n"
               "from fluxloom.compiler import load_scheme\n"
               "from fluxloom.compiler.emit.numpy_ import numpy_source\n"
@@ -361,12 +357,7 @@ def test_generated_text_does_not_depend_on_the_hash_seed():
               "    h.update(numpy_source(load_scheme(path), 'double', ('x',)).encode())\n"
               "print(h.hexdigest())\n")
     specs = [str(EXAMPLES / f"{name}.loom") for name in ("lw_koren", "kappa_rk3", "lw_fct")]
-    digests = set()
-    for seed in ("1", "2"):
-        env = dict(os.environ, PYTHONHASHSEED=seed)
-        done = subprocess.run([sys.executable, "-c", script, *specs], env=env,
-                              capture_output=True, text=True, check=True)
-        digests.add(done.stdout.strip())
+    digests = outputs_under_hash_seeds(script, specs, ("1", "2"))
     assert len(digests) == 1
 
 
