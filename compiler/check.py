@@ -5,7 +5,9 @@ text. Raises LoomError on the first problem found, in source order.
 """
 from __future__ import annotations
 
+import keyword
 import re
+import sys
 
 from . import syntax as ast
 from .diagnostics import LoomError, Span, did_you_mean
@@ -25,6 +27,16 @@ auto break case char const continue default do double else enum extern float for
 goto if inline int long register restrict return short signed sizeof static struct
 switch typedef union unsigned void volatile while _Bool _Complex _Imaginary
 """.split())
+
+FORTRAN_NAME_LIMIT = 63
+"""Characters of a Fortran 2003 name; the interface module spells NAME_workspace_size
+and NAME_param_P, so scheme and param names are bounded to fit."""
+LONGEST_FORTRAN_SUFFIX = "_workspace_size"
+PARAM_INFIX = "_param_"
+
+# The numpy kernel is written as NAME.py: a file named like a module Python or the
+# kernel itself imports would shadow that module for every script in its folder.
+SHADOWED_MODULES = frozenset(sys.stdlib_module_names) | {"numpy", "fluxloom"}
 
 _C_IDENTIFIER = re.compile(r"^[A-Za-z_][A-Za-z0-9_]*$")
 _SCHEME_HEAD = re.compile(r"^[ \t]*scheme[ \t]+([^ \t{\n]+)", re.MULTILINE)
@@ -67,6 +79,7 @@ def check(spec: ast.Spec) -> None:
                         name.span)
     if not _C_IDENTIFIER.match(name.id):
         raise LoomError(f"scheme name '{name.id}' is not a C identifier", name.span)
+    _check_scheme_name_targets(name)
 
     seen: dict[str, ast.Statement] = {}
     time_method = "euler"
@@ -101,10 +114,13 @@ def check(spec: ast.Spec) -> None:
 
     scope = _Scope({s.name.id: s.name.span.line for s in spec.statements
                     if isinstance(s, (ast.Param, ast.Let, ast.LimiterDef))})
+    params_anywhere = {s.name.id: s.name.span.line for s in spec.statements
+                       if isinstance(s, ast.Param)}
     for stmt in spec.statements:
         if isinstance(stmt, (ast.Param, ast.Let, ast.LimiterDef)):
             _define(scope, stmt)
         if isinstance(stmt, ast.Param):
+            _check_param_name(spec.name, stmt, scope.params)
             _check_expr(stmt.value, scope, "param", time_method)
             scope.params[stmt.name.id] = stmt
         elif isinstance(stmt, ast.Let):
@@ -117,6 +133,10 @@ def check(spec: ast.Spec) -> None:
             arg = stmt.args[0]
             if arg.id in RESERVED:
                 raise LoomError(f"'{arg.id}' cannot name a limiter's argument", arg.span)
+            if arg.id in params_anywhere:
+                raise LoomError(f"the limiter's argument '{arg.id}' has the name of the param on "
+                                f"line {params_anywhere[arg.id]}; inside the limiter it would hide "
+                                "that param: rename one of them", arg.span)
             _check_expr(stmt.body, scope, "limiter", time_method, arg=arg.id)
             scope.limiters[stmt.name.id] = stmt
         elif isinstance(stmt, ast.Flux):
@@ -124,6 +144,41 @@ def check(spec: ast.Spec) -> None:
         elif isinstance(stmt, ast.Clip):
             _check_expr(stmt.low, scope, "clip", time_method)
             _check_expr(stmt.high, scope, "clip", time_method)
+
+
+def _check_scheme_name_targets(name: ast.Name) -> None:
+    """The scheme name names files, C functions, a Fortran module and a Python module."""
+    if not name.id[:1].isalpha():
+        raise LoomError(f"scheme name '{name.id}' must start with a letter: Fortran names "
+                        "must, and C reserves names starting with '_'", name.span)
+    most = FORTRAN_NAME_LIMIT - len(LONGEST_FORTRAN_SUFFIX)
+    if len(name.id) > most:
+        raise LoomError(f"scheme name '{name.id[:20]}...' has {len(name.id)} characters; at most "
+                        f"{most} fit the Fortran interface's names ({name.id[:8]}..."
+                        f"{LONGEST_FORTRAN_SUFFIX} may have {FORTRAN_NAME_LIMIT})", name.span)
+    if keyword.iskeyword(name.id) or keyword.issoftkeyword(name.id):
+        raise LoomError(f"scheme name '{name.id}' is a Python keyword; the numpy kernel "
+                        f"{name.id}.py could not be imported by name", name.span)
+    if name.id in SHADOWED_MODULES:
+        raise LoomError(f"scheme name '{name.id}' is the name of a Python module; the numpy "
+                        f"kernel {name.id}.py would shadow it for every script in its folder",
+                        name.span)
+
+
+def _check_param_name(scheme: ast.Name, stmt: ast.Param, params: dict[str, ast.Param]) -> None:
+    """Param names reach the C header (case-sensitive) and Fortran (case-insensitive)."""
+    name = stmt.name
+    folded = {p.lower(): p for p in params}
+    other = folded.get(name.id.lower())
+    if other is not None and other != name.id:
+        raise LoomError(f"params '{other}' (line {params[other].name.span.line}) and '{name.id}' "
+                        "differ only in letter case; Fortran, which ignores case, could not "
+                        "tell them apart", name.span)
+    spelled = f"{scheme.id}{PARAM_INFIX}{name.id}"
+    if len(spelled) > FORTRAN_NAME_LIMIT:
+        raise LoomError(f"param name '{name.id}' is too long: the Fortran interface names it "
+                        f"{scheme.id}{PARAM_INFIX}..., {len(spelled)} characters, and a Fortran "
+                        f"name may have {FORTRAN_NAME_LIMIT}", name.span)
 
 
 def _define(scope: _Scope, stmt) -> None:

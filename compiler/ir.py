@@ -10,16 +10,16 @@ from __future__ import annotations
 import hashlib
 from dataclasses import dataclass, field, replace
 from functools import cached_property
-from fractions import Fraction
 
 import sympy
 
+from . import constants
 from . import syntax as ast
 from .check import integer_offset
-from .diagnostics import LoomError, did_you_mean
-from .symbols import C, R, U, Ratio, limiter_calls, limiter_function, offsets_in, param_symbol, q
+from .diagnostics import LoomError, Span, did_you_mean
+from .symbols import (C, R, U, Ratio, limiter_calls, limiter_function, limiter_name_of, offsets_in,
+                      param_symbol, q)
 
-MAX_EXPONENT = 64  # keeps exact arithmetic on constants from running away
 SMOOTH_BREAKERS = (sympy.Abs, sympy.Min, sympy.Max, sympy.sign, Ratio)
 
 
@@ -28,6 +28,8 @@ class Param:
     name: str
     value: sympy.Expr  # exact (a Rational where the user wrote one)
     symbol: sympy.Symbol = field(compare=False)
+    definition: sympy.Expr | None = field(default=None, compare=False)
+    """The value as written, in earlier params: `--set` of those params carries through."""
 
 
 @dataclass(frozen=True)
@@ -54,6 +56,11 @@ class Scheme:
     params: tuple[Param, ...]
     limiters: tuple[Limiter, ...]
     file: str = field(default="<spec>", compare=False)
+    clip_definition: tuple[sympy.Expr, sympy.Expr] | None = field(default=None, compare=False)
+    """The clip bounds as written, in params (clip holds their values)."""
+    param_powers: tuple[tuple[sympy.Expr, sympy.Expr], ...] = field(default=(), compare=False)
+    """(base, exponent) of every power whose exponent is made of params: their values
+    must keep it bounded (constants.check_power) whatever `--set` gives."""
 
     # ---- derived facts -------------------------------------------------
     @cached_property  # the IR is frozen, so derived facts are computed once
@@ -105,7 +112,7 @@ class Scheme:
         """expr with each limiter call replaced by the limiter's body."""
         subs = {}
         for call in limiter_calls(expr, self.limiter_names):
-            lim = self.limiter(type(call).__name__)
+            lim = self.limiter(limiter_name_of(call))
             subs[call] = self.bound(lim(call.args[0]))
         return expr.xreplace(subs) if subs else expr
 
@@ -120,11 +127,40 @@ class Scheme:
         return hashlib.sha256("\n".join(parts).encode()).hexdigest()[:16]
 
     def with_params(self, overrides: dict[str, sympy.Expr]) -> "Scheme":
-        """A copy with param defaults replaced (names already validated)."""
+        """A copy with param defaults replaced (names already validated).
+
+        Params defined from other params and the clip bounds follow the new values;
+        every value is checked as the front end checks a constant (errors: `--set`).
+        """
         if not overrides:
             return self
-        params = tuple(replace(p, value=overrides.get(p.name, p.value)) for p in self.params)
-        return replace(self, params=params)
+        values: dict[sympy.Symbol, sympy.Expr] = {}
+        params = []
+        for p in self.params:
+            if p.name in overrides:
+                value = sympy.sympify(overrides[p.name])
+            elif p.definition is not None:
+                value = p.definition.xreplace(values)
+            else:
+                value = p.value
+            constants.check_range(value, None, "--set", what=f"value of param '{p.name}'")
+            values[p.symbol] = value
+            params.append(replace(p, value=value))
+        for base, exponent in self.param_powers:
+            base, exponent = base.xreplace(values), exponent.xreplace(values)
+            try:
+                constants.check_power(base, exponent, None)
+            except LoomError as err:
+                raise LoomError(err.message, file="--set") from None
+        clip = self.clip
+        if self.clip_definition is not None:
+            clip = tuple(v.xreplace(values) for v in self.clip_definition)
+            for v in clip:
+                constants.check_range(v, None, "--set", what="clip bound")
+            if not clip[0] < clip[1]:
+                raise LoomError(f"clip needs LO < HI, and now has {clip[0]} and {clip[1]}",
+                                file="--set")
+        return replace(self, params=tuple(params), clip=clip)
 
 
 # ---- lowering ------------------------------------------------------------
@@ -133,10 +169,9 @@ _FUNCS = {"abs": sympy.Abs, "sign": sympy.sign, "sqrt": sympy.sqrt,
           "min": sympy.Min, "max": sympy.Max, "ratio": Ratio}
 
 
-def number(text: str) -> sympy.Rational:
-    """Decimal text kept exact: 0.1 -> 1/10."""
-    frac = Fraction(text)
-    return sympy.Rational(frac.numerator, frac.denominator)
+def number(text: str, span: Span | None = None) -> sympy.Rational:
+    """Decimal text kept exact: 0.1 -> 1/10 (size bounded: constants.literal)."""
+    return constants.literal(text, span)
 
 
 class _Lowerer:
@@ -144,10 +179,25 @@ class _Lowerer:
         self.spec = spec
         self.env: dict[str, sympy.Expr] = {"u": U, "c": C}
         self.limiters: dict[str, sympy.FunctionClass] = {}
+        self.param_values: dict[sympy.Symbol, sympy.Expr] = {}
+        self.param_powers: list[tuple[sympy.Expr, sympy.Expr]] = []
 
     def expr(self, node: ast.Expr, local: dict[str, sympy.Expr] | None = None) -> sympy.Expr:
+        value = self._expr(node, local)
+        if value.is_number:
+            constants.check_exact(value, node.span)
+        return value
+
+    def _mixed(self, node_values) -> None:
+        """Constants that meet the kernel's variables must fit every precision."""
+        if any(not v.is_number for _, v in node_values):
+            for node, v in node_values:
+                if v.is_number:
+                    constants.check_range(v, node.span)
+
+    def _expr(self, node: ast.Expr, local: dict[str, sympy.Expr] | None) -> sympy.Expr:
         if isinstance(node, ast.Number):
-            return number(node.text)
+            return number(node.text, node.span)
         if isinstance(node, ast.Name):
             if local and node.id in local:
                 return local[node.id]
@@ -161,29 +211,58 @@ class _Lowerer:
             a, b = self.expr(node.left, local), self.expr(node.right, local)
             if node.op == "/" and b.is_zero:
                 raise LoomError("division by zero", node.right.span)
-            if node.op == "^" and b.is_number and abs(b) > MAX_EXPONENT:
-                raise LoomError(f"exponent {b} is too large (at most {MAX_EXPONENT} here)",
-                                node.right.span)
+            if node.op == "^":
+                self._power(a, b, node)
+            self._mixed([(node.left, a), (node.right, b)])
             return {"+": lambda: a + b, "-": lambda: a - b, "*": lambda: a * b,
                     "/": lambda: a / b, "^": lambda: a ** b}[node.op]()
         if isinstance(node, ast.Call):
             args = [self.expr(a, local) for a in node.args]
+            self._mixed(list(zip(node.args, args)))
             if node.func.id in self.limiters:
                 return self.limiters[node.func.id](args[0])
+            if node.func.id == "sqrt" and args[0].is_number and args[0].is_negative:
+                raise LoomError(f"sqrt of the negative constant {args[0]} is not a real number",
+                                node.span)
             return _FUNCS[node.func.id](*args)
         raise AssertionError(f"unhandled node {type(node).__name__}")
 
-    def constant(self, node: ast.Expr, what: str) -> sympy.Expr:
-        value = self.expr(node)
-        if not (value.is_number and value.is_real):
+    def _power(self, base: sympy.Expr, exponent: sympy.Expr, node: ast.Binary) -> None:
+        """Bound a power before sympy computes it; params in an exponent count with
+        their values (and again whenever `--set` changes them)."""
+        if exponent.is_number:
+            constants.check_power(base, exponent, node.right.span)
+            return
+        if exponent.free_symbols and exponent.free_symbols <= set(self.param_values):
+            constants.check_power(base.xreplace(self.param_values),
+                                  exponent.xreplace(self.param_values), node.right.span)
+            self.param_powers.append((base, exponent))
+
+    def constant(self, node: ast.Expr, what: str) -> tuple[sympy.Expr, sympy.Expr]:
+        """(value, definition): a constant made of numbers and earlier params."""
+        definition = self.expr(node)
+        value = definition.xreplace(self.param_values)
+        if not value.is_number:
             raise LoomError(f"{what} must be a real constant", node.span)
-        return value
+        constants.check_range(value, node.span, what=what)
+        return value, definition
+
+    def check_kernel_constants(self, expr: sympy.Expr, node: ast.Expr) -> None:
+        """Constants sympy combined across the user's terms (1e30 * q[0] * 1e30) must
+        fit every precision too; located at the expression."""
+        for sub in sympy.preorder_traversal(expr):
+            if isinstance(sub, sympy.Expr) and sub.is_number:
+                try:
+                    constants.check_range(sub, node.span)
+                except LoomError as err:
+                    raise LoomError(f"{err.message} (constants of this expression combine "
+                                    "into it)", node.span) from None
 
 
 def lower(spec: ast.Spec) -> Scheme:
     """Build the IR from a checked AST."""
     low = _Lowerer(spec)
-    about, time, correct, clip = "", "euler", None, None
+    about, time, correct, clip, clip_definition = "", "euler", None, None, None
     face = low_face = None
     params: list[Param] = []
     limiters: list[Limiter] = []
@@ -194,16 +273,22 @@ def lower(spec: ast.Spec) -> Scheme:
             time = stmt.method.id
         elif isinstance(stmt, ast.Param):
             sym = param_symbol(stmt.name.id)
-            params.append(Param(stmt.name.id, low.constant(stmt.value, "a param value"), sym))
+            value, definition = low.constant(stmt.value, "param value")
+            params.append(Param(stmt.name.id, value, sym,
+                                definition if definition.free_symbols else None))
             low.env[stmt.name.id] = sym
+            low.param_values[sym] = value
         elif isinstance(stmt, ast.Let):
             low.env[stmt.name.id] = low.expr(stmt.value)
         elif isinstance(stmt, ast.LimiterDef):
             body = low.expr(stmt.body, {stmt.args[0].id: R})
+            low.check_kernel_constants(body, stmt.body)
             limiters.append(Limiter(stmt.name.id, body))
             low.limiters[stmt.name.id] = limiter_function(stmt.name.id)
         elif isinstance(stmt, ast.Flux):
-            g = _face_of(low.expr(stmt.value), stmt)
+            flux = low.expr(stmt.value)
+            low.check_kernel_constants(flux, stmt.value)
+            g = _face_of(flux, stmt)
             if stmt.kind == "flux":
                 face = g
             else:
@@ -211,14 +296,15 @@ def lower(spec: ast.Spec) -> Scheme:
         elif isinstance(stmt, ast.Correct):
             correct = stmt.method.id
         elif isinstance(stmt, ast.Clip):
-            values = dict((p.symbol, p.value) for p in params)
-            lo = low.constant(stmt.low, "a clip bound").subs(values)
-            hi = low.constant(stmt.high, "a clip bound").subs(values)
+            lo, lo_definition = low.constant(stmt.low, "clip bound")
+            hi, hi_definition = low.constant(stmt.high, "clip bound")
             if not lo < hi:
                 raise LoomError(f"clip needs LO < HI, given {lo} and {hi}", stmt.span)
             clip = (lo, hi)
+            clip_definition = (lo_definition, hi_definition)
     return Scheme(spec.name.id, about, time, face, low_face, correct, clip,
-                  tuple(params), tuple(limiters), spec.file)
+                  tuple(params), tuple(limiters), spec.file,
+                  clip_definition if clip is not None else None, tuple(low.param_powers))
 
 
 def _face_of(flux: sympy.Expr, stmt: ast.Flux) -> sympy.Expr:
@@ -250,14 +336,23 @@ def parse_override(text: str) -> tuple[str, list[sympy.Expr]]:
     values = []
     for item in value.split(","):
         item = item.strip()
+        num, _, den = item.partition("/")
+        sign = -1 if num.strip().startswith("-") else 1
         try:
-            num, _, den = item.partition("/")
-            frac = Fraction(num.strip()) / (Fraction(den.strip()) if den else 1)
-        except (ValueError, ZeroDivisionError):
+            top = constants.literal(num.strip().lstrip("+-"), where=f"--set {name}")
+            bottom = constants.literal(den.strip(), where=f"--set {name}") if den else 1
+        except LoomError as err:
+            if "not a number" not in err.message:
+                raise
             raise LoomError(f"--set {name}: '{item}' is not a number "
                             "(use an integer, a decimal or a fraction such as 1/3)",
                             file="--set") from None
-        values.append(sympy.Rational(frac.numerator, frac.denominator))
+        if bottom == 0:
+            raise LoomError(f"--set {name}: '{item}' is not a number (it divides by zero)",
+                            file="--set")
+        value = sign * top / bottom
+        constants.check_range(value, None, f"--set {name}")
+        values.append(value)
     return name, values
 
 

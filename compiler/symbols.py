@@ -8,6 +8,7 @@ from __future__ import annotations
 import re
 
 import sympy
+from sympy.core.function import AppliedUndef, UndefinedFunction
 
 U = sympy.Symbol("u", real=True)
 """Face velocity (signed). The flux is U times the face expression g."""
@@ -27,7 +28,9 @@ def q(k: int) -> sympy.Symbol:
 
 
 def offset_of(symbol: sympy.Symbol) -> int | None:
-    """The offset k of a q(k) symbol, or None for any other symbol."""
+    """The offset k of a q(k) symbol, or None for any other symbol (a param named q_0 too)."""
+    if type(symbol) is not sympy.Symbol:
+        return None
     match = _Q_NAME.match(symbol.name)
     if not match:
         return None
@@ -40,8 +43,14 @@ def offsets_in(expr: sympy.Expr) -> tuple[int, ...]:
     return tuple(sorted(k for k in found if k is not None))
 
 
-def param_symbol(name: str) -> sympy.Symbol:
-    return sympy.Symbol(name, real=True)
+class ParamSymbol(sympy.Symbol):
+    """A user's param. Its own class, so that whatever it is called (r, q_0, t0, c0)
+    it never equals the limiter argument, a cell value or a generated temporary, and
+    printers find it by class (`_print_ParamSymbol`), never by name."""
+
+
+def param_symbol(name: str) -> ParamSymbol:
+    return ParamSymbol(name, real=True)
 
 
 class Ratio(sympy.Function):
@@ -59,13 +68,34 @@ class Ratio(sympy.Function):
         return None
 
 
+class LimiterApplication(AppliedUndef):
+    """A named limiter applied inside a face expression.
+
+    Each limiter gets its own subclass (`limiter_function`), named `limiter_NAME`
+    so that no user name can coincide with a sympy class (printers dispatch on class
+    names: a limiter called Abs must not print as abs). `limiter_name` is the name
+    the user wrote; read it with `limiter_name_of`.
+    """
+
+    limiter_name = ""
+
+    def _sympystr(self, printer):
+        return f"{self.limiter_name}({', '.join(printer._print(a) for a in self.args)})"
+
+
 def limiter_function(name: str) -> sympy.FunctionClass:
     """The undefined function that stands for a named limiter inside a flux."""
-    return sympy.Function(name, real=True)
+    return UndefinedFunction(f"limiter_{name}", bases=(LimiterApplication,),
+                             __dict__={"limiter_name": name}, real=True)
+
+
+def limiter_name_of(call: sympy.Expr) -> str:
+    """The user's name of the limiter a LimiterApplication applies."""
+    return call.limiter_name
 
 
 def limiter_calls(expr: sympy.Expr, names) -> list[sympy.Expr]:
     """Every application of a named limiter inside expr, in a stable order."""
     names = set(names)
-    calls = {a for a in expr.atoms(sympy.Function) if type(a).__name__ in names}
+    calls = {a for a in expr.atoms(LimiterApplication) if a.limiter_name in names}
     return sorted(calls, key=sympy.default_sort_key)

@@ -88,7 +88,7 @@ def test_precision_and_params_reach_the_files(tmp_path):
     spec = EXAMPLES / "kappa_rk3.loom"
     assert build(spec, "--precision", "float", "--set", "kappa=1/2", "-o", tmp_path) == 0
     python = (tmp_path / "kappa_rk3.py").read_text()
-    assert "REAL = np.float32" in python and "param_kappa = 1/2" in python
+    assert "REAL = np.float32" in python and "param_kappa = REAL(0.5)" in python
     assert "float" in (tmp_path / "kappa_rk3.h").read_text()
 
 

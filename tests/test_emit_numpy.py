@@ -59,9 +59,11 @@ def test_ratio_is_zero_where_the_denominator_is_and_never_warns():
 
 
 def test_names_of_the_language():
+    from fluxloom.compiler.symbols import limiter_function, param_symbol
+
     printer = NumpyKernelPrinter(limiter_names=["vanleer"], param_names=["kappa"])
-    vanleer = sympy.Function("vanleer", real=True)
-    text = printer.doprint(q(-1) + q(0) * C + vanleer(q(1)) * sympy.Symbol("kappa", real=True))
+    vanleer = limiter_function("vanleer")
+    text = printer.doprint(q(-1) + q(0) * C + vanleer(q(1)) * param_symbol("kappa"))
     for name in ("q_m1", "q_0", "c", "limiter_vanleer(q_1)", "param_kappa"):
         assert name in text
 

@@ -16,7 +16,7 @@ from functools import cached_property
 import numpy
 import sympy
 
-from ..symbols import C, R, Ratio, limiter_calls, offset_of
+from ..symbols import C, R, Ratio, limiter_calls, limiter_name_of, offset_of
 from . import piecewise
 from .timemethods import Z, stability_polynomial
 
@@ -215,7 +215,7 @@ def linearise(scheme, face: sympy.Expr | None = None) -> Linearisation:
     # Smooth monotone data: r = 1 + O(dx); psi(r) ~ psi(1) + psi'(1) (r - 1).
     slopes = {}
     for call in calls:
-        body = scheme.bound(scheme.limiter(type(call).__name__).body)
+        body = scheme.bound(scheme.limiter(limiter_name_of(call)).body)
         slopes[call] = limiter_slopes(body)
     sides = [("right", 1), ("left", 0)]
     seen = set()
@@ -261,9 +261,9 @@ def linearise(scheme, face: sympy.Expr | None = None) -> Linearisation:
     note = "; ".join(notes) if notes else (
         "limiters linearised at r = 1 (value and slope) for smooth monotone data; "
         "bounding schemes with each limiter frozen at 0 and at psi(1)")
-    curved = tuple(type(call).__name__ for call in calls
+    curved = tuple(limiter_name_of(call) for call in calls
                    if any(v is None or v != 0 for v in limiter_curvature(
-                       scheme.bound(scheme.limiter(type(call).__name__).body))))
+                       scheme.bound(scheme.limiter(limiter_name_of(call)).body))))
     return Linearisation(tuple(smooth), tuple(bounding), False, note, tuple(dict.fromkeys(curved)))
 
 

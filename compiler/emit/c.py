@@ -14,10 +14,12 @@ from sympy.codegen.ast import float32, float64, real
 from sympy.printing.c import C99CodePrinter
 from sympy.printing.precedence import PRECEDENCE
 
+from ..constants import nearest, shortest_text
 from ..diagnostics import LoomError
 from ..ir import Scheme
-from ..symbols import C, R, offset_of, q
+from ..symbols import C, R, LimiterApplication, limiter_name_of, offset_of, q
 from .environment import render
+from .limited import FLOOR_EXPONENT, LimiterFormCall
 from .plan import FaceProgram, KernelPlan, banner_lines, plan_kernel
 
 PRECISIONS = {"double": float64, "float": float32}
@@ -35,23 +37,82 @@ def check_precision(precision: str) -> None:
 
 
 class KernelPrinter(C99CodePrinter):
-    """Prints IR expressions as C for one scheme at one precision."""
+    """Prints IR expressions as C for one scheme at one precision.
+
+    User names never print as themselves: params are the header's macros
+    NAME_PARAM_p and limiters the functions NAME_limiter_f, found by class
+    (ParamSymbol, LimiterApplication), so no name can take another's meaning.
+    Every constant prints as one literal of the kernel's precision, rounded once
+    (compiler/constants.py). User text reaches C only through `escape_text`.
+    """
 
     printmethod = "_fluxloom_c"
 
     def __init__(self, plan: KernelPlan, precision: str = "double"):
         check_precision(precision)
-        super().__init__({"type_aliases": {real: PRECISIONS[precision]}, "strict": True})
+        # order "none": terms as sympy holds them, as the numpy printer prints them, so
+        # both back ends round in the same order
+        super().__init__({"type_aliases": {real: PRECISIONS[precision]}, "strict": True,
+                          "order": "none"})
         self.plan = plan
+        self.precision = precision
         self.ctype = "float" if precision == "float" else "double"
-        self.param_names = {name for name, _ in plan.params}
         self.limiter_names = {lim.name for lim in plan.limiters}
         self.helpers_used: set[str] = set()
 
-    # -- names -------------------------------------------------------------
+    # -- user text ---------------------------------------------------------
+    @staticmethod
+    def escape_text(text: str) -> str:
+        """Any string as text that is inert both inside a C comment and between the
+        quotes of a C string literal (the literal's value is the text's UTF-8).
+
+        Printable characters stay as they are, except that a backslash and a quote
+        are escaped, '/' after '*' and '*' after '/' become octal escapes (no comment
+        can end or begin), and a '?' after '?' is escaped (no trigraph). Everything
+        else (control characters, NUL, line and paragraph separators, format
+        characters, lone surrogates) becomes octal escapes of its UTF-8 bytes.
+        """
+        out: list[str] = []
+        previous = ""
+        for ch in text:
+            if ch == "\\":
+                piece = "\\\\"
+            elif ch == '"':
+                piece = '\\"'
+            elif ch == "/" and previous == "*":
+                piece = "\\057"
+            elif ch == "*" and previous == "/":
+                piece = "\\052"
+            elif ch == "?" and previous == "?":
+                piece = "\\?"
+            elif " " <= ch <= "~" or (ord(ch) >= 0xA0 and ch.isprintable()):
+                piece = ch
+            else:
+                piece = "".join(f"\\{b:03o}" for b in ch.encode("utf-8", "surrogatepass"))
+            out.append(piece)
+            previous = ch
+        return "".join(out)
+
+    # -- names and numbers -------------------------------------------------
+    def _print(self, expr, **kwargs):
+        if isinstance(expr, sympy.Expr) and expr.is_number:
+            return self.real_literal(expr)
+        # sympy dispatches a function subclass by its own name only: route these here
+        if isinstance(expr, LimiterApplication):
+            return self._print_LimiterApplication(expr)
+        if isinstance(expr, LimiterFormCall):
+            return self._print_LimiterFormCall(expr)
+        return super()._print(expr, **kwargs)
+
+    def real_literal(self, value: sympy.Expr) -> str:
+        """The constant rounded once to the kernel's precision, as a C literal."""
+        text = shortest_text(nearest(value, self.precision), self.precision)
+        return text + "F" if self.precision == "float" else text
+
+    def _print_ParamSymbol(self, expr):
+        return f"{self.plan.name}_PARAM_{expr.name}"
+
     def _print_Symbol(self, expr):
-        if expr.name in self.param_names:
-            return f"{self.plan.name}_PARAM_{expr.name}"
         if expr == C:
             return "c"
         if expr == R:
@@ -71,11 +132,25 @@ class KernelPrinter(C99CodePrinter):
     def _print_Ratio(self, expr):
         return self._call("ratio", *expr.args)
 
-    def _print_Function(self, expr):
-        name = type(expr).__name__
-        if name in self.limiter_names:
-            return f"{self.plan.name}_limiter_{name}({self._print(expr.args[0])})"
-        return super()._print_Function(expr)
+    def _print_LimiterFormCall(self, expr) -> str:
+        form = type(expr)
+        return (f"{self.plan.name}_{form.kind}_{form.limiter_name}"
+                f"({', '.join(self._print(a) for a in expr.args)})")
+
+    def _print_ScaleDown(self, expr):
+        return self._call("scale_down", *expr.args)
+
+    def _print_ScaleUp(self, expr):
+        return self._call("scale_up", *expr.args)
+
+    def _print_RatioFloor(self, expr):
+        return self.real_literal(sympy.Rational(1, 2 ** FLOOR_EXPONENT[self.precision]))
+
+    def _print_LimiterApplication(self, expr):
+        name = limiter_name_of(expr)
+        if name not in self.limiter_names:
+            raise AssertionError(f"limiter {name} is called but not in the plan")
+        return f"{self.plan.name}_limiter_{name}({', '.join(self._print(a) for a in expr.args)})"
 
     def _print_Min(self, expr):
         return self._fold("min", expr.args)
@@ -102,7 +177,7 @@ class KernelPrinter(C99CodePrinter):
             product = "*".join([factor] * abs(int(exp)))
             if exp > 0:
                 return f"({product})"
-            return f"{self._print(sympy.Float(1))}/({product})"
+            return f"{self._print(sympy.Integer(1))}/({product})"
         return super()._print_Pow(expr)
 
 
@@ -139,14 +214,13 @@ def flux_function(printer: KernelPrinter, program: FaceProgram, suffix: str) -> 
 
 
 def real_literal(printer: KernelPrinter, value: sympy.Expr) -> str:
-    """A real constant as a C literal of the kernel's precision (1.0, 1.0F/3.0F)."""
-    if value.is_Integer:
-        return printer._print(sympy.Float(int(value)))
-    return f"({printer._print(value)})"
+    """A real constant as a C literal of the kernel's precision (1.0, 0.33333334F)."""
+    text = printer.real_literal(value)
+    return f"({text})" if text.startswith("-") else text
 
 
 def _coefficient(printer: KernelPrinter, value: sympy.Expr) -> str:
-    return printer._print(sympy.Float(1)) if value == 1 else f"({printer._print(value)})"
+    return real_literal(printer, value)
 
 
 def stage_expression(printer: KernelPrinter, update) -> tuple[str, str | None]:
@@ -245,7 +319,14 @@ def c_context(scheme: Scheme, precision: str = "double", verdicts: bool = True) 
     limiters = []
     for lim in plan.limiters:
         statements, result = print_program(printer, lim.program)
-        limiters.append({"name": lim.name, "statements": statements, "result": result})
+        limiters.append({"name": lim.name, "label": printer.escape_text(lim.name),
+                         "statements": statements, "result": result})
+    forms = []
+    for form in plan.limiter_forms:
+        statements, result = print_program(printer, form.program)
+        forms.append({"function": f"{plan.name}_{form.kind}_{form.name}", "kind": form.kind,
+                      "label": printer.escape_text(form.name), "statements": statements,
+                      "result": result})
     stages = []
     for s, update in enumerate(plan.stage_updates):
         out, acc = stage_expression(printer, update)
@@ -261,7 +342,7 @@ def c_context(scheme: Scheme, precision: str = "double", verdicts: bool = True) 
     clip = None
     if plan.clip is not None:
         clip = tuple(real_literal(printer, v) for v in plan.clip)
-    params = [{"name": name, "value": printer._print(value)} for name, value in plan.params]
+    params = [{"name": name, "value": printer.real_literal(value)} for name, value in plan.params]
     if plan.fct:
         printer.helpers_used.update(("min", "max"))
     helpers = sorted(printer.helpers_used)
@@ -274,13 +355,18 @@ def c_context(scheme: Scheme, precision: str = "double", verdicts: bool = True) 
         "huge": "HUGE_VALF" if precision == "float" else "HUGE_VAL",
         "bits": "uint32_t" if precision == "float" else "uint64_t",
         "sign_shift": 31 if precision == "float" else 63,
-        "one": printer._print(sympy.Float(1)),
-        "zero": printer._print(sympy.Float(0)),
-        "banner": banner_lines(scheme, precision, verdicts),
+        "one": printer.real_literal(sympy.Integer(1)),
+        "zero": printer.real_literal(sympy.Integer(0)),
+        "banner": tuple(printer.escape_text(line) for line in banner_lines(scheme, precision,
+                                                                          verdicts)),
+        "scheme_literal": printer.escape_text(plan.name),
         "params": params,
         "helpers": helpers,
         "limiters": limiters,
+        "forms": forms,
         "fluxes": fluxes,
+        "mantissa_bits": 23 if precision == "float" else 52,
+        "exponent_top": 254 if precision == "float" else 2046,
         "stages": stages,
         "uses_start": uses_start,
         "block_parameters": block_parameters,

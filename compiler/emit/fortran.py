@@ -10,6 +10,8 @@ from __future__ import annotations
 import sympy
 from sympy.printing.fortran import FCodePrinter
 
+from ..check import FORTRAN_NAME_LIMIT
+from ..constants import nearest, shortest_text
 from ..diagnostics import LoomError
 from ..ir import Scheme
 from .c import check_precision
@@ -17,39 +19,60 @@ from .environment import render
 from .plan import banner_lines, plan_kernel
 
 KINDS = {"double": "c_double", "float": "c_float"}
-FORTRAN_NAME_LIMIT = 63  # Fortran 2003 identifiers
+COMMENT_WIDTH = 100
+"""Characters of escaped text per comment line (free form allows 132 per line)."""
 
 
 class ConstantPrinter(FCodePrinter):
-    """Real constants as Fortran literals of one kind (1.0_c_double/3.0_c_double)."""
+    """Real constants as Fortran literals of one kind, rounded once to the kernel's
+    precision (0.3333333333333333_c_double); user text only through `escape_text`."""
 
     printmethod = "_fluxloom_fortran"
 
-    def __init__(self, kind: str):
+    def __init__(self, kind: str, precision: str = "double"):
         super().__init__({"standard": 2003, "source_format": "free", "strict": True})
         self.kind = kind
+        self.precision = precision
 
-    def _print_Integer(self, expr):
-        return f"{int(expr)}.0_{self.kind}"
+    def _print(self, expr, **kwargs):
+        if isinstance(expr, sympy.Expr) and expr.is_number:
+            return f"{shortest_text(nearest(expr, self.precision), self.precision)}_{self.kind}"
+        return super()._print(expr, **kwargs)
 
-    def _print_Rational(self, expr):
-        return f"({expr.p}.0_{self.kind}/{expr.q}.0_{self.kind})"
+    @staticmethod
+    def escape_text(text: str) -> str:
+        """Any string as printable ASCII that is inert in a Fortran comment: printable
+        ASCII stays (a backslash doubles), every other character becomes \\xHH,
+        \\uHHHH or \\UHHHHHHHH, so no line ends early and no byte is out of place."""
+        out = []
+        for ch in text:
+            code = ord(ch)
+            if ch == "\\":
+                out.append("\\\\")
+            elif " " <= ch <= "~":
+                out.append(ch)
+            elif code < 0x100:
+                out.append(f"\\x{code:02x}")
+            elif code < 0x10000:
+                out.append(f"\\u{code:04x}")
+            else:
+                out.append(f"\\U{code:08x}")
+        return "".join(out)
 
-    def _print_Float(self, expr):
-        return f"{sympy.Float(expr, 17)}_{self.kind}"
 
-    def _print_NumberSymbol(self, expr):
-        return self._print_Float(sympy.Float(expr.evalf(17), 17))
+def comment_lines(lines) -> tuple[str, ...]:
+    """Lines of user text escaped for Fortran comments, long ones cut to fit a line."""
+    out = []
+    for line in lines:
+        text = ConstantPrinter.escape_text(line)
+        out.extend(text[i:i + COMMENT_WIDTH] for i in range(0, max(len(text), 1), COMMENT_WIDTH))
+    return tuple(out)
 
 
 def fortran_identifier(name: str) -> str:
-    """name, or a clear error when Fortran cannot spell it."""
-    if not name[:1].isalpha():
-        raise LoomError(f"'{name}' cannot name a Fortran entity (it must start with a letter); "
-                        "rename the scheme to build the Fortran interface", file="<fortran>")
-    if len(name) > FORTRAN_NAME_LIMIT:
-        raise LoomError(f"'{name}' is longer than the {FORTRAN_NAME_LIMIT} characters a Fortran "
-                        "name may have; choose a shorter scheme or param name", file="<fortran>")
+    """name, checked against what Fortran can spell (the front end refuses worse)."""
+    if not name[:1].isalpha() or len(name) > FORTRAN_NAME_LIMIT:
+        raise AssertionError(f"'{name}' is no Fortran name; compiler/check.py lets none through")
     return name
 
 
@@ -59,12 +82,12 @@ def fortran_source(scheme: Scheme, precision: str = "double",
     check_precision(precision)
     plan = plan_kernel(scheme)
     kind = KINDS[precision]
-    printer = ConstantPrinter(kind)
+    printer = ConstantPrinter(kind, precision)
     name = plan.name
     for suffix in ("_workspace_size", "_fill_periodic", "_stage", "_step", "_mod"):
         fortran_identifier(name + suffix)
     params = [{"name": fortran_identifier(f"{name}_param_{p}"), "value": printer.doprint(v)}
               for p, v in plan.params]
     text = render("fortran_module.f90.j2", name=name, plan=plan, kind=kind, params=params,
-                  banner=banner_lines(scheme, precision, verdicts))
+                  banner=comment_lines(banner_lines(scheme, precision, verdicts)))
     return {f"{name}_mod.f90": text}

@@ -15,14 +15,19 @@ import sympy
 from sympy.printing.numpy import NumPyPrinter
 from sympy.printing.precedence import PRECEDENCE
 
+from ..constants import nearest
 from ..diagnostics import LoomError
 from ..ir import Scheme
-from ..symbols import C, R, offset_of
+from ..symbols import C, R, LimiterApplication, limiter_name_of, offset_of
 from ..timestep import StageUpdate
 from . import environment
+from .limited import FLOOR_EXPONENT, LimiterFormCall
 from .plan import FaceProgram, banner_lines, plan_kernel
 
 PRECISIONS = {"double": "np.float64", "float": "np.float32"}
+WORDS = {"double": ("np.uint64", 52, 2046), "float": ("np.uint32", 23, 254)}
+"""The unsigned integer of a real's width, its mantissa bits and the largest biased
+exponent of a finite real (the scale helpers read and write the exponent field)."""
 
 BLOCK_BYTES = 256 * 1024
 """Bytes of one block-sized temporary: small enough to stay in L2 cache, large
@@ -35,19 +40,63 @@ class NumpyKernelPrinter(NumPyPrinter):
 
     Strict like its parent: a construct with no `_print_` method raises
     instead of printing junk. Names of `q[k]`, params and limiters follow
-    `q_name`, `param_name` and `limiter_name`.
+    `q_name`, `param_name` and `limiter_name`; params and limiters are found by
+    class, never by name. Every constant prints as the double that holds it
+    rounded once to the kernel's precision; user text only through `escape_text`.
     """
 
-    def __init__(self, limiter_names=(), param_names=()):
+    def __init__(self, limiter_names=(), param_names=(), precision: str = "double"):
         # order "none": terms as sympy holds them, which reads q_1 - q_0, not -q_0 + q_1.
         super().__init__({"fully_qualified_modules": True, "order": "none"})
         self._limiter_names = frozenset(limiter_names)
-        self._param_names = frozenset(param_names)
+        self.precision = precision
         self.used_helpers: set[str] = set()
+
+    @staticmethod
+    def escape_text(text: str) -> str:
+        """Any string as text that is inert between the quotes of a Python string or
+        docstring and reads back as exactly that string: printable characters stay,
+        a backslash and a quote are escaped, every other character (control
+        characters, NUL, line separators, lone surrogates) becomes \\xHH, \\uHHHH
+        or \\UHHHHHHHH."""
+        out = []
+        for ch in text:
+            code = ord(ch)
+            if ch in "\\\"'":
+                out.append("\\" + ch)
+            elif ch.isprintable():
+                out.append(ch)
+            elif code < 0x100:
+                out.append(f"\\x{code:02x}")
+            elif code < 0x10000:
+                out.append(f"\\u{code:04x}")
+            else:
+                out.append(f"\\U{code:08x}")
+        return "".join(out)
+
+    def _print(self, expr, **kwargs):
+        if isinstance(expr, sympy.Expr) and expr.is_number:
+            return self.real_literal(expr)
+        # sympy dispatches a function subclass by its own name only: route these here
+        if isinstance(expr, LimiterApplication):
+            return self._print_LimiterApplication(expr)
+        if isinstance(expr, LimiterFormCall):
+            form = type(expr)
+            return (f"{form_name(form.kind, form.limiter_name)}"
+                    f"({', '.join(self._print(a) for a in expr.args)})")
+        return super()._print(expr, **kwargs)
+
+    def real_literal(self, value: sympy.Expr) -> str:
+        """repr of the double holding the constant rounded to the kernel's precision:
+        Python reads it back exactly, and numpy keeps it at the arrays' precision."""
+        return repr(nearest(value, self.precision))
 
     def _module_format(self, fqn, register=True):
         # `import numpy as np` in the generated module.
         return super()._module_format(fqn, register).replace("numpy.", "np.", 1)
+
+    def _print_ParamSymbol(self, expr):
+        return param_name(expr.name)
 
     def _print_Symbol(self, expr):
         k = offset_of(expr)
@@ -57,20 +106,29 @@ class NumpyKernelPrinter(NumPyPrinter):
             return "c"
         if expr == R:
             return "r"
-        if expr.name in self._param_names:
-            return param_name(expr.name)
         return super()._print_Symbol(expr)
+
+    def _print_ScaleDown(self, expr):
+        self.used_helpers.add("scale")
+        return f"scale_down({self._print(expr.args[0])})"
+
+    def _print_ScaleUp(self, expr):
+        self.used_helpers.add("scale")
+        return f"scale_up({self._print(expr.args[0])})"
+
+    def _print_RatioFloor(self, expr):
+        return self.real_literal(sympy.Rational(1, 2 ** FLOOR_EXPONENT[self.precision]))
 
     def _print_Ratio(self, expr):
         self.used_helpers.add("ratio")
         a, b = expr.args
         return f"ratio({self._print(a)}, {self._print(b)})"
 
-    def _print_Function(self, expr):
-        name = type(expr).__name__
-        if name in self._limiter_names:
-            return f"{limiter_name(name)}({self._print(expr.args[0])})"
-        return super()._print_Function(expr)
+    def _print_LimiterApplication(self, expr):
+        name = limiter_name_of(expr)
+        if name not in self._limiter_names:
+            raise AssertionError(f"limiter {name} is called but not in the plan")
+        return f"{limiter_name(name)}({', '.join(self._print(a) for a in expr.args)})"
 
     def _print_Min(self, expr):
         return self._nested("np.minimum", expr.args)
@@ -118,6 +176,11 @@ def limiter_name(name: str) -> str:
     return f"limiter_{name}"
 
 
+def form_name(kind: str, name: str) -> str:
+    """slope_f(a, b) = psi(ratio(a, b)) * b; psi_f(a, b) = psi(ratio(a, b))."""
+    return f"{kind}_{name}"
+
+
 # ---- what the template receives ---------------------------------------------
 
 @dataclass(frozen=True)
@@ -151,18 +214,21 @@ class Stage:
 
 @dataclass(frozen=True)
 class NumpyModule:
-    """Everything numpy_kernel.py.j2 prints, already as strings."""
+    """Everything numpy_kernel.py.j2 prints, already as strings (user text escaped)."""
 
     name: str
+    name_literal: str
     banner: tuple[str, ...]
     real: str
+    word: tuple[str, int, int]
     halo: int
     face_halo: int
     stages: tuple[Stage, ...]
     accumulator: bool
     block_cells: int
-    params: tuple[tuple[str, str, str], ...]   # (python name, spec name, value)
+    params: tuple[tuple[str, str, str], ...]   # (python name, spec name escaped, value)
     limiters: tuple[Function, ...]
+    forms: tuple[Function, ...]
     faces: tuple[Function, ...]
     helpers: tuple[str, ...]
     offsets: tuple[Offset, ...]
@@ -226,31 +292,43 @@ def numpy_module(scheme: Scheme, precision: str = "double", banner=None) -> Nump
     check_precision(precision)
     plan = plan_kernel(scheme)
     printer = NumpyKernelPrinter([lim.name for lim in plan.limiters],
-                                 [name for name, _ in plan.params])
+                                 [name for name, _ in plan.params], precision)
     faces = [print_function(printer, "face_values", "g of the flux (u * g)", plan.flux)]
     if plan.low_flux is not None:
         faces.append(print_function(printer, "low_face_values",
                                     "g of the monotone low-order flux", plan.low_flux))
     limiters = tuple(print_function(printer, limiter_name(lim.name),
-                                    f"The limiter {lim.name}(r).", lim.program)
+                                    f"The limiter {printer.escape_text(lim.name)}(r).",
+                                    lim.program)
                      for lim in plan.limiters)
+    forms = tuple(print_function(
+        printer, form_name(form.kind, form.name),
+        (f"psi(ratio(a, b)) * b for the limiter {printer.escape_text(form.name)}"
+         if form.kind == "slope" else
+         f"psi(ratio(a, b)) for the limiter {printer.escape_text(form.name)}")
+        + ", from a and b without forming the ratio (finite for finite a and b).",
+        form.program) for form in plan.limiter_forms)
     offsets = tuple(Offset(q_name(k), _shift(k - 1), _shift(-k)) for k in plan.offsets)
     programs = [plan.flux] + ([plan.low_flux] if plan.low_flux is not None else [])
     uses_c = any(p.uses_c for p in programs)
     names = [o.name for o in offsets]
     stage_buffers = min(plan.stages - 1, 2)
+    banner = tuple(banner) if banner is not None else banner_lines(scheme, precision)
     return NumpyModule(
         name=plan.name,
-        banner=tuple(banner) if banner is not None else banner_lines(scheme, precision),
+        name_literal=printer.escape_text(plan.name),
+        banner=tuple(printer.escape_text(line) for line in banner),
         real=PRECISIONS[precision],
+        word=WORDS[precision],
         halo=plan.halo,
         face_halo=plan.face_halo,
         stages=tuple(stage_expression(printer, u) for u in plan.stage_updates),
         accumulator=plan.accumulator,
         block_cells=BLOCK_BYTES // ITEM_BYTES[precision],
-        params=tuple((param_name(name), name, printer.doprint(value))
-                     for name, value in plan.params),
+        params=tuple((param_name(name), printer.escape_text(name),
+                      f"REAL({printer.real_literal(value)})") for name, value in plan.params),
         limiters=limiters,
+        forms=forms,
         faces=tuple(faces),
         helpers=tuple(sorted(printer.used_helpers)),
         offsets=offsets,

@@ -28,8 +28,9 @@ from dataclasses import dataclass
 import sympy
 
 from ..ir import Scheme
-from ..symbols import C, R, Ratio, limiter_calls, offsets_in
+from ..symbols import C, R, limiter_calls, limiter_name_of, offsets_in
 from ..timestep import StageUpdate, stage_updates, uses_accumulator
+from .limited import LimiterForm, safe_limiters
 
 FCT_EXTRA_FACES = 2
 """Extra face velocities (and faces) per side an FCT step evaluates."""
@@ -53,6 +54,15 @@ class LimiterProgram:
 
 
 @dataclass(frozen=True)
+class LimiterFormProgram:
+    """A limiter evaluated from (a, b), overflow-safe (compiler/emit/limited.py)."""
+
+    name: str
+    kind: str             # "slope": psi(ratio(a, b)) * b; "psi": psi(ratio(a, b))
+    program: FaceProgram  # in limited.A_ARG, limited.B_ARG
+
+
+@dataclass(frozen=True)
 class KernelPlan:
     name: str
     about: str
@@ -66,6 +76,7 @@ class KernelPlan:
     fct: bool
     clip: tuple[sympy.Expr, sympy.Expr] | None
     limiters: tuple[LimiterProgram, ...]
+    limiter_forms: tuple[LimiterFormProgram, ...]
     stage_updates: tuple[StageUpdate, ...]
     accumulator: bool
 
@@ -127,76 +138,35 @@ def face_program(expr: sympy.Expr, prefix: str = "t") -> FaceProgram:
     )
 
 
-def fused_slope(psi: sympy.Expr, a: sympy.Expr, b: sympy.Expr) -> sympy.Expr | None:
-    """psi(ratio(a, b)) * b as one guarded quotient, or None where that is not exact.
-
-    A limited face multiplies the limiter of r = a/b by the slope b; a rational
-    limiter then costs two divisions per face (the ratio and the limiter), the
-    dearest operations in the loop. With b = +P and b = -P (P > 0) in turn, the
-    product cancels to N+/D and N-/D. When both share one denominator D that is
-    positive for P > 0, and N+ and N- vanish at P = 0, then
-        psi(ratio(a, b)) * b = ratio(N, D),  N = (N+ + N-)/2 + sign(b) (N+ - N-)/2,
-    for every a and b: for b != 0 by the cancellation, and for b = 0 both sides are
-    0 (ratio gives r = 0, the slope is 0; N is 0, and ratio(0, D) is 0 even if
-    D = 0). Van Leer becomes (a|b| + |a|b) / (|a| + |b|): one division.
-    """
-    top, size = sympy.Dummy("a", real=True), sympy.Dummy("P", positive=True)
-    sides = []
-    for slope in (size, -size):
-        quotient = sympy.cancel(sympy.together(slope * psi.subs(R, top / slope)))
-        numerator, denominator = sympy.fraction(quotient)
-        if any(node.is_Pow and node.exp.is_negative for node in
-               sympy.preorder_traversal(numerator)):
-            return None
-        sides.append((sympy.expand(numerator), sympy.expand(denominator)))
-    (n_plus, d_plus), (n_minus, d_minus) = sides
-    if sympy.expand(d_plus - d_minus) != 0 and sympy.expand(d_plus + d_minus) == 0:
-        n_minus, d_minus = -n_minus, -d_minus
-    if sympy.expand(d_plus - d_minus) != 0 or d_plus.is_positive is not True:
-        return None
-    if n_plus.subs(size, 0) != 0 or n_minus.subs(size, 0) != 0:
-        return None
-    slope = sympy.Dummy("b", real=True)
-    numerator = ((n_plus + n_minus) / 2 + sympy.sign(slope) * (n_plus - n_minus) / 2)
-    numerator = sympy.expand(numerator.subs(size, sympy.Abs(slope)))
-    numerator = numerator.subs(sympy.sign(slope) * sympy.Abs(slope), slope)  # |b| sign(b) = b
-    back = {top: a, slope: b}
-    return Ratio(numerator.xreplace(back), d_plus.subs(size, sympy.Abs(slope)).xreplace(back))
-
-
-def fuse_limited_slopes(scheme: Scheme, expr: sympy.Expr) -> sympy.Expr:
-    """expr with every `psi(ratio(a, b)) * b` that fuses exactly in one division."""
-    for call in limiter_calls(expr, scheme.limiter_names):
-        (argument,) = call.args
-        if not isinstance(argument, Ratio):
-            continue
-        a, b = argument.args
-        fused = fused_slope(scheme.bound(scheme.limiter(type(call).__name__).body), a, b)
-        if fused is None:
-            continue
-        candidate = expr.xreplace({call: fused / b})
-        # keep it only where the slope b really cancelled (no division by b left)
-        if not any(node.is_Pow and node.exp.is_negative and node.base == b
-                   for node in sympy.preorder_traversal(candidate)):
-            expr = candidate
-    return expr
-
-
-def limiters_used(scheme: Scheme, face: sympy.Expr) -> tuple[str, ...]:
-    """Limiters the kernel still calls once slopes are fused (face: the emitted g)."""
-    exprs = [face] + ([scheme.low_face] if scheme.low_face is not None else [])
-    used = {type(call).__name__ for e in exprs for call in limiter_calls(e, scheme.limiter_names)}
+def limiters_used(scheme: Scheme, faces) -> tuple[str, ...]:
+    """Limiters the kernel still calls in the plain form psi(r) (faces: the emitted g's)."""
+    used = {limiter_name_of(call) for e in faces if e is not None
+            for call in limiter_calls(e, scheme.limiter_names)}
     return tuple(name for name in scheme.limiter_names if name in used)
+
+
+def form_program(form: LimiterForm) -> FaceProgram:
+    """A limiter's (a, b) form as temporaries (its named steps, then sympy.cse) and a result."""
+    names = sympy.numbered_symbols("s", real=True)
+    temporaries, (result,) = sympy.cse([form.result], symbols=names, order="canonical")
+    return FaceProgram(offsets=(), temporaries=tuple(form.steps) + tuple(temporaries),
+                       result=result, uses_c=False, guard_c=False)
 
 
 def plan_kernel(scheme: Scheme) -> KernelPlan:
     """The plan every back end renders for scheme."""
     fct = scheme.correct == "fct"
     updates = stage_updates(scheme.time)
-    face = fuse_limited_slopes(scheme, scheme.face)
+    face, forms = safe_limiters(scheme, scheme.face)
+    low_face = None
+    if scheme.low_face is not None:
+        low_face, low_forms = safe_limiters(scheme, scheme.low_face)
+        forms = {**forms, **low_forms}
     limiters = tuple(LimiterProgram(name, face_program(scheme.limiter(name).body, "s"))
-                     for name in limiters_used(scheme, face))
-    low = face_program(scheme.low_face) if scheme.low_face is not None else None
+                     for name in limiters_used(scheme, (face, low_face)))
+    limiter_forms = tuple(LimiterFormProgram(name, kind, form_program(forms[(name, kind)]))
+                          for name, kind in sorted(forms))
+    low = face_program(low_face) if low_face is not None else None
     program = face_program(face)
     if R in program.result.free_symbols:
         raise AssertionError("limiter argument symbol leaked into a face expression")
@@ -213,6 +183,7 @@ def plan_kernel(scheme: Scheme) -> KernelPlan:
         fct=fct,
         clip=scheme.clip,
         limiters=limiters,
+        limiter_forms=limiter_forms,
         stage_updates=updates,
         accumulator=uses_accumulator(scheme.time),
     )

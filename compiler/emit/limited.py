@@ -1,0 +1,291 @@
+"""Limiters in a form that stays finite for every finite input.
+
+A limited face multiplies psi(r), r = ratio(a, b), by the slope b. Written as is,
+r overflows when b is tiny next to a (a tail of 1e-300 beside a value of 1, or a
+subnormal difference), and a rational psi then gives inf/inf = NaN; products
+such as r^2 or a*b overflow for large values even when the limited slope is
+small. Each limiter call is therefore emitted from a and b, never from r:
+
+Homogeneous form. With A = a sign(b) and B = |b| (so r = A/B, B > 0), every
+subexpression e(r) of the limiter body is rewritten as E(A, B) / B^d, pushing
+the powers of B into sums, products, min, max, abs and sign (B > 0 keeps their
+order); divisions become guarded quotients (ratio: 0 where the divisor is 0,
+so no 0/0 at a = b = 0 or at a limiter's own singular point). Then
+
+    psi(ratio(a, b)) * b = sign(b) * H(A, B),  H = E * B^(1 - d)   (the slope form)
+    psi(ratio(a, b))     = E / B^d                                   (the value form)
+
+for every a and b, b = 0 included (there A = B = 0 and H(0, 0) = 0). Van Leer
+becomes (A + |A|) B / (B + |A|), minmod max(0, min(A, B)): no division at all.
+
+Scaling. When H is more than piecewise linear in (A, B), A and B are first
+multiplied by a power of two k chosen from max(|A|, B) (`ScaleDown`), which
+brings the larger of them into [1, 4), and the slope form multiplies the result
+by 1/k (`ScaleUp`). Multiplying by a power of two is exact, so in the normal
+range the result has the very bits of the unscaled formula; what changes is that
+no intermediate overflows, and none underflows to zero while the result is
+representable. The value form cannot multiply back (it is of degree 0); it
+keeps B at least RATIO_FLOOR (2^-60 in double, 2^-30 in single precision), so
+a ratio beyond 2^60 (2^30) is evaluated there: for a limiter with a finite
+limit psi(inf) this differs by less than the precision's rounding.
+
+A limiter the rewrite does not cover (a power with a param exponent, a call the
+front end does not produce) keeps the plain form psi(r).
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import sympy
+
+from ..ir import Scheme
+from ..symbols import R, Ratio, limiter_calls, limiter_name_of
+
+
+class ScaleDown(sympy.Function):
+    """2^(bias - e) for the biased exponent e of m (clamped to the normal range):
+    m * ScaleDown(m) lies in [1, 4) for every m > 0; 2^(bias - 1) at m = 0."""
+
+    nargs = 1
+    is_positive = True
+
+
+class ScaleUp(sympy.Function):
+    """1 / ScaleDown(m), also an exact power of two."""
+
+    nargs = 1
+    is_positive = True
+
+
+class RatioFloor(sympy.Symbol):
+    """The least B the value form divides by: 2^-60 (double) or 2^-30 (single)."""
+
+
+RATIO_FLOOR = RatioFloor("ratio_floor", positive=True)
+FLOOR_EXPONENT = {"double": 60, "float": 30}
+
+
+class LimiterFormCall(sympy.Function):
+    """A limiter evaluated from (a, b); subclasses per limiter carry its name."""
+
+    limiter_name = ""
+    kind = ""
+    is_real = True
+
+    def _sympystr(self, printer):
+        return f"{self.kind}_{self.limiter_name}({', '.join(printer._print(a) for a in self.args)})"
+
+
+class LimitedSlope(LimiterFormCall):
+    """psi(ratio(a, b)) * b for one limiter psi."""
+
+    kind = "slope"
+
+
+class LimiterOfRatio(LimiterFormCall):
+    """psi(ratio(a, b)) for one limiter psi (b = 1 for a limiter of any argument)."""
+
+    kind = "psi"
+
+
+_FORMS: dict[tuple[type, str], type] = {}
+
+
+def form_function(base: type, name: str) -> type:
+    """The function class standing for one limiter's slope or value form."""
+    key = (base, name)
+    if key not in _FORMS:
+        _FORMS[key] = type(f"{base.kind}_{name}", (base,), {"limiter_name": name, "nargs": 2})
+    return _FORMS[key]
+
+
+# ---- the homogeneous rewrite -----------------------------------------------------
+
+_A = sympy.Dummy("A", real=True)
+_B = sympy.Dummy("B", positive=True)
+
+
+def homogeneous(psi: sympy.Expr) -> tuple[sympy.Expr, sympy.Expr] | None:
+    """(E, d) with psi(A/B) = E(A, B) / B^d for B > 0, divisions as guarded ratios;
+    None where the body has something the rewrite does not cover."""
+    try:
+        return _homogenise(psi)
+    except _NotCovered:
+        return None
+
+
+class _NotCovered(Exception):
+    pass
+
+
+def _lift(term: tuple[sympy.Expr, sympy.Expr], degree: sympy.Expr) -> sympy.Expr:
+    expr, d = term
+    return expr * _B ** (degree - d)
+
+
+def _homogenise(e: sympy.Expr) -> tuple[sympy.Expr, sympy.Expr]:
+    if not e.has(R):
+        return e, sympy.Integer(0)
+    if e == R:
+        return _A, sympy.Integer(1)
+    if isinstance(e, sympy.Add):
+        terms = [_homogenise(t) for t in e.args]
+        degree = max(d for _, d in terms)
+        return sympy.Add(*[_lift(t, degree) for t in terms]), degree
+    if isinstance(e, sympy.Mul):
+        top, bottom, degree = [], [], sympy.Integer(0)
+        for factor in e.args:
+            base, exponent = factor.as_base_exp()
+            if exponent.is_Integer and exponent < 0 and base.has(R):
+                expr, d = _homogenise(base ** -exponent)
+                bottom.append(expr)
+                degree -= d
+            else:
+                expr, d = _homogenise(factor)
+                top.append(expr)
+                degree += d
+        numerator = sympy.Mul(*top)
+        return (Ratio(numerator, sympy.Mul(*bottom)) if bottom else numerator), degree
+    if isinstance(e, sympy.Pow):
+        base, exponent = e.args
+        if not exponent.is_Rational or exponent.has(R):
+            raise _NotCovered(e)
+        expr, d = _homogenise(base)
+        if exponent.is_Integer and exponent < 0:
+            return Ratio(sympy.Integer(1), expr ** -exponent), d * exponent
+        if exponent.is_Integer:
+            return expr ** exponent, d * exponent
+        p, q = exponent.p, exponent.q
+        lift = next(k for k in range(q) if ((d + k) * p) % q == 0)
+        root = (expr * _B ** lift) ** abs(exponent)
+        if p < 0:
+            return Ratio(sympy.Integer(1), root), (d + lift) * exponent
+        return root, (d + lift) * exponent
+    if isinstance(e, (sympy.Max, sympy.Min)):
+        terms = [_homogenise(t) for t in e.args]
+        degree = max(d for _, d in terms)
+        return type(e)(*[_lift(t, degree) for t in terms]), degree
+    if isinstance(e, sympy.Abs):
+        expr, d = _homogenise(e.args[0])
+        return sympy.Abs(expr), d
+    if isinstance(e, sympy.sign):
+        expr, _ = _homogenise(e.args[0])
+        return sympy.sign(expr), sympy.Integer(0)
+    if isinstance(e, Ratio):
+        (x, dx), (y, dy) = _homogenise(e.args[0]), _homogenise(e.args[1])
+        return Ratio(x, y), dx - dy
+    raise _NotCovered(e)
+
+
+def piecewise_linear(expr: sympy.Expr) -> bool:
+    """True when expr is built from A and B by sums, constant multiples, min, max, abs
+    and sign only: its intermediates are as large as its inputs, no scaling needed."""
+    if not expr.has(_A, _B):
+        return True
+    if expr in (_A, _B):
+        return True
+    if isinstance(expr, (sympy.Add, sympy.Max, sympy.Min, sympy.Abs)):
+        return all(piecewise_linear(a) for a in expr.args)
+    if isinstance(expr, sympy.sign):
+        return True
+    if isinstance(expr, sympy.Mul):
+        varying = [a for a in expr.args if a.has(_A, _B) and not isinstance(a, sympy.sign)]
+        return len(varying) <= 1 and all(piecewise_linear(a) for a in expr.args)
+    return False
+
+
+# ---- function programs -------------------------------------------------------------
+
+A_ARG, B_ARG = sympy.symbols("a b", real=True)
+
+
+@dataclass(frozen=True)
+class LimiterForm:
+    """One limiter evaluated from (a, b): named steps, then the result.
+
+    kind "slope": psi(ratio(a, b)) * b; kind "psi": psi(ratio(a, b)).
+    """
+
+    name: str
+    kind: str
+    steps: tuple[tuple[sympy.Symbol, sympy.Expr], ...]
+    result: sympy.Expr
+    scaled: bool
+
+
+def _step(name: str, **assumptions) -> sympy.Symbol:
+    return sympy.Symbol(name, real=True, **assumptions)
+
+
+def limiter_form(name: str, psi: sympy.Expr, kind: str) -> LimiterForm | None:
+    """The overflow-safe program of psi for one kind, or None where not covered."""
+    found = homogeneous(psi)
+    if found is None:
+        return None
+    expr, degree = found
+    sign_b, top, bottom = _step("sign_b"), _step("top"), _step("bottom", nonnegative=True)
+    steps = [(sign_b, sympy.sign(B_ARG)), (top, A_ARG * sign_b), (bottom, sympy.Abs(B_ARG))]
+    if kind == "slope":
+        body = expr * _B ** (1 - degree) if degree <= 1 else Ratio(expr, _B ** (degree - 1))
+        if piecewise_linear(body):
+            return LimiterForm(name, kind, tuple(steps),
+                               sign_b * body.xreplace({_A: top, _B: bottom}), False)
+    else:
+        body = expr * _B ** (-degree) if degree <= 0 else Ratio(expr, _B ** degree)
+    largest, down = _step("largest", nonnegative=True), _step("down", positive=True)
+    top_s, bottom_s = _step("top_scaled"), _step("bottom_scaled", nonnegative=True)
+    steps += [(largest, sympy.Max(sympy.Abs(top), bottom)), (down, ScaleDown(largest)),
+              (top_s, top * down)]
+    if kind == "slope":
+        steps.append((bottom_s, bottom * down))
+        result = sign_b * body.xreplace({_A: top_s, _B: bottom_s}) * ScaleUp(largest)
+    else:
+        steps.append((bottom_s, sympy.Max(bottom * down, RATIO_FLOOR)))
+        result = body.xreplace({_A: top_s, _B: bottom_s})
+    return LimiterForm(name, kind, tuple(steps), result, True)
+
+
+# ---- rewriting a face ----------------------------------------------------------------
+
+def limiter_bodies(scheme: Scheme, call: sympy.Expr) -> tuple[sympy.Expr, sympy.Expr]:
+    """psi in symbols.R for one call: with params as named constants, and with them bound
+    (a param exponent only the bound body can rewrite)."""
+    body = scheme.limiter(limiter_name_of(call)).body
+    return body, scheme.bound(body)
+
+
+def safe_limiters(scheme: Scheme, face: sympy.Expr) -> tuple[sympy.Expr, dict]:
+    """face with every limiter call replaced by a slope or value form where covered,
+    and {(name, kind): LimiterForm} for the forms it uses."""
+    forms: dict[tuple[str, str], LimiterForm] = {}
+
+    def form(call, kind):
+        name = limiter_name_of(call)
+        key = (name, kind)
+        if key not in forms:
+            body, bound = limiter_bodies(scheme, call)
+            built = limiter_form(name, body, kind) or limiter_form(name, bound, kind)
+            if built is None:
+                return None
+            forms[key] = built
+        return form_function(LimitedSlope if kind == "slope" else LimiterOfRatio, name)
+
+    for call in limiter_calls(face, scheme.limiter_names):
+        if len(call.args) != 1:
+            continue  # a limiter of several arguments keeps its plain form
+        (argument,) = call.args
+        a, b = argument.args if isinstance(argument, Ratio) else (argument, sympy.Integer(1))
+        if isinstance(argument, Ratio):
+            slope = form(call, "slope")
+            if slope is not None:
+                candidate = face.xreplace({call: slope(a, b) / b})
+                # keep it only where the slope b really cancelled (no division by b left)
+                if not any(node.is_Pow and node.exp.is_negative and node.base == b
+                           for node in sympy.preorder_traversal(candidate)):
+                    face = candidate
+                    continue
+        value = form(call, "psi")
+        if value is not None:
+            face = face.xreplace({call: value(a, b)})
+    used = {(type(f).limiter_name, type(f).kind) for f in face.atoms(LimiterFormCall)}
+    return face, {key: forms[key] for key in forms if key in used}
