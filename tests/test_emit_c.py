@@ -170,7 +170,8 @@ def test_float_kernels_compute_in_float():
         text = c_sources(scheme, "float", verdicts=False)[f"{scheme.name}.c"]
         code = re.sub(r"/\*.*?\*/", "", text, flags=re.S)
         assert "double" not in code
-        assert not re.search(r"\d\.\d+(?![\dF])", code), "a double literal in a float kernel"
+        assert not re.search(r"\d\.\d+(?:[eE][-+]?\d+)?(?![\deE\dF])", code), \
+            "a double literal in a float kernel"
         assert not re.search(r"\b(fabs|sqrt|pow)\(", code)
 
 

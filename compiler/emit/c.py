@@ -137,6 +137,10 @@ class KernelPrinter(C99CodePrinter):
         return (f"{self.plan.name}_{form.kind}_{form.limiter_name}"
                 f"({', '.join(self._print(a) for a in expr.args)})")
 
+    def _print_UnitSign(self, expr):
+        suffix = "f" if self.precision == "float" else ""
+        return f"copysign{suffix}({self.real_literal(sympy.Integer(1))}, {self._print(expr.args[0])})"
+
     def _print_ScaleDown(self, expr):
         return self._call("scale_down", *expr.args)
 
@@ -309,6 +313,19 @@ def stage_buffers(plan: KernelPlan) -> int:
     return min(plan.stages - 1, 2)
 
 
+def scale_words(printer: KernelPrinter) -> dict[str, str]:
+    """Constants of the scale helpers: the least normal real 2^(1 - bias), the
+    exponent field's mask, and the word of 2^bias whose difference with an exponent
+    field e is the word of 2^(bias - e)."""
+    mantissa, bias = (23, 127) if printer.precision == "float" else (52, 1023)
+    return {
+        "half": printer.real_literal(sympy.Rational(1, 2)),
+        "scale_low": printer.real_literal(sympy.Rational(1, 2 ** (bias - 1))),
+        "exponent_mask": f"0x{((2 * bias + 1) << mantissa):x}u",
+        "scale_down_word": f"0x{((2 * bias) << mantissa):x}u",
+    }
+
+
 def c_context(scheme: Scheme, precision: str = "double", verdicts: bool = True) -> dict:
     """Everything the C templates need, printed."""
     plan = plan_kernel(scheme)
@@ -334,7 +351,7 @@ def c_context(scheme: Scheme, precision: str = "double", verdicts: bool = True) 
                        "clip": plan.clip is not None and s == plan.stages - 1})
     uses_start = any(u.start != 0 or u.acc_start != 0 for u in plan.stage_updates)
     parameters, arguments = block_signature(printer.ctype, plan, uses_start)
-    block_parameters = wrap_list(parameters, len(f"static inline void {plan.name}_block("), 8)
+    block_parameters = wrap_list(parameters, len(f"{plan.name}_INLINE void {plan.name}_block("), 8)
     block_full = wrap_list([a.replace("@M", f"{plan.name}_FLUX_BLOCK") for a in arguments],
                            12 + len(f"{plan.name}_block("), 16)
     block_last = wrap_list([a.replace("@M", "n - b") for a in arguments],
@@ -365,8 +382,7 @@ def c_context(scheme: Scheme, precision: str = "double", verdicts: bool = True) 
         "limiters": limiters,
         "forms": forms,
         "fluxes": fluxes,
-        "mantissa_bits": 23 if precision == "float" else 52,
-        "exponent_top": 254 if precision == "float" else 2046,
+        **scale_words(printer),
         "stages": stages,
         "uses_start": uses_start,
         "block_parameters": block_parameters,

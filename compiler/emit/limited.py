@@ -18,7 +18,7 @@ so no 0/0 at a = b = 0 or at a limiter's own singular point). Then
 for every a and b, b = 0 included (there A = B = 0 and H(0, 0) = 0). Van Leer
 becomes (A + |A|) B / (B + |A|), minmod max(0, min(A, B)): no division at all.
 
-Scaling. When H is more than piecewise linear in (A, B), A and B are first
+Scaling. When some part of H is of degree 2 or more in (A, B) (or below 0), A and B are first
 multiplied by a power of two k chosen from max(|A|, B) (`ScaleDown`), which
 brings the larger of them into [1, 4), and the slope form multiplies the result
 by 1/k (`ScaleUp`). Multiplying by a power of two is exact, so in the normal
@@ -55,6 +55,13 @@ class ScaleUp(sympy.Function):
 
     nargs = 1
     is_positive = True
+
+
+class UnitSign(sympy.Function):
+    """copysign(1, b): 1 or -1 with the sign bit of b (also at b = 0)."""
+
+    nargs = 1
+    is_real = True
 
 
 class RatioFloor(sympy.Symbol):
@@ -177,21 +184,33 @@ def _homogenise(e: sympy.Expr) -> tuple[sympy.Expr, sympy.Expr]:
     raise _NotCovered(e)
 
 
-def piecewise_linear(expr: sympy.Expr) -> bool:
-    """True when expr is built from A and B by sums, constant multiples, min, max, abs
-    and sign only: its intermediates are as large as its inputs, no scaling needed."""
+def needs_scaling(expr: sympy.Expr) -> bool:
+    """True unless every subexpression in A and B is of degree 0 or 1 in (A, B): then
+    no intermediate is far larger or smaller than the inputs and the result (van
+    Leer's B (A + |A|) / (B + |A|) is; van Albada's A^2 + B^2 is not)."""
+    return _degree(expr) is None
+
+
+def _degree(expr: sympy.Expr):
+    """The degree of expr in (A, B) when it and all its parts are of degree 0 or 1."""
     if not expr.has(_A, _B):
-        return True
+        return 0
     if expr in (_A, _B):
-        return True
-    if isinstance(expr, (sympy.Add, sympy.Max, sympy.Min, sympy.Abs)):
-        return all(piecewise_linear(a) for a in expr.args)
+        return 1
     if isinstance(expr, sympy.sign):
-        return True
-    if isinstance(expr, sympy.Mul):
-        varying = [a for a in expr.args if a.has(_A, _B) and not isinstance(a, sympy.sign)]
-        return len(varying) <= 1 and all(piecewise_linear(a) for a in expr.args)
-    return False
+        return 0 if _degree(expr.args[0]) is not None else None
+    parts = [_degree(a) for a in expr.args]
+    if any(d is None for d in parts):
+        return None
+    if isinstance(expr, (sympy.Add, sympy.Max, sympy.Min, sympy.Abs)):
+        degree = max(parts)
+    elif isinstance(expr, sympy.Mul):
+        degree = sum(parts)
+    elif isinstance(expr, Ratio):
+        degree = parts[0] - parts[1]
+    else:  # powers, roots
+        return None
+    return degree if degree in (0, 1) else None
 
 
 # ---- function programs -------------------------------------------------------------
@@ -223,26 +242,52 @@ def limiter_form(name: str, psi: sympy.Expr, kind: str) -> LimiterForm | None:
     if found is None:
         return None
     expr, degree = found
+    if kind == "slope":
+        return _slope_form(name, expr * _B ** (1 - degree) if degree <= 1
+                           else Ratio(expr, _B ** (degree - 1)))
+    return _value_form(name, expr * _B ** (-degree) if degree <= 0 else Ratio(expr, _B ** degree))
+
+
+def _slope_form(name: str, body: sympy.Expr) -> LimiterForm:
+    """psi(ratio(a, b)) * b = sign(b) H(A, B). Where H = B * rest, that is b * rest:
+    no sign to restore and no scale to undo (b is exact)."""
+    rest = sympy.Mul(*[f for f in sympy.Mul.make_args(body) if f != _B]) \
+        if _B in sympy.Mul.make_args(body) else None
+    vanishes = rest is not None or all(
+        sympy.simplify(body.xreplace({_A: v, _B: 0})) == 0 for v in (1, -1))
+    # A unit of b's sign: copysign is two bit operations; sign(b) is needed only where
+    # H(A, 0) is not 0 (then b = 0 must give A = 0, as ratio(a, 0) = 0 does)
     sign_b, top, bottom = _step("sign_b"), _step("top"), _step("bottom", nonnegative=True)
-    steps = [(sign_b, sympy.sign(B_ARG)), (top, A_ARG * sign_b), (bottom, sympy.Abs(B_ARG))]
-    if kind == "slope":
-        body = expr * _B ** (1 - degree) if degree <= 1 else Ratio(expr, _B ** (degree - 1))
-        if piecewise_linear(body):
-            return LimiterForm(name, kind, tuple(steps),
-                               sign_b * body.xreplace({_A: top, _B: bottom}), False)
+    steps = [(sign_b, UnitSign(B_ARG) if vanishes else sympy.sign(B_ARG)),
+             (top, A_ARG * sign_b), (bottom, sympy.Abs(B_ARG))]
+    scaled = needs_scaling(body)
+    if scaled:
+        largest, down = _step("largest", nonnegative=True), _step("down", positive=True)
+        new_top, new_bottom = _step("top_scaled"), _step("bottom_scaled", nonnegative=True)
+        steps += [(largest, sympy.Max(sympy.Abs(top), bottom)), (down, ScaleDown(largest)),
+                  (new_top, top * down), (new_bottom, bottom * down)]
+        values = {_A: new_top, _B: new_bottom}
     else:
-        body = expr * _B ** (-degree) if degree <= 0 else Ratio(expr, _B ** degree)
+        values = {_A: top, _B: bottom}
+    if rest is not None:
+        result = B_ARG * rest.xreplace(values)
+    else:
+        result = sign_b * body.xreplace(values)
+        if scaled:
+            result = result * ScaleUp(steps[3][0])
+    return LimiterForm(name, "slope", tuple(steps), result, scaled)
+
+
+def _value_form(name: str, body: sympy.Expr) -> LimiterForm:
+    """psi(ratio(a, b)) = E(A, B) / B^d, scaled, with B kept at least RATIO_FLOOR."""
+    sign_b, top, bottom = _step("sign_b"), _step("top"), _step("bottom", nonnegative=True)
     largest, down = _step("largest", nonnegative=True), _step("down", positive=True)
-    top_s, bottom_s = _step("top_scaled"), _step("bottom_scaled", nonnegative=True)
-    steps += [(largest, sympy.Max(sympy.Abs(top), bottom)), (down, ScaleDown(largest)),
-              (top_s, top * down)]
-    if kind == "slope":
-        steps.append((bottom_s, bottom * down))
-        result = sign_b * body.xreplace({_A: top_s, _B: bottom_s}) * ScaleUp(largest)
-    else:
-        steps.append((bottom_s, sympy.Max(bottom * down, RATIO_FLOOR)))
-        result = body.xreplace({_A: top_s, _B: bottom_s})
-    return LimiterForm(name, kind, tuple(steps), result, True)
+    new_top, new_bottom = _step("top_scaled"), _step("bottom_scaled", positive=True)
+    steps = [(sign_b, sympy.sign(B_ARG)), (top, A_ARG * sign_b), (bottom, sympy.Abs(B_ARG)),
+             (largest, sympy.Max(sympy.Abs(top), bottom)), (down, ScaleDown(largest)),
+             (new_top, top * down), (new_bottom, sympy.Max(bottom * down, RATIO_FLOOR))]
+    return LimiterForm(name, "psi", tuple(steps), body.xreplace({_A: new_top, _B: new_bottom}),
+                       True)
 
 
 # ---- rewriting a face ----------------------------------------------------------------

@@ -25,9 +25,10 @@ from .limited import FLOOR_EXPONENT, LimiterFormCall
 from .plan import FaceProgram, banner_lines, plan_kernel
 
 PRECISIONS = {"double": "np.float64", "float": "np.float32"}
-WORDS = {"double": ("np.uint64", 52, 2046), "float": ("np.uint32", 23, 254)}
-"""The unsigned integer of a real's width, its mantissa bits and the largest biased
-exponent of a finite real (the scale helpers read and write the exponent field)."""
+WORDS = {"double": ("np.uint64", hex(0x7FF << 52), hex(2046 << 52)),
+         "float": ("np.uint32", hex(0xFF << 23), hex(254 << 23))}
+"""The unsigned integer of a real's width, the mask of its exponent field and the
+word of 2^bias (the scale helpers' words, as in the C kernel)."""
 
 BLOCK_BYTES = 256 * 1024
 """Bytes of one block-sized temporary: small enough to stay in L2 cache, large
@@ -107,6 +108,9 @@ class NumpyKernelPrinter(NumPyPrinter):
         if expr == R:
             return "r"
         return super()._print_Symbol(expr)
+
+    def _print_UnitSign(self, expr):
+        return f"np.copysign(1.0, {self._print(expr.args[0])})"
 
     def _print_ScaleDown(self, expr):
         self.used_helpers.add("scale")
@@ -220,7 +224,8 @@ class NumpyModule:
     name_literal: str
     banner: tuple[str, ...]
     real: str
-    word: tuple[str, int, int]
+    word: tuple[str, str, str]
+    scale_low: str
     halo: int
     face_halo: int
     stages: tuple[Stage, ...]
@@ -320,6 +325,8 @@ def numpy_module(scheme: Scheme, precision: str = "double", banner=None) -> Nump
         banner=tuple(printer.escape_text(line) for line in banner),
         real=PRECISIONS[precision],
         word=WORDS[precision],
+        scale_low=printer.real_literal(sympy.Rational(1, 2 ** (1022 if precision == "double"
+                                                               else 126))),
         halo=plan.halo,
         face_halo=plan.face_halo,
         stages=tuple(stage_expression(printer, u) for u in plan.stage_updates),
