@@ -124,7 +124,8 @@ class Scheme:
                  sympy.srepr(self.clip) if self.clip else "None"]
         parts += [f"{p.name}={sympy.srepr(p.value)}" for p in self.params]
         parts += [f"{lim.name}:{sympy.srepr(lim.body)}" for lim in self.limiters]
-        return hashlib.sha256("\n".join(parts).encode()).hexdigest()[:16]
+        # surrogatepass: any str hashes, even one no file could hold
+        return hashlib.sha256("\n".join(parts).encode("utf-8", "surrogatepass")).hexdigest()[:16]
 
     def with_params(self, overrides: dict[str, sympy.Expr]) -> "Scheme":
         """A copy with param defaults replaced (names already validated).

@@ -299,6 +299,22 @@ def limiter_bodies(scheme: Scheme, call: sympy.Expr) -> tuple[sympy.Expr, sympy.
     return body, scheme.bound(body)
 
 
+def _is_slope_product(expr: sympy.Expr, call: sympy.Expr, b: sympy.Expr) -> bool:
+    return expr.is_Mul and call in expr.args and b in expr.args
+
+
+def _slope_products(face: sympy.Expr, call: sympy.Expr, b: sympy.Expr) -> bool:
+    return any(_is_slope_product(e, call, b) for e in sympy.preorder_traversal(face))
+
+
+def _without(product: sympy.Expr, factors) -> sympy.Expr:
+    """product with one of each of factors taken out."""
+    args = list(product.args)
+    for factor in factors:
+        args.remove(factor)
+    return sympy.Mul(*args)
+
+
 def safe_limiters(scheme: Scheme, face: sympy.Expr) -> tuple[sympy.Expr, dict]:
     """face with every limiter call replaced by a slope or value form where covered,
     and {(name, kind): LimiterForm} for the forms it uses."""
@@ -320,15 +336,12 @@ def safe_limiters(scheme: Scheme, face: sympy.Expr) -> tuple[sympy.Expr, dict]:
             continue  # a limiter of several arguments keeps its plain form
         (argument,) = call.args
         a, b = argument.args if isinstance(argument, Ratio) else (argument, sympy.Integer(1))
-        if isinstance(argument, Ratio):
+        if isinstance(argument, Ratio) and _slope_products(face, call, b):
             slope = form(call, "slope")
             if slope is not None:
-                candidate = face.xreplace({call: slope(a, b) / b})
-                # keep it only where the slope b really cancelled (no division by b left)
-                if not any(node.is_Pow and node.exp.is_negative and node.base == b
-                           for node in sympy.preorder_traversal(candidate)):
-                    face = candidate
-                    continue
+                # every product call * b becomes slope(a, b); other uses keep the value
+                face = face.replace(lambda e: _is_slope_product(e, call, b),
+                                    lambda e: _without(e, (call, b)) * slope(a, b))
         value = form(call, "psi")
         if value is not None:
             face = face.xreplace({call: value(a, b)})
