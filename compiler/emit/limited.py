@@ -17,20 +17,22 @@ so no 0/0 at a = b = 0 or at a limiter's own singular point). Then
 
 for every a and b, b = 0 included (there A = B = 0 and H(0, 0) = 0). Van Leer
 becomes (A + |A|) B / (B + |A|), minmod max(0, min(A, B)): no division at all.
+Where H = B * rest, the slope form is b * rest (b exact, no sign to restore); where
+H(A, 0) = 0 the sign of b is taken with copysign (two bit operations).
 
-Scaling. When some part of H is of degree 2 or more in (A, B) (or below 0), A and B are first
-multiplied by a power of two k chosen from max(|A|, B) (`ScaleDown`), which
-brings the larger of them into [1, 4), and the slope form multiplies the result
-by 1/k (`ScaleUp`). Multiplying by a power of two is exact, so in the normal
-range the result has the very bits of the unscaled formula; what changes is that
-no intermediate overflows, and none underflows to zero while the result is
-representable. The value form cannot multiply back (it is of degree 0); it
-keeps B at least RATIO_FLOOR (2^-60 in double, 2^-30 in single precision), so
-a ratio beyond 2^60 (2^30) is evaluated there: for a limiter with a finite
-limit psi(inf) this differs by less than the precision's rounding.
+Scaling. When some part of H is of degree 2 or more in (A, B) (or below 0), A and
+B are first multiplied by a power of two k chosen from max(|A|, B) (`ScaleDown`:
+the larger then lies in [2, 4)), and a slope form without the factor B multiplies
+the result by 1/k (`ScaleUp`). Multiplying by a power of two is exact, so in the
+normal range the result has the very bits of the unscaled formula; what changes
+is that no intermediate overflows, and none underflows to zero while the result is
+representable. The value form cannot multiply back (it is of degree 0); it keeps B
+at least RATIO_FLOOR (2^-60 in double, 2^-30 in single precision), so a ratio
+beyond 2^60 (2^30) is evaluated there: for a limiter with a finite limit psi(inf)
+this differs by less than the precision's rounding.
 
-A limiter the rewrite does not cover (a power with a param exponent, a call the
-front end does not produce) keeps the plain form psi(r).
+A limiter the rewrite does not cover (a power with a param exponent it cannot bind,
+a limiter of several arguments) keeps the plain form psi(r).
 """
 from __future__ import annotations
 
@@ -44,7 +46,9 @@ from ..symbols import R, Ratio, limiter_calls, limiter_name_of
 
 class ScaleDown(sympy.Function):
     """2^(bias - e) for the biased exponent e of m (clamped to the normal range):
-    m * ScaleDown(m) lies in [1, 4) for every m > 0; 2^(bias - 1) at m = 0."""
+    m * ScaleDown(m) lies in [2, 4) for every normal m > 2^(2 - bias) and below 2 for
+    smaller m (zero included); the printers read the exponent field of max(m / 2,
+    2^(1 - bias))."""
 
     nargs = 1
     is_positive = True
