@@ -56,7 +56,9 @@ class Analysis:
 
     @property
     def consistent(self) -> bool | None:
-        if not self.consistency and self.exceeded("consistency"):
+        """None (undecided) when no linear scheme stands for the scheme or the pass ran out
+        of budget."""
+        if not self.consistency and (self.exceeded("consistency") or not self.linearisation.smooth):
             return None
         return bool(self.consistency) and all(c.consistent for c in self.consistency)
 

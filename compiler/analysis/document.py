@@ -55,17 +55,18 @@ def analysis_document(a) -> dict:
                  "halo": s.halo, "offsets": list(s.offsets), "fingerprint": s.fingerprint,
                  "params": {p.name: {"value": _num(p.value), "exact": _exact(p.value)}
                             for p in s.params},
-                 "courant": a.courant, "linear": lin.exact, "linearisation": lin.note}
+                 "courant": a.courant, "linear": lin.exact, "linearisation": lin.note,
+                 "linearised_at": lin.where or None}
     undecided: list[str] = []
 
     # consistency and order
     doc["consistent"] = a.consistent
     order = a.order
     notes = [c.note for c in a.consistency if c.note]
-    if not lin.exact and lin.source == "linearisation":
+    if not lin.exact and lin.source == "linearisation" and lin.smooth:
         notes.append(f"order of the linearisation (at {lin.where}), for smooth data; near "
                      "extrema and discontinuities the nonlinear face may act differently")
-    elif not lin.exact:
+    elif not lin.exact and lin.source == "limiter":
         notes.append("order in smooth monotone regions (limiter linearised at r = 1); it drops "
                      "to first order or below at extrema, where the limiter switches off")
     if a.order_cap_note:
