@@ -317,3 +317,19 @@ def test_verify_measures_the_linearisation_and_rejects_wrong_claims():
     assert _convergence_finding(conv, profiles.SINE, right, 0.5, 1e-16).verdict == AGREE
     over = dataclasses.replace(right, order=4)
     assert _convergence_finding(conv, profiles.SINE, over, 0.5, 1e-16).verdict == DISAGREE
+
+
+def test_linearisation_reads_the_same_under_any_hash_seed():
+    # Same spec, same report: two interpreters with different hash seeds agree (the
+    # branch bookkeeping and the order of the linear schemes do not depend on hashing).
+    from conftest import outputs_under_hash_seeds
+
+    script = ("import json, sys\n"
+              "from fluxloom.compiler import load_scheme\n"
+              "from fluxloom.compiler.analysis import analyse\n"
+              "doc = analyse(load_scheme(sys.argv[1])).to_json()\n"
+              "print(json.dumps({k: doc[k] for k in ('linearisation', 'linearised_at', 'order',"
+              " 'modified_equation_by_scheme', 'stability')}, sort_keys=True))\n")
+    outputs = outputs_under_hash_seeds(script, [str(EXAMPLES / "clamped_centred_rk4.loom")],
+                                       ("1", "4242"))
+    assert len(outputs) == 1
