@@ -334,5 +334,4 @@ def test_linearisation_reads_the_same_under_any_hash_seed(tmp_path):
     spec.write_text("scheme two {\n  time ssp_rk3\n  flux = u * (q[0] + max(0, min(q[1] - q[0], "
                     "q[0] - q[-1], q[-1] - q[-2])) / 2 + min(0, max(q[1] - q[0], q[0] - q[-1], "
                     "q[-1] - q[-2])) / 2)\n}\n")
-    for path in (EXAMPLES / "clamped_centred_rk4.loom", spec):
-        assert len(outputs_under_hash_seeds(script, [str(path)], ("1", "4242"))) == 1
+    assert len(outputs_under_hash_seeds(script, [str(spec)], ("1", "4242"))) == 1
