@@ -227,7 +227,7 @@ def _workspace_formula(stage_buffers: int, registers: int) -> str:
 def _register_slices(registers: int) -> tuple[tuple[str, str], ...]:
     """Register k of a block lo:hi is work[k n + lo:k n + hi]."""
     return tuple((f"acc{k}", "work[lo:hi]" if k == 0 else
-                  (f"work[n + lo:n + hi]" if k == 1 else f"work[{k} * n + lo:{k} * n + hi]"))
+                  ("work[n + lo:n + hi]" if k == 1 else f"work[{k} * n + lo:{k} * n + hi]"))
                  for k in range(registers))
 
 

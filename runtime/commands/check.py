@@ -152,8 +152,9 @@ def render(doc: dict) -> str:
             out.append(f"  |G|^2 = {only['abs_squared_s']}, s = sin^2(theta/2)")
     if "time_method" in st:
         tm = st["time_method"]
-        out.append(f"  R(z) = {tm['stability_polynomial']}; imaginary-axis limit "
-                   f"{tm['imaginary_axis_limit_exact']}; SSP coefficient {_ssp(tm)}")
+        limit = _c(tm["imaginary_axis_limit"], tm["imaginary_axis_limit_exact"])
+        out.append(f"  R(z) = {tm['stability_polynomial']}; imaginary-axis limit {limit}; "
+                   f"SSP coefficient {_ssp(tm)}")
     out.append(f"  method: {st['method']}" + (f", tolerance {st['tolerance']:g}" if st["tolerance"] else ""))
 
     out.append("")
