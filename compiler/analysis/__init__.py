@@ -144,7 +144,7 @@ class _Passes:
 
 
 def _numeric_stability(ls) -> Stability:
-    from .stability import NUMERIC_TOLERANCE, numeric_set
+    from .stability import numeric_set
 
     stable = numeric_set(ls, ls.numeric_direct())
     return Stability(ls.label, "(not formed: the exact step went past the budget)",

@@ -190,7 +190,7 @@ def _chebyshev_sum_fast(h: Laurent) -> sympy.Expr:
     for k, v in h.items():
         if k > 0:
             total += 2 * element(v) * chebyshev[k]
-    return ring.to_sympy(total) if hasattr(ring, "to_sympy") else total.as_expr(S, C)
+    return total.as_expr(S, C)
 
 
 def _autocorrelation_fast(b: Laurent) -> Laurent:
@@ -252,7 +252,8 @@ class Linearisation:
     order_cap: int | None = None       # Jacobian linearisations: order claimed up to this
     cap_note: str = ""                 # (0: no order claimed); why
     where: str = ""                    # Jacobian linearisations: "a constant state",
-                                       # "smooth monotone data" or "numeric"
+                                       # "smooth monotone data" or "a constant state,
+                                       # numerically"
 
     @property
     def basis(self) -> str:
