@@ -29,7 +29,7 @@ import sympy
 
 from ..ir import Scheme
 from ..symbols import C, R, limiter_calls, limiter_name_of, offsets_in
-from ..timestep import StageUpdate, stage_updates, uses_accumulator
+from ..time_methods.low_storage import StageUpdate, low_storage_form
 from .limited import LimiterForm, safe_limiters
 
 FCT_EXTRA_FACES = 2
@@ -77,8 +77,9 @@ class KernelPlan:
     clip: tuple[sympy.Expr, sympy.Expr] | None
     limiters: tuple[LimiterProgram, ...]
     limiter_forms: tuple[LimiterFormProgram, ...]
-    stage_updates: tuple[StageUpdate, ...]
-    accumulator: bool
+    stage_updates: tuple[StageUpdate, ...]   # derived from the time method's table
+    registers: int      # arrays of n values kept in workspace from stage to stage
+    uses_start: bool    # whether a stage reads q_start
 
     @property
     def offsets(self) -> tuple[int, ...]:
@@ -156,7 +157,7 @@ def form_program(form: LimiterForm) -> FaceProgram:
 def plan_kernel(scheme: Scheme) -> KernelPlan:
     """The plan every back end renders for scheme."""
     fct = scheme.correct == "fct"
-    updates = stage_updates(scheme.time)
+    stepping = low_storage_form(scheme.time)
     face, forms = safe_limiters(scheme, scheme.face)
     low_face = None
     if scheme.low_face is not None:
@@ -176,7 +177,7 @@ def plan_kernel(scheme: Scheme) -> KernelPlan:
         time=scheme.time,
         halo=kernel_halo(scheme),
         face_halo=face_halo(scheme),
-        stages=len(updates),
+        stages=len(stepping.updates),
         params=tuple((p.name, p.value) for p in scheme.params),
         flux=program,
         low_flux=low if fct else None,
@@ -184,8 +185,9 @@ def plan_kernel(scheme: Scheme) -> KernelPlan:
         clip=scheme.clip,
         limiters=limiters,
         limiter_forms=limiter_forms,
-        stage_updates=updates,
-        accumulator=uses_accumulator(scheme.time),
+        stage_updates=stepping.updates,
+        registers=stepping.registers,
+        uses_start=stepping.uses_start,
     )
 
 
