@@ -7,6 +7,7 @@ writes `fabs`/`0.5` for double and `fabsf`/`0.5F` for float. Everything else
 """
 from __future__ import annotations
 
+from contextlib import contextmanager
 from dataclasses import dataclass
 
 import sympy
@@ -59,6 +60,7 @@ class KernelPrinter(C99CodePrinter):
         self.ctype = "float" if precision == "float" else "double"
         self.limiter_names = {lim.name for lim in plan.limiters}
         self.helpers_used: set[str] = set()
+        self.renames: dict = {}
 
     # -- user text ---------------------------------------------------------
     @staticmethod
@@ -109,10 +111,23 @@ class KernelPrinter(C99CodePrinter):
         text = shortest_text(nearest(value, self.precision), self.precision)
         return text + "F" if self.precision == "float" else text
 
+    @contextmanager
+    def reading(self, renames: dict):
+        """Print each symbol of renames as its replacement (a scaled face's copies)."""
+        self.renames = renames
+        try:
+            yield
+        finally:
+            self.renames = {}
+
     def _print_ParamSymbol(self, expr):
+        if expr in self.renames:
+            return self._print(self.renames[expr])
         return f"{self.plan.name}_PARAM_{expr.name}"
 
     def _print_Symbol(self, expr):
+        if expr in self.renames:
+            return self._print(self.renames[expr])
         if expr == C:
             return "c"
         if expr == R:
@@ -140,6 +155,9 @@ class KernelPrinter(C99CodePrinter):
     def _print_UnitSign(self, expr):
         suffix = "f" if self.precision == "float" else ""
         return f"copysign{suffix}({self.real_literal(sympy.Integer(1))}, {self._print(expr.args[0])})"
+
+    def _print_ParamBound(self, expr):
+        return self.real_literal(sympy.Integer(2) ** expr.exponent(self.precision))
 
     def _print_ScaleDown(self, expr):
         return self._call("scale_down", *expr.args)
@@ -188,9 +206,13 @@ class KernelPrinter(C99CodePrinter):
 # ---- source assembly -------------------------------------------------------
 
 def print_program(printer: KernelPrinter, program: FaceProgram) -> tuple[tuple[str, ...], str]:
-    lines = tuple(f"const {printer.ctype} {printer._print(sym)} = {printer._print(value)};"
-                  for sym, value in program.temporaries)
-    return lines, printer._print(program.result)
+    def line(sym, value):
+        return f"const {printer.ctype} {printer._print(sym)} = {printer._print(value)};"
+
+    lines = tuple(line(sym, value) for sym, value in program.scaling)
+    with printer.reading(dict(program.renames)):
+        lines += tuple(line(sym, value) for sym, value in program.temporaries)
+        return lines, printer._print(program.result)
 
 
 @dataclass(frozen=True)

@@ -9,6 +9,7 @@ domain), and lets a block whose faces share one velocity sign read every
 """
 from __future__ import annotations
 
+from contextlib import contextmanager
 from dataclasses import dataclass
 
 import sympy
@@ -52,6 +53,7 @@ class NumpyKernelPrinter(NumPyPrinter):
         self._limiter_names = frozenset(limiter_names)
         self.precision = precision
         self.used_helpers: set[str] = set()
+        self.renames: dict = {}
 
     @staticmethod
     def escape_text(text: str) -> str:
@@ -96,10 +98,23 @@ class NumpyKernelPrinter(NumPyPrinter):
         # `import numpy as np` in the generated module.
         return super()._module_format(fqn, register).replace("numpy.", "np.", 1)
 
+    @contextmanager
+    def reading(self, renames: dict):
+        """Print each symbol of renames as its replacement (a scaled face's copies)."""
+        self.renames = renames
+        try:
+            yield
+        finally:
+            self.renames = {}
+
     def _print_ParamSymbol(self, expr):
+        if expr in self.renames:
+            return self._print(self.renames[expr])
         return param_name(expr.name)
 
     def _print_Symbol(self, expr):
+        if expr in self.renames:
+            return self._print(self.renames[expr])
         k = offset_of(expr)
         if k is not None:
             return q_name(k)
@@ -111,6 +126,9 @@ class NumpyKernelPrinter(NumPyPrinter):
 
     def _print_UnitSign(self, expr):
         return f"np.copysign(1.0, {self._print(expr.args[0])})"
+
+    def _print_ParamBound(self, expr):
+        return self.real_literal(sympy.Integer(2) ** expr.exponent(self.precision))
 
     def _print_ScaleDown(self, expr):
         self.used_helpers.add("scale")
@@ -252,8 +270,11 @@ class NumpyModule:
 def print_function(printer: NumpyKernelPrinter, name: str, doc: str,
                    program: FaceProgram) -> Function:
     assignments = tuple((printer.doprint(sym), printer.doprint(value))
-                        for sym, value in program.temporaries)
-    return Function(name, doc, assignments, printer.doprint(program.result))
+                        for sym, value in program.scaling)
+    with printer.reading(dict(program.renames)):
+        assignments += tuple((printer.doprint(sym), printer.doprint(value))
+                             for sym, value in program.temporaries)
+        return Function(name, doc, assignments, printer.doprint(program.result))
 
 
 def stage_expression(printer: NumpyKernelPrinter, update: StageUpdate) -> Stage:

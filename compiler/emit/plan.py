@@ -31,6 +31,7 @@ from ..ir import Scheme
 from ..symbols import C, R, limiter_calls, limiter_name_of, offsets_in
 from ..time_methods.low_storage import StageUpdate, low_storage_form
 from .limited import LimiterForm, safe_limiters
+from .scaled_face import scaled_face
 
 FCT_EXTRA_FACES = 2
 """Extra face velocities (and faces) per side an FCT step evaluates."""
@@ -38,13 +39,20 @@ FCT_EXTRA_FACES = 2
 
 @dataclass(frozen=True)
 class FaceProgram:
-    """g as ordered temporaries and a result; evaluate top to bottom."""
+    """g as ordered temporaries and a result; evaluate top to bottom.
+
+    A scaled face (compiler/emit/scaled_face.py) first computes `scaling` (scaled
+    copies of the cells and params); the temporaries and the result are then printed
+    with each symbol of `renames` read as its scaled copy, so they are the very
+    operations of the face as written."""
 
     offsets: tuple[int, ...]
     temporaries: tuple[tuple[sympy.Symbol, sympy.Expr], ...]
     result: sympy.Expr
     uses_c: bool
     guard_c: bool
+    scaling: tuple[tuple[sympy.Symbol, sympy.Expr], ...] = ()
+    renames: tuple[tuple[sympy.Symbol, sympy.Symbol], ...] = ()
 
 
 @dataclass(frozen=True)
@@ -139,6 +147,21 @@ def face_program(expr: sympy.Expr, prefix: str = "t") -> FaceProgram:
     )
 
 
+def scaled_program(scheme: Scheme, face: sympy.Expr) -> FaceProgram:
+    """face_program, evaluated on scaled cell values where the face squares its data
+    (compiler/emit/scaled_face.py); as written everywhere else."""
+    found = scaled_face(face, offsets_in(face), scheme.param_values)
+    if found is None:
+        return face_program(face)
+    steps, up, renames = found
+    plain = face_program(face)
+    scaled = sympy.Symbol("scaled_g", real=True)
+    return FaceProgram(offsets=plain.offsets,
+                       temporaries=plain.temporaries + ((scaled, plain.result),),
+                       result=up * scaled, uses_c=plain.uses_c, guard_c=plain.guard_c,
+                       scaling=steps, renames=tuple(renames.items()))
+
+
 def limiters_used(scheme: Scheme, faces) -> tuple[str, ...]:
     """Limiters the kernel still calls in the plain form psi(r) (faces: the emitted g's)."""
     used = {limiter_name_of(call) for e in faces if e is not None
@@ -167,8 +190,8 @@ def plan_kernel(scheme: Scheme) -> KernelPlan:
                      for name in limiters_used(scheme, (face, low_face)))
     limiter_forms = tuple(LimiterFormProgram(name, kind, form_program(forms[(name, kind)]))
                           for name, kind in sorted(forms))
-    low = face_program(low_face) if low_face is not None else None
-    program = face_program(face)
+    low = scaled_program(scheme, low_face) if low_face is not None else None
+    program = scaled_program(scheme, face)
     if R in program.result.free_symbols:
         raise AssertionError("limiter argument symbol leaked into a face expression")
     return KernelPlan(
