@@ -9,8 +9,9 @@ MAX_CONSTANT_BITS bits.
 
 Kernels are built in double or single precision, and a spec must mean the same
 in both: every nonzero constant that reaches a kernel lies in the range of
-normal single-precision reals, [REAL_MIN, REAL_MAX] in magnitude, and is real and
-finite. Each target prints the constant rounded once to the nearest real of the
+single-precision reals, [REAL_MIN, REAL_MAX] in magnitude (below 1.2e-38 single
+precision keeps fewer digits, but no constant becomes 0 or infinite), and is real
+and finite. Each target prints the constant rounded once to the nearest real of the
 kernel's precision (IEEE round to nearest, ties to even), so C, Fortran and numpy
 hold the same bits.
 """
@@ -32,8 +33,8 @@ MAX_EXPONENT = 64
 """The largest power of a constant (q[0]^k needs |k| <= 64 as well)."""
 
 REAL_MAX = Fraction(int(np.finfo(np.float32).max))
-REAL_MIN = Fraction(*float(np.finfo(np.float32).tiny).as_integer_ratio())
-RANGE_TEXT = "1.2e-38 to 3.4e38"
+REAL_MIN = Fraction(*float(np.finfo(np.float32).smallest_subnormal).as_integer_ratio())
+RANGE_TEXT = "1.4e-45 to 3.4e38"
 
 _LITERAL = re.compile(r"^(\d*)(?:\.(\d*))?(?:[eE]([+-]?\d+))?$")
 
@@ -102,8 +103,8 @@ def check_range(value: sympy.Expr, span: Span | None, where: str | None = None,
         shown = (f"{float(exact_value(value)):.3g}" if Fraction(1, 10 ** 300) < magnitude
                  < 10 ** 300 else f"about 1e{_decimal_exponent(magnitude)}")
         raise _error(f"the {what} {shown} is outside the range of constants ({RANGE_TEXT} in "
-                     "magnitude), the normal single-precision reals: kernels of either "
-                     "precision must hold the same value", span, where)
+                     "magnitude), the single-precision reals: kernels of either precision "
+                     "must hold it", span, where)
 
 
 def _decimal_exponent(magnitude: Fraction) -> int:

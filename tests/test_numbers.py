@@ -30,6 +30,7 @@ CONSTANTS = {  # param name -> (text in the spec, exact value)
     "huge_int": ("12345678901234567890123", Fraction(12345678901234567890123)),
     "near_max": ("3.4e38", Fraction(34 * 10 ** 37)),
     "near_min": ("1.2e-38", Fraction(12, 10 ** 39)),
+    "subnormal_single": ("1e-40", Fraction(1, 10 ** 40)),
     "long": ("0.1234567890123456789012345678901234567890", Fraction(
         1234567890123456789012345678901234567890, 10 ** 40)),
     "negative": ("-7/9", Fraction(-7, 9)),
@@ -124,7 +125,7 @@ def test_a_param_defined_from_params_follows_set():
 REFUSED = [  # (flux expression, message fragment, where the caret goes: a part of it or
              # its index in the expression)
     ("1e39 * q[1]", "outside the range", "1e39"),
-    ("1e-39 * q[1]", "outside the range", "1e-39"),
+    ("1e-46 * q[1]", "outside the range", "1e-46"),
     ("1e308 * 10 * q[1]", "outside the range", "1e308"),
     ("1e20 * q[1] * 1e20", "combine into it", None),  # the whole flux expression
     ("sqrt(-1) * q[1]", "not a real number", "sqrt"),
@@ -155,6 +156,7 @@ def test_constants_no_kernel_can_hold_are_located_errors(face, fragment, culprit
 
 @pytest.mark.parametrize("item, fragment", [
     ("k=1e999999999", "outside the range"), ("k=1e40", "outside the range"),
+    ("k=1e-46", "outside the range"),
     ("k=" + "9" * 200, "digits"), ("k=70", "too large")])
 def test_set_values_are_bounded_too(item, fragment):
     text = "scheme powered {\n  param k = 2\n  flux = u * (q[0] + q[1]^k / 100)\n}\n"
