@@ -55,7 +55,7 @@ SCHEMES = {path.stem: load_scheme(path) for path in EXAMPLE_FILES}
 
 
 @pytest.mark.parametrize("name", sorted(SCHEMES))
-@settings(max_examples=12, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@settings(max_examples=8, deadline=None, suppress_health_check=[HealthCheck.too_slow])
 @given(shape=st.sampled_from(SHAPES), seed=st.integers(0, 2 ** 32 - 1),
        span=st.tuples(st.floats(0.0, 1.0), st.floats(0.0, 1.0)))
 def test_finite_data_gives_finite_output(name, shape, seed, span):
