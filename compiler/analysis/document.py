@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import sympy
 
+from ..emit.exchange import exchange_schedule
 from . import intervals
 from .intervals import CourantSet, Span
 from .timemethods import imaginary_axis_limit, method, stability_polynomial
@@ -66,6 +67,7 @@ def analysis_document(a) -> dict:
                             for p in s.params},
                  "courant": a.courant, "linear": lin.exact, "linearisation": lin.note}
     doc["time_method"] = time_method_document(s.time)
+    doc["exchange"] = exchange_schedule(s).to_json()  # the kernel's, for decomposed hosts
     undecided: list[str] = []
 
     # consistency and order
