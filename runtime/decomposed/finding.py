@@ -253,8 +253,9 @@ def verify_many(schemes, backend: str = "numpy", precision: str = "double", rank
         cells = next(iter(found.values())).cells[0]
         fields = {"constant": constant_velocity(cells, sign), "varying": varying_velocity(cells)}
         labels = []
+        clip = None if scheme.clip is None else tuple(float(v) for v in scheme.clip)
         for profile in profiles:
-            q0 = in_clip_range(profile, scheme.clip).cell_averages(cells).astype(kernel.dtype)
+            q0 = in_clip_range(profile, clip).cell_averages(cells).astype(kernel.dtype)
             for vname, u_face in fields.items():
                 dt_dx = courant / float(np.max(np.abs(u_face)))
                 reference = single_domain(kernel, q0, u_face, dt_dx, steps)
