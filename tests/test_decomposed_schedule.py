@@ -183,3 +183,48 @@ def test_the_schedule_is_what_a_block_needs(scheme):
     if schedule.q_exchanges > 1:                      # an exchange between stages is needed
         got, expected = block_stages(kernel, q0, u, dt_dx, lo, hi, corrupt="stale")
         assert not np.array_equal(got, expected)
+
+
+# ---- the README says what the code computes -----------------------------------------------
+
+def readme_table(header_start: str) -> list[list[str]]:
+    lines = (EXAMPLES.parent / "README.md").read_text().splitlines()
+    start = next(i for i, line in enumerate(lines) if line.startswith(header_start))
+    rows = []
+    for line in lines[start + 2:]:
+        if not line.startswith("|"):
+            break
+        rows.append([cell.strip() for cell in line.strip("|").split("|")])
+    return rows
+
+
+def test_readme_exchange_table_matches_the_schedules():
+    rows = readme_table("| kernel | q halo per side |")
+    assert len(rows) == 5
+    for kernel, halo, face_halo, per_step, _ in rows:
+        name = re.search(r"\(`(\w+)`\)", kernel).group(1)
+        s = exchange_schedule(load_scheme(EXAMPLES / f"{name}.loom"))
+        assert (int(halo), int(face_halo), int(per_step)) == (s.halo, s.face_halo, s.per_step)
+
+
+def test_readme_projection_table_matches_the_benchmark_formula():
+    """The projection is arithmetic on the schedule (no measurement): the README's
+    figures must be what benchmarks/bench_decomposed.py computes with its defaults."""
+    from fluxloom.benchmarks.bench_decomposed import projection
+
+    plain = exchange_schedule(load_scheme(EXAMPLES / "lw_vanleer.loom"))
+    fct = exchange_schedule(load_scheme(EXAMPLES / "lw_fct.loom"))
+    rows = readme_table("| side (cells per process) |")
+    assert [int(r[0].split()[0]) for r in rows] == [32, 64, 128, 256]
+    for side_text, plain_ratio, plain_share, fct_ratio, fct_share in rows:
+        side = int(side_text.split()[0])
+        for schedule, ratio, share in ((plain, plain_ratio, plain_share), (fct, fct_ratio, fct_share)):
+            p = projection(schedule, side, memory_gbs=5.0, network_gbs=0.5, latency_us=2.0)
+            assert float(ratio.rstrip(" %")) == pytest.approx(100 * p["bytes_ratio"], abs=0.06)
+            assert float(share.rstrip(" %")) == pytest.approx(100 * p["time_share"], abs=0.6)
+    # the ratio needs nothing but the schedule: 2 halo / (3 side), face halo added for FCT
+    for side in (32, 256):
+        assert projection(plain, side, 5.0, 0.5, 2.0)["bytes_ratio"] == pytest.approx(
+            2 * plain.halo / (3 * side))
+        assert projection(fct, side, 5.0, 0.5, 2.0)["bytes_ratio"] == pytest.approx(
+            (2 * fct.halo + 2 * fct.face_halo) / (3 * side))
