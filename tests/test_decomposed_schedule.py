@@ -99,6 +99,10 @@ def test_check_json_header_and_fortran_state_the_same_schedule(name, capsys):
     per_step = int(re.search(rf"#define {name}_EXCHANGES_PER_STEP (\d+)", header).group(1))
     assert per_step == exchange["per_step"]
     assert int(re.search(rf"#define {name}_HALO (\d+)", header).group(1)) == exchange["halo"]
+    assert main(["check", str(EXAMPLES / f"{name}.loom")]) == 0
+    text_report = capsys.readouterr().out
+    assert f"kernel halo {exchange['halo']} cells per side" in text_report
+    assert f"{exchange['per_step']} exchanges per step" in text_report
     for text in (header, module):
         flat = " ".join(re.sub(r"^\s*(\*|!)", "", line).strip() for line in text.splitlines())
         assert f"exchanges per step: {per_step} " in flat

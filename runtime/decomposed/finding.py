@@ -125,6 +125,10 @@ class Difference:
                 "rank": self.rank, "block": list(self.block), "from_edge": self.from_edge}
 
 
+def _exchanges(count: float) -> str:
+    return f"{count:g} exchange{'' if count == 1 else 's'}"
+
+
 def _finite(x: float):
     return float(x) if np.isfinite(x) else None
 
@@ -185,14 +189,14 @@ class DecomposedVerification:
         if self.fault:
             context += f"; fault injected for testing: {self.fault}"
         s = self.schedule
-        predicted = (f"bit-identical to the single-domain run, with {s.per_step} exchanges per "
-                     f"step (halo {s.halo}, face halo {s.face_halo})")
+        predicted = (f"bit-identical to the single-domain run, with {_exchanges(s.per_step)} "
+                     f"per step (halo {s.halo}, face halo {s.face_halo})")
         if self.identical:
             measured = f"bit-identical in all {self.runs} runs"
         else:
             measured = (f"{len(self.differing)} of {self.runs} runs differ; largest difference "
                         f"{self.max_difference:.3g} at {self.largest.text()}")
-        measured += f"; {self.exchanges_per_step:g} exchanges per step"
+        measured += f"; {_exchanges(self.exchanges_per_step)} per step"
         return Finding("decomposed", context, predicted, measured,
                        AGREE if self.agree else DISAGREE,
                        {"identical": self.identical, "max_difference": _finite(self.max_difference),
