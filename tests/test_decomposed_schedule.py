@@ -89,7 +89,7 @@ def test_schedule_counts_one_q_exchange_per_stage_and_one_for_fct_faces():
         assert len(s.to_json()["q_exchanges"]) == stages
 
 
-@pytest.mark.parametrize("name", ["kappa_rk3", "lw_fct", "centred4_ssp10"])
+@pytest.mark.parametrize("name", ["kappa_rk3", "lw_fct", "centred_rk4"])
 def test_check_json_header_and_fortran_state_the_same_schedule(name, capsys):
     scheme = load_scheme(EXAMPLES / f"{name}.loom")
     assert main(["check", str(EXAMPLES / f"{name}.loom"), "--json"]) == 0
