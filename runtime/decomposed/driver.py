@@ -3,8 +3,9 @@ exchanges of the kernel's schedule (compiler/emit/exchange.py).
 
 A sweep along one axis is the kernel's step along that axis: the face
 velocities' halo is refreshed once (flux correction only), then for every stage
-the halo of the stage's input is refreshed and the per-axis advance hook runs
-the stage on the block. In 1-D the hook is the kernel's own `stage`; a
+the halo of the stage's input is refreshed (from the neighbours, and by the
+caller's `fill_edge` beyond a non-periodic edge) and the per-axis advance hook
+runs the stage on the block. In 1-D the hook is the kernel's own `stage`; a
 multi-dimensional domain passes a hook that runs a sweep kernel along the axis
 (the decomposition, neighbours and exchanges are already N-D), and a split
 step is a sequence of sweeps.
@@ -33,12 +34,18 @@ no exchange between the stages of a step, or one ghost cell per side too few."""
 AxisAdvance = Callable[[int, int, np.ndarray, np.ndarray, np.ndarray, np.ndarray, float], None]
 """advance(axis, stage, q_start, q_stage, q_out, u_face, dt_dx): one stage along axis."""
 
+EdgeFill = Callable[[int, int, np.ndarray], None]
+"""fill(axis, side, q): the ghost cells of q beyond a domain edge (side -1 before the
+block, +1 after it) along axis; called after every exchange of q on a non-periodic
+axis, for each side of the block that has no neighbour (a wall, an inflow)."""
+
 
 class DecomposedDomain:
     """This rank's block of `layout`, the kernel that advances it and its exchanges."""
 
     def __init__(self, kernel: StageKernel, layout: Layout, comm: MPI.Comm | None = None,
-                 advance: AxisAdvance | None = None, fault: str | None = None):
+                 advance: AxisAdvance | None = None, fault: str | None = None,
+                 fill_edge: EdgeFill | None = None):
         comm = MPI.COMM_WORLD if comm is None else comm
         if comm.Get_size() != layout.ranks:
             raise decomposition_error(f"the layout {layout.describe()} has {layout.ranks} blocks "
@@ -49,8 +56,12 @@ class DecomposedDomain:
         if advance is None and layout.ndim > 1:
             raise decomposition_error("a multi-dimensional domain needs an advance hook that "
                                       "sweeps the kernel along one axis")
+        if fill_edge is None and not all(layout.periodic):
+            raise decomposition_error("a non-periodic axis needs fill_edge, which fills the "
+                                      "ghost cells beyond the domain's edges")
         layout.check_widths(kernel.halo, kernel.face_halo)
         self.kernel = kernel
+        self.fill_edge = fill_edge
         self.layout = layout
         self.fault = fault
         self.cart = comm.Create_cart(list(layout.dims), periods=list(layout.periodic),
@@ -93,6 +104,8 @@ class DecomposedDomain:
             target = out if stage == stages - 1 else self._buffers[stage % 2]
             if stage == 0 or self.fault != SKIP_STAGE_EXCHANGE:
                 self.exchange.cells(source, halo, axis, width)
+                for side in self.exchange.edges(axis):
+                    self.fill_edge(axis, side, source)
             self.advance(axis, stage, q, source, target, u_face, dt_dx)
         self._spare = q
         return out

@@ -47,6 +47,11 @@ class HaloExchange:
         self.neighbours = tuple(cart.Shift(axis, 1) for axis in range(len(block.size)))
         self.count = 0
 
+    def edges(self, axis: int) -> tuple[int, ...]:
+        """The sides of the block along axis with no neighbour (-1 before, +1 after)."""
+        before, after = self.neighbours[axis]
+        return tuple(side for side, rank in ((-1, before), (1, after)) if rank == MPI.PROC_NULL)
+
     def cells(self, q: np.ndarray, halo: int, axis: int, width: int | None = None) -> None:
         """Refresh `width` (default: all `halo`) ghost cells per side of q along axis."""
         w = halo if width is None else width

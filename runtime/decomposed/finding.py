@@ -25,7 +25,7 @@ from ..findings import AGREE, DISAGREE, Finding, in_clip_range
 from ..harness import constant_velocity, varying_velocity
 from ..kernel import fill_periodic, load_kernel, periodic_faces
 from ..profiles import BELL, MIXED, SINE, SQUARE
-from .blocks import Layout, even_split, narrowest_split
+from .blocks import Layout, narrowest_split
 from .launch import require_mpi, run_cases
 from .stages import kernel_sources
 
@@ -72,7 +72,7 @@ def domain_cells(ranks: int, width: int) -> int:
 def layouts(ranks: int, halo: int, face_halo: int) -> dict[str, Layout]:
     width = max(halo, face_halo)
     cells = domain_cells(ranks, width)
-    found = {"uneven": Layout((even_split(cells, ranks),), (True,)),
+    found = {"uneven": Layout.even((cells,), (ranks,)),
              "narrowest": Layout((narrowest_split(cells, ranks, width),), (True,))}
     if ranks == 1:
         del found["narrowest"]  # one block: both layouts are the same
