@@ -53,8 +53,8 @@ def check_run_size(cells: int, courant: float, what: str = "--courant") -> None:
                         file=what)
     steps = revolution_steps(cells, courant)
     if steps > MAX_STEPS:
-        raise LoomError(f"{what} {courant:g}: one revolution on {cells} cells takes {steps} "
-                        f"steps; a measuring run is capped at {MAX_STEPS} steps, so the smallest "
+        raise LoomError(f"c = {courant:g} needs {steps} steps for one revolution on {cells} "
+                        f"cells; a measuring run is capped at {MAX_STEPS} steps, so the smallest "
                         f"Courant number measured on {cells} cells is {cells / MAX_STEPS:g}",
                         file=what)
 

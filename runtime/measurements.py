@@ -80,6 +80,8 @@ def measure(kernel, prediction: Prediction, options: Options = Options(),
     if options.stability:
         say("stability sweep")
         linear = prediction.linear
-        stability = harness.stability_sweep(kernel, prediction.probe_courants(spectral=linear),
-                                            sign, linear=linear, clip=clip)
+        courants = prediction.probe_courants(spectral=linear)
+        if c <= max(courants):       # the runs' own Courant number is probed too
+            courants = courants + (c,)
+        stability = harness.stability_sweep(kernel, courants, sign, linear=linear, clip=clip)
     return Measurements(convergence, shapes, conservation, mirror, stability)
