@@ -85,13 +85,16 @@ class Prediction:
     def stable_at(self, c: float) -> bool | None:
         """True: claimed stable at c; False: claimed to grow at c; None: no claim.
 
-        A linear scheme is claimed stable exactly on its stable set. A nonlinear one is
-        claimed stable where every linear scheme standing for it is stable, and to grow
-        where none is; in between it may be either. Within the stated tolerance of an
-        edge nothing is claimed (the edge itself is measured to within it)."""
+        A linear scheme is claimed stable on its stable set (islands included, to the
+        analysis's own tolerance) and to grow elsewhere, except within STABILITY_TOL of an
+        edge, where growth may be too weak to see. A nonlinear one is claimed stable where
+        every linear scheme standing for it is stable and to grow where none is, away from
+        every edge by STABILITY_TOL; in between it may be either."""
         stability = self.claims.stability
         if not stability.decided:
             return None
+        if self.linear and stability.stable.contains(c, 1e-9 + (stability.tolerance or 0.0)):
+            return True
         if any(abs(c - e) < self.stability_margin() for e in self._edges()):
             return None
         if stability.stable.contains(c):

@@ -313,10 +313,11 @@ def _verdict(d: dict, path: str, islands: bool = True) -> Verdict:
     holds = _get(d, "holds", MAYBE_BOOL, path)
     reason = _get(d, "reason", str, path)
     source = _get(d, "source", str, path)
+    main = _part(d, path)                      # every key is read, whatever the verdict
+    others = _islands(d, path) if islands else ()
     if holds is None:
         return Verdict(None, Courants(), reason, source)
-    main = _part(d, path) if holds else None
-    parts = ([main] if main is not None else []) + list(_islands(d, path) if islands else ())
+    parts = ([main] if main is not None and holds else []) + list(others)
     return Verdict(holds, Courants(tuple(parts)), reason, source)
 
 
