@@ -18,7 +18,8 @@ from .rules import (AGREE, DISAGREE, FAULT, NO_CLAIM, Finding, conservation_find
                     symmetry_finding)
 
 __all__ = ["AGREE", "DISAGREE", "FAULT", "NO_CLAIM", "Finding", "Options", "Prediction",
-           "Verification", "in_clip_range", "judge", "mass_tolerance", "verify_kernel"]
+           "Verification", "in_clip_range", "judge", "mass_tolerance", "verification_json",
+           "verify_kernel"]
 
 
 @dataclass(frozen=True)
@@ -90,3 +91,10 @@ def verify_kernel(kernel, prediction: Prediction, options: Options = Options(),
     findings = judge(m, prediction, options, harness.round_off(kernel), kernel.precision)
     return Verification(prediction.scheme, kernel.backend, kernel.precision, options,
                         prediction, m, findings)
+
+
+def verification_json(v: Verification) -> dict:
+    """The document of `fluxloom verify --json` (kept here for callers; see report.py)."""
+    from .report import verification_json as document
+
+    return document(v)

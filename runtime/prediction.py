@@ -30,9 +30,11 @@ class Prediction:
         return cls(read_claims(doc))
 
     @classmethod
-    def from_analysis(cls, analysis) -> "Prediction":
-        """From an `Analysis` (its document, read strictly)."""
-        return cls.from_document(analysis.to_json())
+    def from_analysis(cls, analysis, scheme=None) -> "Prediction":
+        """From an `Analysis`, or from its document (read strictly either way); `scheme`
+        is accepted for older callers and not used: every claim comes from the analysis."""
+        doc = analysis if isinstance(analysis, dict) else analysis.to_json()
+        return cls.from_document(doc)
 
     # ---- plain facts ---------------------------------------------------------------
     @property
