@@ -13,7 +13,8 @@ from fluxloom.compiler.analysis import analyse
 
 from fluxloom.compiler.analysis.claims import read_claims
 from fluxloom.compiler.analysis.wording import (bounded_text, failure_text, limiter_text,
-                                                order_text, stability_text, verdict_text, yes_no)
+                                                order_text, stability_text, value_text,
+                                                verdict_text, yes_no)
 
 from .common import add_courant_option, add_set_option, add_spec_argument, parse_courant, \
     scheme_from_args
@@ -72,6 +73,11 @@ def write_figures(analysis, directory: Path, force: bool) -> tuple[list[Path], l
 
 # ---- terminal report ------------------------------------------------------------
 
+def _ssp(time_method: dict) -> str:
+    exact = time_method["ssp_coefficient_exact"]
+    return f"{exact} (not SSP)" if time_method["ssp_coefficient"] == 0 else exact
+
+
 def render(doc: dict) -> str:
     """The analysis for reading; every verdict is worded by compiler/analysis/wording.py."""
     claims = read_claims(doc)
@@ -80,6 +86,12 @@ def render(doc: dict) -> str:
     out.append(head)
     out.append(f"  time {doc['time']}, stencil offsets {doc['offsets']} (upwind frame), "
                f"halo {doc['halo']}" + "".join(f", {k} = {v['exact']}" for k, v in doc["params"].items()))
+    tm = doc["time_method"]
+    out.append(f"  time method {tm['name']}: {tm['stages']} stage{'s' if tm['stages'] > 1 else ''}, "
+               f"order {tm['order']}"
+               + (f" ({tm['linear_order']} on linear problems)"
+                  if tm["linear_order"] != tm["order"] else "")
+               + f", SSP coefficient {_ssp(tm)}")
     if not doc["linear"]:
         out.append(f"  nonlinear: {doc['linearisation']}")
 
@@ -114,9 +126,9 @@ def render(doc: dict) -> str:
             out.append(f"  |G|^2 = {only['abs_squared_s']}, s = sin^2(theta/2)")
     if "time_method" in st:
         tm = st["time_method"]
-        out.append(f"  R(z) = {tm['stability_polynomial']}; imaginary-axis limit "
-                   f"{tm['imaginary_axis_limit_exact']}; SSP coefficient "
-                   f"{tm['ssp_coefficient'] if tm['ssp_coefficient'] is not None else 'none (not SSP)'}")
+        limit = value_text(tm["imaginary_axis_limit"], tm["imaginary_axis_limit_exact"])
+        out.append(f"  R(z) = {tm['stability_polynomial']}; imaginary-axis limit {limit}; "
+                   f"SSP coefficient {_ssp(tm)}")
     out.append(f"  method: {st['method']}" + (f", tolerance {st['tolerance']:g}" if st["tolerance"] else ""))
 
     out.append("")
