@@ -136,3 +136,15 @@ def test_no_library_warnings_reach_stderr(capsys, tmp_path):
     err = capsys.readouterr().err
     assert "Warning" not in err and "Traceback" not in err
     assert status == 0 or (status == 2 and "singular.loom:" in err)  # or refused, located
+
+
+def test_values_read_exact_when_short_and_as_numbers_otherwise():
+    from fluxloom.compiler.analysis.wording import value_text
+
+    # sqrt(3) is the imaginary-axis limit of SSP-RK3 (common practice, no source)
+    assert value_text(3 ** 0.5, "sqrt(3)") == "sqrt(3)"
+    # a decimal from a numeric method is no exact form: shown to 6 digits
+    assert value_text(3.611122, "3.61112200000000") == "3.61112"
+    assert value_text(None, "oo") == "oo"
+    long_root = "CRootOf(2*x**3 - 3*x**2 + 3*x - 3, 0)"
+    assert value_text(1.2563726, long_root) == "1.25637"

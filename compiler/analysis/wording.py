@@ -30,11 +30,24 @@ def value_text(number: float | None, exact: str | None = None) -> str:
     """One end of an interval: exact when short, else 6 significant digits; 'oo' unbounded."""
     if exact == "oo" or (number is not None and number == math.inf):
         return "oo"
-    if exact is not None and len(exact) <= EXACT_WIDTH:
+    if exact is not None and len(exact) <= EXACT_WIDTH and not _float_literal(exact):
         return exact
+    if number is None and exact is not None and _float_literal(exact):
+        number = float(exact)
     if number is None:
         return "?"
     return f"{number:.6g}"
+
+
+def _float_literal(text: str) -> bool:
+    """A decimal written by a numeric method ("3.61112200000000"), not an exact form."""
+    if not any(ch in text for ch in ".eE"):
+        return False
+    try:
+        float(text)
+    except ValueError:
+        return False
+    return True
 
 
 def part_text(part: Part) -> str:
