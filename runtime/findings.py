@@ -12,12 +12,12 @@ from dataclasses import dataclass
 
 from . import harness
 from .measurements import SMOOTH, Measurements, Options, in_clip_range, mass_tolerance, measure
-from .prediction import Prediction
+from .prediction import SMALL_DATA, Prediction
 from .rules import (AGREE, DISAGREE, FAULT, NO_CLAIM, Finding, conservation_finding,
                     convergence_finding, godunov_finding, shape_findings, stability_finding,
                     symmetry_finding)
 
-__all__ = ["AGREE", "DISAGREE", "FAULT", "NO_CLAIM", "Finding", "Options", "Prediction",
+__all__ = ["AGREE", "DISAGREE", "FAULT", "NO_CLAIM", "SMALL_DATA", "Finding", "Options", "Prediction",
            "Verification", "in_clip_range", "judge", "mass_tolerance", "verification_json",
            "verify_kernel"]
 

@@ -448,15 +448,20 @@ def growth_probe(kernel, courant: float, velocity: float = 1.0, n: int = 64,
 
 
 def stability_sweep(kernel, courants, velocity: float = 1.0, linear: bool = False,
-                    clip: tuple[float, float] | None = None) -> Stability:
+                    clip: tuple[float, float] | None = None,
+                    amplitude: float | None = None) -> Stability:
     """Probe every Courant number in `courants`, then bisect each change between
     neighbouring ones (stable to growing or back) to locate the edges.
 
-    The caller picks the Courant numbers (runtime/rules.py covers the predicted set,
-    its complement and its islands). Linear schemes (`linear`, possibly under a
-    `clip`) are probed spectrally, others by growth over many steps."""
+    The caller picks the Courant numbers (runtime/prediction.py covers the predicted
+    set, its complement and its islands). Linear schemes (`linear`, possibly under a
+    `clip`) are probed spectrally, others by growth over many steps. `amplitude` sets
+    the size of the random data: a nonlinear face linearised at a constant state acts
+    as its linearisation on data small enough (its weights at their ideal values), so
+    it is probed there."""
     # a clamped scheme is probed well inside its range, where the clamp stays idle
-    centre, amplitude = ((clip[0] + clip[1]) / 2, (clip[1] - clip[0]) * 1e-3) if clip else (0.0, 1.0)
+    centre, size = ((clip[0] + clip[1]) / 2, (clip[1] - clip[0]) * 1e-3) if clip else (0.0, 1.0)
+    amplitude = size if amplitude is None else amplitude
     if linear:
         def measure(c):
             return spectral_probe(kernel, c, velocity, centre=centre, amplitude=amplitude)

@@ -79,9 +79,10 @@ def measure(kernel, prediction: Prediction, options: Options = Options(),
     stability = None
     if options.stability:
         say("stability sweep")
-        linear = prediction.linear
-        courants = prediction.probe_courants(spectral=linear)
+        spectral = prediction.spectral
+        courants = prediction.probe_courants(spectral=spectral)
         if c <= max(courants):       # the runs' own Courant number is probed too
             courants = courants + (c,)
-        stability = harness.stability_sweep(kernel, courants, sign, linear=linear, clip=clip)
+        stability = harness.stability_sweep(kernel, courants, sign, linear=spectral, clip=clip,
+                                            amplitude=prediction.probe_amplitude)
     return Measurements(convergence, shapes, conservation, mirror, stability)

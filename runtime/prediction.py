@@ -16,6 +16,9 @@ from fluxloom.compiler.analysis.claims import Claims, Courants, read_claims
 
 STABILITY_TOL = 0.02       # a measured edge within 0.02 of the predicted one agrees
 SMOOTH_MONOTONE = "smooth monotone data"   # the linearisation of a limiter or a clamp
+CONSTANT_STATE = "a constant state"        # the Jacobian of a differentiable face
+SMALL_DATA = 1e-30         # random data this small see a face linearised at a constant state
+                           # act as its linearisation (differences far below any weight's scale)
 
 
 @dataclass(frozen=True)
@@ -61,11 +64,32 @@ class Prediction:
         return self.claims.linear and not self.claims.fct
 
     @property
+    def linearised_at_constant_state(self) -> bool:
+        """A nonlinear face without a limiter, linearised by its Jacobian at a constant
+        state: on small enough data it is its linearisation, so it is probed spectrally."""
+        return (self.claims.linearised_at or "").startswith(CONSTANT_STATE)
+
+    @property
+    def linearised_on_smooth_data(self) -> bool:
+        """A nonlinear face without a limiter, linearised on smooth monotone data (a clamp
+        between neighbours): the stability claim is the linearisation's there, and random
+        data exercise the face elsewhere, so they are reported, not judged."""
+        return self.claims.linearised_at == SMOOTH_MONOTONE
+
+    @property
+    def spectral(self) -> bool:
+        """Stability is measured mode by mode (on small data for a Jacobian linearisation)."""
+        return self.linear or self.linearised_at_constant_state
+
+    @property
+    def probe_amplitude(self) -> float | None:
+        return SMALL_DATA if self.linearised_at_constant_state else None
+
+    @property
     def clips_extrema(self) -> bool:
         """A limiter, a clamp between neighbours or FCT flattens smooth extrema, so its
         order shows only in smooth monotone regions (the analysis linearised it there)."""
-        return bool(self.claims.limiters) or self.claims.fct or (
-            not self.claims.linear and SMOOTH_MONOTONE in self.claims.linearisation)
+        return bool(self.claims.limiters) or self.claims.fct or self.linearised_on_smooth_data
 
     @property
     def conservative(self) -> bool | None:
@@ -93,15 +117,17 @@ class Prediction:
         every linear scheme standing for it is stable and to grow where none is, away from
         every edge by STABILITY_TOL; in between it may be either."""
         stability = self.claims.stability
-        if not stability.decided:
+        if not stability.decided or self.linearised_on_smooth_data:
             return None
-        if self.linear and stability.stable.contains(c, 1e-9 + (stability.tolerance or 0.0)):
-            return True
+        tolerance = stability.tolerance or 0.0
+        if self.spectral and stability.stable.contains(c, 1e-9) and (
+                not tolerance or stability.stable.distance_to_edge(c) > tolerance):
+            return True     # inside, islands included (a numeric edge: beyond its tolerance)
         if any(abs(c - e) < self.stability_margin() for e in self._edges()):
             return None
         if stability.stable.contains(c):
             return True
-        if self.linear:
+        if self.spectral:
             return False
         if not stability.standins:
             return None

@@ -245,6 +245,7 @@ class Claims:
     courant: float
     linear: bool
     linearisation: str
+    linearised_at: str | None     # nonlinear faces without a limiter: "a constant state", ...
     consistent: bool | None
     order: Order
     stability: Stability
@@ -382,6 +383,7 @@ def read_claims(doc: dict) -> Claims:
         courant=float(_get(doc, "courant", NUMBER, "")),
         linear=_get(doc, "linear", bool, ""),
         linearisation=_get(doc, "linearisation", str, ""),
+        linearised_at=_get(doc, "linearised_at", MAYBE_TEXT, ""),
         consistent=_get(doc, "consistent", MAYBE_BOOL, ""),
         order=_order(doc),
         stability=_stability(doc),

@@ -6,10 +6,12 @@ document (schema in README.md); `--plots DIR` writes PNG figures.
 from __future__ import annotations
 
 import json
+import math
 from pathlib import Path
 
 from fluxloom.compiler import LoomError
 from fluxloom.compiler.analysis import analyse
+from fluxloom.compiler.analysis.budget import DEFAULT_SECONDS
 
 from fluxloom.compiler.analysis.claims import read_claims
 from fluxloom.compiler.analysis.wording import (bounded_text, failure_text, limiter_text,
@@ -34,13 +36,29 @@ def register(sub) -> None:
                         help="write PNG figures (|G|, stability map, phase speed, limiters) to DIR")
     parser.add_argument("--force", action="store_true",
                         help="overwrite existing figures in the --plots directory")
+    parser.add_argument("--budget", default=str(DEFAULT_SECONDS), metavar="SECONDS",
+                        help="CPU seconds each analysis pass may take before it falls back to "
+                             f"a numeric method or says undecided (default {DEFAULT_SECONDS:g})")
     parser.set_defaults(run=run)
+
+
+def parse_budget(text: str) -> float:
+    try:
+        value = float(text)
+    except ValueError:
+        raise LoomError(f"--budget expects a number of seconds, given '{text}'",
+                        file="--budget") from None
+    if not math.isfinite(value) or value <= 0:
+        raise LoomError(f"--budget must be a positive number of seconds, given '{text}'",
+                        file="--budget")
+    return value
 
 
 def run(args) -> int:
     courant = parse_courant(args.courant)
+    seconds = parse_budget(args.budget)
     scheme = scheme_from_args(args)
-    analysis = analyse(scheme, courant)
+    analysis = analyse(scheme, courant, seconds)
     doc = analysis.to_json()
     if args.plots:
         written, skipped = write_figures(analysis, Path(args.plots), args.force)
@@ -194,6 +212,13 @@ def render(doc: dict) -> str:
     if doc["undecided"]:
         out.append("")
         out.append("undecided     " + "; ".join(doc["undecided"]))
+    over = doc.get("budget", {}).get("exceeded") or []
+    if over:
+        out.append("")
+        out.append(f"budget        {doc['budget']['seconds']:g} s of CPU time per pass "
+                   "(--budget); past it:")
+        for item in over:
+            out.append(f"  {item['pass']}: {item['note']}")
     if "plots" in doc:
         out.append("")
         out.append("plots         " + (", ".join(doc["plots"]) or "none written"))
