@@ -9,8 +9,10 @@ from __future__ import annotations
 
 import sympy
 
+from ..emit.exchange import exchange_schedule
 from . import intervals
 from .intervals import CourantSet, Span
+from .wording import r_set_text
 from .timemethods import imaginary_axis_limit, method, stability_polynomial
 
 SCHEMA_VERSION = 1
@@ -43,6 +45,17 @@ def _set(cset: CourantSet | None) -> dict:
             "set": cset.text(), "method": cset.method, "tolerance": cset.tolerance}
 
 
+def _r_end(value):
+    return None if value in (sympy.oo, -sympy.oo) else float(sympy.N(value, 17))
+
+
+def _failure(failure) -> dict:
+    """A limiter failure: the property, the range of r where it fails (readable and numeric)."""
+    where = failure.where
+    return {"property": failure.property, "r": r_set_text(where),
+            "r_min": _r_end(where.inf), "r_max": _r_end(where.sup), "detail": failure.detail}
+
+
 def _terms(terms) -> list[dict]:
     return [{"derivative": t.derivative_name, "derivative_order": t.derivative,
              "coefficient": t.coefficient_text} for t in terms]
@@ -67,6 +80,7 @@ def analysis_document(a) -> dict:
                  "courant": a.courant, "linear": lin.exact, "linearisation": lin.note,
                  "linearised_at": lin.where or None}
     doc["time_method"] = time_method_document(s.time)
+    doc["exchange"] = exchange_schedule(s).to_json()  # the kernel's, for decomposed hosts
     undecided: list[str] = []
 
     # consistency and order
@@ -206,7 +220,8 @@ def analysis_document(a) -> dict:
             "symmetric": lim.symmetric, "sup_psi": _num(lim.sup_psi),
             "sup_psi_exact": _exact(lim.sup_psi), "sup_psi_over_r": _num(lim.sup_psi_over_r),
             "sup_psi_over_r_exact": _exact(lim.sup_psi_over_r),
-            "method": lim.method, "why_not": list(lim.why)}
+            "method": lim.method, "why_not": list(lim.why),
+            "failures": [_failure(f) for f in lim.failures]}
 
     # TVD
     t = a.tvd
