@@ -59,13 +59,14 @@ class NumpyKernelPrinter(NumPyPrinter):
     def escape_text(text: str) -> str:
         """Any string as text that is inert between the quotes of a Python string or
         docstring and reads back as exactly that string: printable characters stay,
-        a backslash and a quote are escaped, every other character (control
+        a backslash and a double quote are escaped (generated strings are delimited by
+        double quotes), every other character (control
         characters, NUL, line separators, lone surrogates) becomes \\xHH, \\uHHHH
         or \\UHHHHHHHH."""
         out = []
         for ch in text:
             code = ord(ch)
-            if ch in "\\\"'":
+            if ch in "\\\"":
                 out.append("\\" + ch)
             elif ch.isprintable():
                 out.append(ch)
