@@ -60,9 +60,11 @@ def analyse_stability(scheme: LinearScheme) -> Stability:
     if scheme.time != "euler":
         semi = sympy.sstr(sum((v * z ** m for m, v in sorted(scheme.semi_discrete.items())),
                               sympy.Integer(0)))
+    stable = stable_set(scheme)
+    if scheme.valid_to is not None:
+        stable = intervals.restrict_to(stable, scheme.valid_to)
     return Stability(scheme.label, sympy.sstr(scheme.amplification),
-                     _abs_squared_text(scheme.abs_squared),
-                     semi, stable_set(scheme))
+                     _abs_squared_text(scheme.abs_squared), semi, stable)
 
 
 def _abs_squared_text(value: sympy.Expr) -> str:

@@ -68,8 +68,8 @@ class NumpyKernelPrinter(NumPyPrinter):
 
     def _print_Function(self, expr):
         name = type(expr).__name__
-        if name in self._limiter_names:
-            return f"{limiter_name(name)}({self._print(expr.args[0])})"
+        if name in self._limiter_names:  # psi(r), or psi(r, c) with the face's c
+            return f"{limiter_name(name)}({', '.join(self._print(a) for a in expr.args)})"
         return super()._print_Function(expr)
 
     def _print_Min(self, expr):
@@ -128,6 +128,7 @@ class Function:
     doc: str
     assignments: tuple[tuple[str, str], ...]
     result: str
+    arguments: str = "r"   # limiters: "r", or "r, c" for a limiter of the Courant number
 
 
 @dataclass(frozen=True)
@@ -176,10 +177,10 @@ class NumpyModule:
 
 
 def print_function(printer: NumpyKernelPrinter, name: str, doc: str,
-                   program: FaceProgram) -> Function:
+                   program: FaceProgram, arguments: str = "r") -> Function:
     assignments = tuple((printer.doprint(sym), printer.doprint(value))
                         for sym, value in program.temporaries)
-    return Function(name, doc, assignments, printer.doprint(program.result))
+    return Function(name, doc, assignments, printer.doprint(program.result), arguments)
 
 
 def stage_expression(printer: NumpyKernelPrinter, update: StageUpdate) -> Stage:
@@ -231,8 +232,10 @@ def numpy_module(scheme: Scheme, precision: str = "double", banner=None) -> Nump
     if plan.low_flux is not None:
         faces.append(print_function(printer, "low_face_values",
                                     "g of the monotone low-order flux", plan.low_flux))
+    arguments = {lim.name: "r, c" if lim.courant else "r" for lim in scheme.limiters}
     limiters = tuple(print_function(printer, limiter_name(lim.name),
-                                    f"The limiter {lim.name}(r).", lim.program)
+                                    f"The limiter {lim.name}({arguments[lim.name]}).",
+                                    lim.program, arguments[lim.name])
                      for lim in plan.limiters)
     offsets = tuple(Offset(q_name(k), _shift(k - 1), _shift(-k)) for k in plan.offsets)
     programs = [plan.flux] + ([plan.low_flux] if plan.low_flux is not None else [])

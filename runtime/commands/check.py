@@ -6,8 +6,10 @@ document (schema in README.md); `--plots DIR` writes PNG figures.
 from __future__ import annotations
 
 import json
-import math
+from fractions import Fraction
 from pathlib import Path
+
+import sympy
 
 from fluxloom.compiler import LoomError
 from fluxloom.compiler.analysis import analyse
@@ -23,8 +25,9 @@ def register(sub) -> None:
     add_spec_argument(parser)
     add_set_option(parser)
     parser.add_argument("--json", action="store_true", help="print the analysis as JSON")
-    parser.add_argument("--courant", default="0.5", metavar="C",
-                        help="Courant number for the dispersion table (default 0.5)")
+    parser.add_argument("--courant", default="1/2", metavar="C",
+                        help="Courant number for the dispersion table and the verdicts at one "
+                             "Courant number; a decimal or a fraction such as 3/5 (default 1/2)")
     parser.add_argument("--plots", metavar="DIR",
                         help="write PNG figures (|G|, stability map, phase speed, limiters) to DIR")
     parser.add_argument("--force", action="store_true",
@@ -32,12 +35,15 @@ def register(sub) -> None:
     parser.set_defaults(run=run)
 
 
-def parse_courant(text: str) -> float:
+def parse_courant(text: str) -> Fraction:
+    """A positive Courant number, exact: '0.6' and '3/5' are both 3/5."""
     try:
-        value = float(text)
-    except ValueError:
-        raise LoomError(f"--courant expects a number, given '{text}'", file="--courant") from None
-    if not math.isfinite(value) or value <= 0:
+        top, _, bottom = text.strip().partition("/")
+        value = Fraction(top.strip()) / (Fraction(bottom.strip()) if bottom else 1)
+    except (ValueError, ZeroDivisionError):
+        raise LoomError(f"--courant expects a number such as 0.6 or 3/5, given '{text}'",
+                        file="--courant") from None
+    if value <= 0:
         raise LoomError(f"--courant must be a positive number, given '{text}'", file="--courant")
     return value
 
@@ -45,7 +51,7 @@ def parse_courant(text: str) -> float:
 def run(args) -> int:
     courant = parse_courant(args.courant)
     scheme = scheme_from_args(args)
-    analysis = analyse(scheme, courant)
+    analysis = analyse(scheme, sympy.Rational(courant.numerator, courant.denominator))
     doc = analysis.to_json()
     if args.plots:
         from fluxloom.runtime.analysis_plots import write_plots
@@ -85,6 +91,8 @@ def _interval(d: dict) -> str:
         return "no interval"
     lo = _c(d.get("courant_min"), d.get("courant_min_exact"))
     hi = _c(d.get("courant_max"), d.get("courant_max_exact"))
+    if lo == hi:
+        return f"c = {lo}"
     closing = ")" if d.get("courant_max_exact") == "oo" else "]"
     return f"[{lo}, {hi}{closing}"
 
@@ -96,6 +104,14 @@ def _islands(d: dict) -> str:
     return "; also " + ", ".join(
         f"c = {_c(i['courant_min'], i['courant_min_exact'])}" if i["courant_min"] == i["courant_max"]
         else _interval(i) for i in isl)
+
+
+def _only(d: dict) -> str:
+    """' (only at c = 1/2)' for a verdict that holds at isolated Courant numbers only."""
+    isl = d.get("islands") or []
+    if not isl:
+        return ""
+    return " (only at " + ", ".join(_interval(i) for i in isl) + ")"
 
 
 def render(doc: dict) -> str:
@@ -126,8 +142,16 @@ def render(doc: dict) -> str:
 
     st = doc["stability"]
     out.append("")
-    out.append(f"stability     {st['kind']}" + (f" for c in {_interval(st)}" if st["kind"] == "conditional" else "")
-               + _islands(st))
+    out.append(f"stability     {st['kind'] or 'undecided'}"
+               + (f" for c in {_interval(st)}" if st["kind"] == "conditional" else "")
+               + (_islands(st) if st["kind"] else _only(st).replace("only at", "proven stable only at"))
+               + ("; no claim elsewhere" if st["outside"] == "no claim" and st["kind"] else ""))
+    out.append(f"  basis: {st['basis']}")
+    at = st["at_courant"]
+    out.append(f"  at c = {at['courant_exact']}: "
+               + {True: "stable", False: "unstable", None: "no claim"}[at["stable"]])
+    if st.get("stand_ins"):
+        out.append(f"  stand-ins: all stable for {st['stand_ins']['set']}")
     for sch in st["schemes"]:
         if len(st["schemes"]) > 1 or sch.get("islands"):
             out.append(f"  {sch['label']}: {sch['kind']}, stable for {sch['set']}")
@@ -156,7 +180,7 @@ def render(doc: dict) -> str:
     mono = doc["monotone"]
     out.append("")
     out.append(f"monotone      {_yes(mono['holds'])}" + (f" for c in {_interval(mono)}" if mono["holds"] else "")
-               + f": {mono['reason']}")
+               + (_islands(mono) if mono["holds"] else _only(mono)) + f": {mono['reason']}")
     if mono["coefficients"]:
         out.append("  update coefficients: " + ", ".join(
             f"q[j{int(k):+d}] {v}" for k, v in mono["coefficients"].items()))
@@ -170,13 +194,16 @@ def render(doc: dict) -> str:
             slope = lim["slope_at_1"]
             slopes = (slope["left_exact"] if slope["left_exact"] == slope["right_exact"]
                       else f"{slope['left_exact']} (left), {slope['right_exact']} (right)")
-            out.append(f"  {name}(r) = {lim['psi']}")
+            out.append(f"  {name}({', '.join(lim['arguments'])}) = {lim['psi']}")
             out.append(f"    psi(1) = {lim['psi_at_1_exact']}, slope at 1 = {slopes}, "
-                       f"max psi = {lim['sup_psi_exact']}")
+                       f"max psi = {lim['sup_psi_exact'] or 'depends on c'}")
             out.append(f"    Sweby TVD region {_yes(lim['sweby_tvd'])}; second-order region "
                        f"{_yes(lim['second_order_region'])}; symmetric {_yes(lim['symmetric'])}")
+            if lim["tvd_courant"]["set"] is not None:
+                out.append(f"    in the Courant-dependent region for {lim['tvd_courant']['set']}; "
+                           f"its second-order part for {lim['second_order_courant']['set']}")
             for why in lim["why_not"]:
-                out.append(f"    because {why}")
+                out.append(f"    fails: {why}")
             out.append(f"    method: {lim['method']}")
 
     tvd = doc["tvd"]
@@ -185,7 +212,8 @@ def render(doc: dict) -> str:
         out.append(f"TVD           undecided: {tvd['reason']}")
     else:
         where = tvd["set"] if tvd.get("set") else "no Courant number"
-        out.append(f"TVD           {_yes(tvd['holds'])}" + (f" for {where}" if tvd["holds"] else ""))
+        out.append(f"TVD           {_yes(tvd['holds'])}" + (f" for {where}" if tvd["holds"] else
+                                                            _only(tvd)))
         out.append(f"  method: {tvd['method']}")
         if tvd["reason"]:
             out.append(f"  {tvd['reason']}")
