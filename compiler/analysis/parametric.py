@@ -23,6 +23,7 @@ from __future__ import annotations
 
 import itertools
 from dataclasses import dataclass
+from functools import lru_cache
 from typing import Callable
 
 import sympy
@@ -56,13 +57,20 @@ class Band:
     zero_values: tuple[sympy.Expr, ...]   # every value at r = 0 exactly (IEEE), functions of c
 
     def sign_at_sample(self, piece: Piece) -> int:
-        r_mid = piecewise.rational_between(_at(piece.lo, self.sample), _at(piece.hi, self.sample))
-        return int(sympy.sign(piece.expr.xreplace({R: r_mid, C: self.sample})))
+        key = (piece, self.sample)
+        if key not in _SIGNS:
+            r_mid = piecewise.rational_between(_at(piece.lo, self.sample),
+                                               _at(piece.hi, self.sample))
+            _SIGNS[key] = int(sympy.sign(piece.expr.xreplace({R: r_mid, C: self.sample})))
+        return _SIGNS[key]
 
     def contains_r(self, piece: Piece, lo, hi) -> bool:
         """Whether the piece lies inside lo < r < hi (marks: constants or -oo/oo)."""
         mid = piecewise.rational_between(_at(piece.lo, self.sample), _at(piece.hi, self.sample))
         return (lo == -sympy.oo or mid > lo) and (hi == sympy.oo or mid < hi)
+
+
+_SIGNS: dict = {}
 
 
 @dataclass(frozen=True)
@@ -119,7 +127,18 @@ def _positive_roots_in_c(expr) -> list:
         return []
     if expr.free_symbols != {C}:
         raise NotExact
-    return intervals.positive_roots(expr, C)
+    return list(_cached_positive_roots(expr))
+
+
+@lru_cache(maxsize=4096)
+def _cached_positive_roots(expr) -> tuple:
+    return tuple(intervals.positive_roots(expr, C))
+
+
+@lru_cache(maxsize=4096)
+def _crossings(f, g) -> tuple:
+    """Positive c where a zero in r of f meets one of g (their resultant in r)."""
+    return tuple(_positive_roots_in_c(sympy.resultant(f, g, R)))
 
 
 def _critical_values(factors) -> set:
@@ -138,7 +157,7 @@ def _critical_values(factors) -> set:
     for f, g in itertools.combinations(r_factors, 2):
         if C not in f.free_symbols and C not in g.free_symbols:
             continue
-        critical.update(_positive_roots_in_c(sympy.resultant(f, g, R)))
+        critical.update(_crossings(*sorted((f, g), key=sympy.default_sort_key)))
     return critical
 
 
@@ -165,7 +184,7 @@ def _cuts_at(factors, c_value) -> list:
     return unique
 
 
-def _band_at(body, lo, hi, factors, found: set) -> Band:
+def _band_at(body, lo, hi, factors, found: set, at_zero=None) -> Band:
     sample = intervals.rational_between(lo, hi) if hi != sympy.oo else (
         sympy.floor(intervals.number(lo)) + 1 if lo != 0 else sympy.Integer(1))
     cuts = _cuts_at(factors, sample)
@@ -181,7 +200,7 @@ def _band_at(body, lo, hi, factors, found: set) -> Band:
         found.update((numerator, denominator))  # sign changes and c-only poles
         pieces.append(Piece(expr, a_end, b_end))
     zero_values = []
-    outcomes = ieee_values(body, {R: sympy.Integer(0)})
+    outcomes = at_zero if at_zero is not None else ieee_values(body, {R: sympy.Integer(0)})
     if outcomes is None or any(v in (sympy.nan, sympy.oo, -sympy.oo) for v in outcomes):
         raise NotExact
     for value in outcomes:
@@ -209,11 +228,28 @@ def _structural_switches(body) -> set:
 
 def picture(body: sympy.Expr, marks=(0, 1), extra_critical=(), top=None) -> Picture:
     """Bands of 0 < c (< top, when given) and, in each, the pieces of body in r.
-    Raises NotExact."""
-    body = sympy.sympify(body)
+    Raises NotExact. Cached: several analyses ask for the same body's picture."""
+    key = (sympy.sympify(body), tuple(marks), tuple(extra_critical), top)
+    if key not in _PICTURES:
+        try:
+            _PICTURES[key] = _picture(*key)
+        except NotExact:
+            _PICTURES[key] = None
+        if len(_PICTURES) > 256:
+            _PICTURES.pop(next(iter(_PICTURES)))
+    if _PICTURES[key] is None:
+        raise NotExact
+    return _PICTURES[key]
+
+
+_PICTURES: dict = {}
+
+
+def _picture(body: sympy.Expr, marks, extra_critical, top) -> Picture:
     if not body.free_symbols <= {R, C}:
         raise NotExact
     switches = {R - m for m in marks} | _structural_switches(body)
+    at_zero = ieee_values(body, {R: sympy.Integer(0)})  # the same for every band
     try:
         for _ in range(MAX_ROUNDS):
             factors = _polynomial_factors(switches)
@@ -226,7 +262,7 @@ def picture(body: sympy.Expr, marks=(0, 1), extra_critical=(), top=None) -> Pict
             bands = []
             try:
                 for lo, hi in zip(edges, edges[1:]):
-                    bands.append(_band_at(body, lo, hi, factors, found))
+                    bands.append(_band_at(body, lo, hi, factors, found, at_zero))
             except _Again:
                 bands = None
             new = _polynomial_factors(found) - factors
@@ -405,14 +441,19 @@ def _piece_candidates(h, piece: Piece, extra: set) -> list[Candidate]:
     return cands
 
 
+@lru_cache(maxsize=4096)
+def _transformed(transform, expr, sign):
+    return sympy.cancel(transform(expr, sign))
+
+
 def candidates(band: Band, extreme: Extreme, extra: set) -> list[Candidate]:
     out = []
     for transform, domain in extreme.parts:
         for (lo, hi), piece in itertools.product(domain, band.pieces):
             if not band.contains_r(piece, lo, hi):
                 continue
-            h = sympy.cancel(transform(piece.expr, band.sign_at_sample(piece)))
-            out += _piece_candidates(h, piece, extra)
+            out += _piece_candidates(_transformed(transform, piece.expr,
+                                                  band.sign_at_sample(piece)), piece, extra)
     if extreme.at_zero is not None:
         out += [Candidate(sympy.cancel(extreme.at_zero(v))) for v in band.zero_values]
     unique = {}
@@ -453,13 +494,38 @@ def _holds(band_candidates, conditions, c_value) -> bool:
     return True
 
 
+_FIELD_CACHE: dict = {}
+
+
+def _in_field(expr):
+    """expr as an element of QQ(c), or None (algebraic numbers, other symbols)."""
+    if expr not in _FIELD_CACHE:
+        try:
+            _FIELD_CACHE[expr] = _FIELD.from_sympy(expr)
+        except (sympy.CoercionFailed, sympy.PolynomialError, TypeError, ValueError):
+            _FIELD_CACHE[expr] = None
+        if len(_FIELD_CACHE) > 16384:
+            _FIELD_CACHE.clear()
+    return _FIELD_CACHE[expr]
+
+
 def _condition_roots(band, band_candidates, conditions, extra: set) -> set:
-    """Every c in the band where some inequality between candidates may change."""
+    """Every c in the band where some inequality between candidates may change.
+
+    Sums of candidates are formed in the field QQ(c) where every value lies in it (the
+    usual case: fast), else as sympy expressions; each distinct numerator is solved once."""
     exprs = set()
+    numerators = set()
 
     def add(expr):
-        if C in expr.free_symbols:
+        if C not in expr.free_symbols:
+            return
+        element = _in_field(expr)
+        if element is None:
             exprs.add(expr)
+        else:
+            numerators.add(element.numer)
+            numerators.add(element.denom)
 
     for condition, per_term in zip(conditions, band_candidates):
         options = []
@@ -473,17 +539,28 @@ def _condition_roots(band, band_candidates, conditions, extra: set) -> set:
                     add(cand.value)
                 else:
                     finite.append(weight * cand.value)
-            options.append(finite or [sympy.Integer(0)])
+            options.append(list(dict.fromkeys(finite)) or [sympy.Integer(0)])
         count = 1
         for o in options:
             count *= len(o)
         if count > MAX_TUPLES:
             raise NotExact
-        for combo in itertools.product(*options):
-            add(sympy.Add(*combo) - condition.bound)
+        fields = [[_in_field(v) for v in o] for o in options]
+        bound = _in_field(condition.bound)
+        if bound is not None and all(v is not None for o in fields for v in o):
+            for combo in itertools.product(*fields):
+                total = sum(combo, _FIELD.zero) - bound
+                numerators.add(total.numer)
+                numerators.add(total.denom)
+        else:
+            for combo in itertools.product(*options):
+                add(sympy.Add(*combo) - condition.bound)
     for expr in extra:
         add(expr)
     roots = set()
+    for numerator in numerators:
+        if numerator.degree() > 0:
+            roots.update(_algebraic_free_roots(numerator.as_expr()))
     for expr in exprs:
         for part in piecewise.fraction_of(expr):
             roots.update(_algebraic_free_roots(part))

@@ -46,9 +46,10 @@ def _at(expr: sympy.Expr, point) -> sympy.Expr:
 _RATIONAL_FUNCTIONS = sympy.QQ.frac_field(R, C)
 
 
+@lru_cache(maxsize=8192)
 def fraction_of(expr: sympy.Expr) -> tuple[sympy.Expr, sympy.Expr]:
-    """(numerator, denominator) of a rational function of r and c; field arithmetic where
-    it applies (much faster than sympy.together), else sympy's general path."""
+    """(numerator, denominator) of a rational function of r and c (cached: the same
+    differences recur across pieces and bands)."""
     try:
         element = _RATIONAL_FUNCTIONS.from_sympy(expr)
     except (sympy.CoercionFailed, sympy.PolynomialError, TypeError, ValueError):

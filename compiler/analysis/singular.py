@@ -149,7 +149,12 @@ def _extreme(choice, is_max: bool):
     rest = [v for v in choice if _finite(v)]
     if not rest:
         return {NINF if is_max else INF}
-    return {(sympy.Max if is_max else sympy.Min)(*rest)}
+    if len(rest) == 1:
+        return {rest[0]}
+    if all(not v.free_symbols for v in rest):
+        return {max(rest, key=lambda v: sympy.N(v, 30)) if is_max
+                else min(rest, key=lambda v: sympy.N(v, 30))}
+    return {(sympy.Max if is_max else sympy.Min)(*rest, evaluate=False)}
 
 
 def _ratio(choice):
