@@ -21,6 +21,7 @@ import numpy as np
 import pytest
 import sympy
 from conftest import EXAMPLE_FILES, outputs_under_hash_seeds
+import reference_values as ref
 
 from fluxloom.compiler import load_scheme, scheme_from_text
 from fluxloom.compiler.emit import c_files
@@ -262,15 +263,11 @@ def test_stage_by_stage_with_host_halo_exchange_equals_the_step(name):
     assert np.array_equal(current[h:h + n], whole[h:h + n])
 
 
-# Published |R(iy)|^2 on the imaginary axis (REFERENCE.md, "Runge-Kutta methods on the
-# imaginary axis"; SSP-RK3 after Shu and Osher 1988, J. Comput. Phys. 77:439 [mem]).
+# Published |R(iy)|^2 on the imaginary axis (reference_values.IMAGINARY_AXIS_ABS_R_SQUARED;
+# SSP-RK3 after Shu and Osher 1988 [mem]).
 y = sympy.Symbol("y", real=True)
-PUBLISHED_IMAGINARY_AXIS = {
-    "euler": 1 + y**2,
-    "ssp_rk2": 1 + y**4 / 4,
-    "ssp_rk3": 1 - y**4 / 12 + y**6 / 36,
-    "rk4": 1 - y**6 / 72 + y**8 / 576,
-}
+PUBLISHED_IMAGINARY_AXIS = {name: value.expr(y=y)
+                            for name, value in ref.IMAGINARY_AXIS_ABS_R_SQUARED.items()}
 
 
 @pytest.mark.parametrize("method", sorted(PUBLISHED_IMAGINARY_AXIS))

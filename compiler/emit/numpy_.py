@@ -9,7 +9,7 @@ domain), and lets a block whose faces share one velocity sign read every
 """
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import sympy
 from sympy.printing.numpy import NumPyPrinter
@@ -20,7 +20,7 @@ from ..ir import Scheme
 from ..symbols import C, R, offset_of
 from ..timestep import StageUpdate
 from . import environment
-from .plan import FaceProgram, banner_lines, plan_kernel
+from .plan import FaceProgram, banner_lines, c_in_denominator, plan_kernel
 
 PRECISIONS = {"double": "np.float64", "float": "np.float32"}
 
@@ -129,6 +129,7 @@ class Function:
     assignments: tuple[tuple[str, str], ...]
     result: str
     arguments: str = "r"   # limiters: "r", or "r, c" for a limiter of the Courant number
+    quiet: bool = False    # a limiter of (r, c) dividing by a function of c (1 - c at c = 1)
 
 
 @dataclass(frozen=True)
@@ -233,9 +234,11 @@ def numpy_module(scheme: Scheme, precision: str = "double", banner=None) -> Nump
         faces.append(print_function(printer, "low_face_values",
                                     "g of the monotone low-order flux", plan.low_flux))
     arguments = {lim.name: "r, c" if lim.courant else "r" for lim in scheme.limiters}
-    limiters = tuple(print_function(printer, limiter_name(lim.name),
-                                    f"The limiter {lim.name}({arguments[lim.name]}).",
-                                    lim.program, arguments[lim.name])
+    limiters = tuple(replace(print_function(printer, limiter_name(lim.name),
+                                            f"The limiter {lim.name}({arguments[lim.name]}).",
+                                            lim.program, arguments[lim.name]),
+                             quiet=scheme.limiter(lim.name).courant
+                             and c_in_denominator(scheme.limiter(lim.name).body))
                      for lim in plan.limiters)
     offsets = tuple(Offset(q_name(k), _shift(k - 1), _shift(-k)) for k in plan.offsets)
     programs = [plan.flux] + ([plan.low_flux] if plan.low_flux is not None else [])
