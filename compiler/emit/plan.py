@@ -262,7 +262,7 @@ def _summary(key: str, value) -> str:
         if "holds" in value:
             return _WORDS.get(value["holds"], str(value["holds"])) + _courant_range(value)
         if "kind" in value:
-            return f"{value['kind']}{_courant_range(value)}"
+            return f"{value['kind'] or 'undecided'}{_courant_range(value)}"
     if isinstance(value, bool) or value is None:
         return _WORDS[value]
     text = value if isinstance(value, str) else json.dumps(value, sort_keys=True)
