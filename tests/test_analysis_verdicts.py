@@ -553,3 +553,12 @@ def test_exact_fields_hold_exact_forms_or_null(text):
             continue
         parsed = sympy.sympify(value)
         assert not parsed.has(sympy.Float), (where, value)
+
+
+def test_limiter_of_c_is_plotted_against_the_region(tmp_path):
+    from fluxloom.runtime.analysis_plots import write_plots
+
+    analysis = analyse(load_scheme(EXAMPLES / "lw_quickest_limited.loom"))
+    written = write_plots(analysis, tmp_path)
+    figure = tmp_path / "lw_quickest_limited_limiter_quickest_tvd.png"
+    assert figure in written and figure.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"

@@ -682,6 +682,9 @@ def restrict(cset: CourantSet, top) -> CourantSet:
 
 # ---- the separable case B(r, c) = k(c) phi(r): extremes are constants --------------
 
+_SEPARABLE_EXTREMES: dict = {}  # (phi, marks, extreme, sign) -> the constant extreme
+
+
 def separable_courant_set(k: sympy.Expr, phi: sympy.Expr, conditions_any: list[list[Condition]],
                           method: str, c_top=None, marks=(0, 1)) -> CourantSet:
     """courant_set for the body k(c) * phi(r), phi free of c.
@@ -692,11 +695,13 @@ def separable_courant_set(k: sympy.Expr, phi: sympy.Expr, conditions_any: list[l
     Each condition is then an inequality between functions of c, exact."""
     pic = picture(phi, marks)
     band = pic.bands[0]
-    constants: dict = {}
+    constants = _SEPARABLE_EXTREMES
 
     def extreme_of(extreme: Extreme, sign: int):
-        key = (extreme, sign)
+        key = (phi, tuple(marks), extreme, sign)
         if key not in constants:
+            if len(constants) > 4096:
+                constants.clear()
             scaled = Band(band.lo, band.hi, band.sample,
                           tuple(Piece(sign * p.expr, p.lo, p.hi) for p in band.pieces),
                           tuple(sign * v for v in band.zero_values))
