@@ -131,7 +131,8 @@ def analysis_document(a) -> dict:
             **_set(stand_ins, leading=False),
             "note": "Courant numbers where every linear stand-in is stable; the scheme itself "
                     "is nonlinear, so this is not its verdict"},
-        "schemes": [{"label": st.label, "kind": st.kind, "amplification_z": st.amplification,
+        "schemes": [{"label": "flux alone" if (s.correct == "fct" and st.label == "the scheme")
+                     else st.label, "kind": st.kind, "amplification_z": st.amplification,
                      "abs_squared_s": st.abs_squared, "semi_discrete_z": st.semi_discrete,
                      **_set(st.stable, leading=False)} for st in a.stability],
         "variables": "z = exp(i theta), s = sin(theta/2)^2, theta = k dx",
