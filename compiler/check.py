@@ -9,8 +9,7 @@ import re
 
 from . import syntax as ast
 from .diagnostics import LoomError, Span, did_you_mean
-
-TIME_METHODS = ("euler", "ssp_rk2", "ssp_rk3", "rk4")
+from .time_methods import NAMES as TIME_METHODS
 CORRECTIONS = ("fct",)
 
 # name -> (least, most) number of arguments; None means no upper bound.

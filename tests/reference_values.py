@@ -128,19 +128,50 @@ IMAGINARY_AXIS_ABS_R_SQUARED = {  # |R(iy)|^2
     "ssp_rk2": Value("1 + y**4/4", GOTTLIEB_SHU_TADMOR, ("mem", "derived")),
     "ssp_rk3": Value("1 - y**4/12 + y**6/36", GOTTLIEB_SHU_TADMOR, ("mem", "derived")),
     "rk4": Value("1 - y**6/72 + y**8/576", "common practice", ("derived",)),
+    # every three-stage method of linear order 3 has SSP-RK3's R(z)
+    "ws_rk3": Value("1 - y**4/12 + y**6/36", "Wicker and Skamarock 2002, Mon. Wea. Rev. 130:2088",
+                    ("mem", "derived")),
 }
 IMAGINARY_AXIS_LIMIT = {
     "euler": Value("0", GOTTLIEB_SHU_TADMOR, ("mem", "derived")),
     "ssp_rk2": Value("0", GOTTLIEB_SHU_TADMOR, ("mem", "derived")),
     "ssp_rk3": Value("sqrt(3)", GOTTLIEB_SHU_TADMOR, ("mem", "derived")),
     "rk4": Value("2*sqrt(2)", GOTTLIEB_SHU_TADMOR, ("mem", "derived")),
+    "ws_rk3": Value("sqrt(3)", "Wicker and Skamarock 2002, Mon. Wea. Rev. 130:2088",
+                    ("mem", "derived")),
 }
-SSP_COEFFICIENT = {
-    "euler": Value(1, GOTTLIEB_SHU_TADMOR, ("mem",)),
-    "ssp_rk2": Value(1, GOTTLIEB_SHU_TADMOR, ("mem",)),
-    "ssp_rk3": Value(1, GOTTLIEB_SHU_TADMOR, ("mem",)),
-    "rk4": Value(None, f"{GOTTLIEB_SHU_TADMOR}: classical RK4 is not SSP", ("mem",)),
+KETCHESON = "Ketcheson 2008, SIAM J. Sci. Comput. 30:2113"
+WICKER_SKAMAROCK = "Wicker and Skamarock 2002, Mon. Wea. Rev. 130:2088"
+SSP_COEFFICIENT = {  # 0: not strong-stability preserving
+    "euler": Value(1, "forward Euler is the step SSP methods are built from; common practice",
+                   ("derived",)),
+    "ssp_rk2": Value(1, f"{SHU_OSHER}; {GOTTLIEB_SHU_TADMOR}", ("mem",)),
+    "ssp_rk3": Value(1, SHU_OSHER, ("mem",)),
+    "rk4": Value(0, f"Kraaijevanger 1991, BIT 31:482; {GOTTLIEB_SHU_TADMOR}: classical RK4 is "
+                 "not SSP", ("mem",)),
+    "ssp_rk10_4": Value(6, KETCHESON, ("mem",)),
+    "ws_rk3": Value(0, "by hand: K (I + rK)^-1 has the entry -r/6 (q** reads q* with weight "
+                    "1/2, q* reads L(q) with 1/3, q** has no L(q) of its own), negative for "
+                    "every r > 0", ("derived",)),
 }
+CLASSICAL_ORDER = {
+    "euler": Value(1, "common practice", ("derived",)),
+    "ssp_rk2": Value(2, SHU_OSHER, ("mem",)),
+    "ssp_rk3": Value(3, SHU_OSHER, ("mem",)),
+    "rk4": Value(4, "Kutta 1901; common practice", ("mem",)),
+    "ws_rk3": Value(2, f"{WICKER_SKAMAROCK}: third order only on linear problems", ("mem",)),
+    "ssp_rk10_4": Value(4, KETCHESON, ("mem",)),
+}
+LINEAR_ORDER = {
+    "euler": Value(1, "common practice", ("derived",)),
+    "ssp_rk2": Value(2, SHU_OSHER, ("mem",)),
+    "ssp_rk3": Value(3, SHU_OSHER, ("mem",)),
+    "rk4": Value(4, "common practice", ("derived",)),
+    "ws_rk3": Value(3, WICKER_SKAMAROCK, ("mem",)),
+    "ssp_rk10_4": Value(4, KETCHESON, ("mem",)),
+}
+ROOTED_TREES = Value((1, 1, 2, 4, 9, 20, 48, 115), "Cayley 1857; OEIS A000081 (rooted trees "
+                     "with n vertices)", ("mem",))
 SSP_RK3_STAGES = Value("q1 = q + dt L(q); q2 = 3/4 q + 1/4 q1 + 1/4 dt L(q1); "
                        "q(new) = 1/3 q + 2/3 q2 + 2/3 dt L(q2)", SHU_OSHER, ("mem",))
 
@@ -163,6 +194,11 @@ MOL_LIMIT = {  # (space discretisation, method) -> largest stable c
     ("kappa=-1", "ssp_rk3"): Value(0.6281, BALDAUF, ("mem", "derived")),
     ("kappa=-1", "rk4"): Value(0.6963, BALDAUF, ("mem", "derived")),
 }
+WENO5_LINEAR_FACE = Value({-2: "2/60", -1: "-13/60", 0: "47/60", 1: "27/60", 2: "-3/60"},
+                          "Jiang and Shu 1996, J. Comput. Phys. 126:202, \"Efficient "
+                          "implementation of weighted ENO schemes\": the ideal weights 1/10, "
+                          "6/10, 3/10 combine the three parabolic face values into the "
+                          "fifth-order upwind-biased face on q[-2..2]", ("mem", "derived"))
 MOL_EULER_UNSTABLE = Value(("centred", "kappa=1/3", "kappa=0", "kappa=-1"),
                            "forward Euler with these method-of-lines operators", ("derived",))
 
@@ -236,3 +272,46 @@ LIMITED_ORDER_ON_SINE = Value({"l1": 2, "linf": 1}, f"TVD limiters clip extrema 
 DISCONTINUITY_RATE = Value("p/(p + 1) in l1 for a p-th order linear scheme", BANKS, ("mem",))
 FCT_BOUNDED = Value("no new extrema and sharper than the low-order solution on a square wave",
                     ZALESAK, ("pub",))
+
+
+# ---- Runge-Kutta steps as their authors print them ------------------------------------------
+# The time-method registry writes each method once, as a table, and derives everything else
+# from it; these formulas are written from the publications in the authors' own arrangement
+# and share nothing with the registry. operator(y) is dt L(y); ratio(a, b) builds a
+# coefficient (Fraction for exact arithmetic, true division for floats).
+
+from fractions import Fraction  # noqa: E402
+
+PUBLISHED_STEPS = ("euler", "ssp_rk2", "ssp_rk3", "rk4", "ws_rk3", "ssp_rk10_4")
+
+
+def published_step(name: str, q, operator, ratio=Fraction):
+    if name == "euler":
+        return q + operator(q)
+    if name == "ssp_rk2":  # Heun as convex combinations (Shu and Osher 1988 [mem])
+        q1 = q + operator(q)
+        return ratio(1, 2) * q + ratio(1, 2) * (q1 + operator(q1))
+    if name == "ssp_rk3":  # Shu and Osher 1988, J. Comput. Phys. 77:439 [mem]
+        q1 = q + operator(q)
+        q2 = ratio(3, 4) * q + ratio(1, 4) * q1 + ratio(1, 4) * operator(q1)
+        return ratio(1, 3) * q + ratio(2, 3) * q2 + ratio(2, 3) * operator(q2)
+    if name == "rk4":  # classical Runge-Kutta (Kutta 1901; common practice)
+        k1 = operator(q)
+        k2 = operator(q + ratio(1, 2) * k1)
+        k3 = operator(q + ratio(1, 2) * k2)
+        k4 = operator(q + k3)
+        return q + ratio(1, 6) * (k1 + 2 * k2 + 2 * k3 + k4)
+    if name == "ws_rk3":   # Wicker and Skamarock 2002, Mon. Wea. Rev. 130:2088 [mem]
+        q_star = q + ratio(1, 3) * operator(q)
+        q_star2 = q + ratio(1, 2) * operator(q_star)
+        return q + operator(q_star2)
+    if name == "ssp_rk10_4":  # Ketcheson 2008, SIAM J. Sci. Comput. 30:2113, the
+        q1 = q2 = q           # two-register pseudo-code [mem]
+        for _ in range(5):
+            q1 = q1 + ratio(1, 6) * operator(q1)
+        q2 = ratio(1, 25) * q2 + ratio(9, 25) * q1
+        q1 = 15 * q2 - 5 * q1
+        for _ in range(4):
+            q1 = q1 + ratio(1, 6) * operator(q1)
+        return q2 + ratio(3, 5) * q1 + ratio(1, 10) * operator(q1)
+    raise KeyError(f"no published formula for {name!r} in the tests")

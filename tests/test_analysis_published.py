@@ -14,8 +14,7 @@ from fluxloom.compiler.analysis import analyse
 from fluxloom.compiler.analysis.consistency import DX, U
 from fluxloom.compiler.analysis.stability import stable_set
 from fluxloom.compiler.analysis.symbol import S, linearise
-from fluxloom.compiler.analysis.timemethods import (METHODS, imaginary_axis_limit,
-                                                    stability_polynomial, Z)
+from fluxloom.compiler.analysis.timemethods import Z, imaginary_axis_limit, stability_polynomial
 from fluxloom.compiler.symbols import C
 
 import reference_values as ref
@@ -202,27 +201,3 @@ def test_abs_r_on_imaginary_axis(name):
 def test_imaginary_axis_limits(name):
     # reference_values.IMAGINARY_AXIS_LIMIT (Gottlieb, Shu and Tadmor 2001 [mem]).
     assert same(imaginary_axis_limit(name), ref.IMAGINARY_AXIS_LIMIT[name].expr())
-
-
-def test_shu_osher_stages_give_the_stability_polynomial():
-    # reference_values.SSP_RK3_STAGES (Shu and Osher 1988 [mem]).
-    # Applied to L q = lambda q the stages must give R(z) with z = dt lambda, and the
-    # Shu-Osher tables the emitters read must give the same.
-    for name, m in METHODS.items():
-        if m.shu_osher is None:
-            continue
-        stages = [sympy.Integer(1)]
-        for stage in m.shu_osher:
-            value = sum((a * stages[k] for k, a in enumerate(stage.alpha)), sympy.Integer(0))
-            stages.append(sympy.expand(value + stage.beta * Z * stages[-1]))
-        assert same(stages[-1], stability_polynomial(name)), name
-    q1 = 1 + Z
-    q2 = sympy.Rational(3, 4) + q1 / 4 + Z * q1 / 4
-    assert same(sympy.Rational(1, 3) + 2 * q2 / 3 + 2 * Z * q2 / 3, stability_polynomial("ssp_rk3"))
-
-
-@pytest.mark.parametrize("name", sorted(ref.SSP_COEFFICIENT))
-def test_ssp_coefficients(name):
-    # reference_values.SSP_COEFFICIENT (Gottlieb and Shu 1998; Gottlieb, Shu and Tadmor
-    # 2001 [mem]); classical RK4 is not SSP.
-    assert METHODS[name].ssp_coefficient == ref.SSP_COEFFICIENT[name].value

@@ -56,6 +56,15 @@ def _terms(terms) -> list[dict]:
              "coefficient": t.coefficient_text} for t in terms]
 
 
+def time_method_document(name: str) -> dict:
+    """The time method's facts, each derived from its registry table."""
+    m = method(name)
+    return {"name": name, "description": m.description, "stages": m.stages,
+            "order": m.order, "linear_order": m.linear_order,
+            "ssp_coefficient": _num(m.ssp_coefficient),
+            "ssp_coefficient_exact": _exact(m.ssp_coefficient)}
+
+
 def analysis_document(a) -> dict:
     s = a.scheme
     lin = a.linearisation
@@ -63,14 +72,19 @@ def analysis_document(a) -> dict:
                  "halo": s.halo, "offsets": list(s.offsets), "fingerprint": s.fingerprint,
                  "params": {p.name: {"value": _num(p.value), "exact": _exact(p.value)}
                             for p in s.params},
-                 "courant": a.courant, "linear": lin.exact, "linearisation": lin.note}
+                 "courant": a.courant, "linear": lin.exact, "linearisation": lin.note,
+                 "linearised_at": lin.where or None}
+    doc["time_method"] = time_method_document(s.time)
     undecided: list[str] = []
 
     # consistency and order
     doc["consistent"] = a.consistent
     order = a.order
     notes = [c.note for c in a.consistency if c.note]
-    if not lin.exact:
+    if not lin.exact and lin.source == "linearisation" and lin.smooth:
+        notes.append(f"order of the linearisation (at {lin.where}), for smooth data; near "
+                     "extrema and discontinuities the nonlinear face may act differently")
+    elif not lin.exact and lin.source == "limiter":
         notes.append("order in smooth monotone regions (limiter linearised at r = 1); it drops "
                      "to first order or below at extrema, where the limiter switches off")
     if a.order_cap_note:
@@ -93,7 +107,7 @@ def analysis_document(a) -> dict:
          "terms": _terms(c.terms), "semi_discrete_terms": _terms(c.spatial_terms)}
         for c in a.consistency]
     if not a.consistency:
-        undecided.append(f"consistency: {lin.note}")
+        undecided.append(_over(a, "consistency") or f"consistency: {lin.note}")
 
     # stability: the scheme's own verdict, then the linear stand-ins
     span = a.stable_interval
@@ -109,10 +123,12 @@ def analysis_document(a) -> dict:
                          "values where the low-order step is monotone (Zalesak 1979); the "
                          "linear stand-ins are the flux alone and the low flux alone"), "fct"
     else:
-        basis, source = ("bounded: one step is TVD there (see tvd), so total variation, and "
-                         "with it every value, stays bounded; the linear stand-ins below "
-                         "(linearised at r = 1, limiter frozen at 0 and at psi(1)) are "
-                         "reported as stand-ins, not as the scheme's verdict"), "limiter"
+        stand_in_words = ("the linearisation of the nonlinear face" if lin.source == "linearisation"
+                          else "the linear stand-ins (linearised at r = 1, limiter frozen at 0 "
+                               "and at psi(1))")
+        basis, source = ("bounded where one step is TVD (see tvd): total variation, and with it "
+                         f"every value, stays bounded there; {stand_in_words}: reported under "
+                         "stand_ins, as stand-ins, not as the scheme's verdict"), lin.source
     stand_ins = a.stand_in_set
     exact = all(cs.tolerance is None for cs in every)
     kind = a.stability_kind if a.stability else None
@@ -138,16 +154,14 @@ def analysis_document(a) -> dict:
         "variables": "z = exp(i theta), s = sin(theta/2)^2, theta = k dx",
     }
     if s.time != "euler":
-        m = method(s.time)
         limit = imaginary_axis_limit(s.time)
         doc["stability"]["time_method"] = {
-            "name": s.time, "description": m.description,
+            **doc["time_method"],
             "stability_polynomial": sympy.sstr(stability_polynomial(s.time)),
             "imaginary_axis_limit": _num(limit) if limit != 0 else 0.0,
-            "imaginary_axis_limit_exact": _exact(limit),
-            "ssp_coefficient": _num(m.ssp_coefficient), "order": m.order}
+            "imaginary_axis_limit_exact": _exact(limit)}
     if not a.stability:
-        undecided.append(f"stability: {lin.note}")
+        undecided.append(_over(a, "stability") or f"stability: {lin.note}")
     elif kind is None:
         proven = f" (only at {scheme_set.text()})" if scheme_set is not None else ""
         undecided.append("stability: " + (f"the scheme is nonlinear and one step is shown TVD "
@@ -158,6 +172,8 @@ def analysis_document(a) -> dict:
 
     # conservation
     doc["conservative"] = a.conservation.conservative
+    if a.conservation.conservative is None:
+        undecided.append(f"conservation: {a.conservation.reason}")
     doc["conservation"] = {"reason": a.conservation.reason, "source": a.conservation.source}
 
     # convergence (Lax equivalence: linear schemes only)
@@ -165,10 +181,11 @@ def analysis_document(a) -> dict:
     if not lin.exact or s.clip is not None or s.correct == "fct":
         why = ("post-step clamp makes the scheme nonlinear" if s.clip is not None else
                "flux-corrected transport is nonlinear" if s.correct == "fct" else
-               "the scheme is nonlinear (limited)")
+               "the scheme is nonlinear (limited)" if lin.source == "limiter" else
+               "the face is nonlinear in q")
         conv["reason"] = (f"{why}; the Lax equivalence theorem covers linear schemes "
                           "only (the harness measures convergence)")
-        conv["source"] = "clip" if s.clip is not None else ("fct" if s.correct == "fct" else "limiter")
+        conv["source"] = "clip" if s.clip is not None else ("fct" if s.correct == "fct" else lin.source)
         undecided.append("convergence: " + why)
     elif not a.consistent:
         conv.update(holds=False, reason="not consistent, so not convergent")
@@ -203,6 +220,9 @@ def analysis_document(a) -> dict:
                              "holds": m.holds, **_set(m.monotone, leading=False)}
                             for m in a.monotone]
         undecided.append("monotone: flux-corrected transport (see bounds)")
+    elif lin.exact and a.exceeded("monotone"):
+        mono["reason"] = _over(a, "monotone")
+        undecided.append(mono["reason"])
     elif lin.exact and a.monotone:
         m0 = a.monotone[0]
         mono.update(holds=m0.holds, **_set(m0.monotone, leading=False))
@@ -214,10 +234,12 @@ def analysis_document(a) -> dict:
                           "some update coefficient is negative for every c > 0")
     else:
         mono["reason"] = ("the coefficient test applies to linear schemes; a limited "
-                          "scheme is judged by TVD (see tvd)")
+                          "scheme is judged by TVD (see tvd)" if lin.source == "limiter" else
+                          "the coefficient test applies to linear schemes; `bounding` gives it "
+                          "for each linear scheme standing for this nonlinear one")
         mono["bounding"] = [{"label": m.label, "holds": m.holds,
                              **_set(m.monotone, leading=False)} for m in a.monotone]
-        mono["source"] = "limiter"
+        mono["source"] = lin.source
         undecided.append("monotone: nonlinear scheme")
     if s.clip is not None and mono["holds"] is not None:
         mono["reason"] += "; the clamp is pointwise and non-decreasing, so it keeps this verdict"
@@ -298,11 +320,23 @@ def analysis_document(a) -> dict:
         doc["bounded"] = {"holds": b.bounded, **_span(b.bounded_set.main if b.bounded_set else None),
                           "reason": b.reason, "source": "fct"}
     doc["verdict_sources"] = {
-        "consistent": "scheme" if lin.exact else "limiter",
-        "order": "fct" if s.correct == "fct" else ("scheme" if lin.exact else "limiter"),
+        "consistent": lin.source,
+        "order": "fct" if s.correct == "fct" else lin.source,
         "stability": doc["stability"]["source"],
         "conservative": doc["conservation"]["source"], "convergent": conv["source"],
         "monotone": mono["source"], "tvd": tvd["source"],
         "bounded": None if b is None else b.kind}
-    doc["undecided"] = undecided
+    doc["budget"] = {"seconds": a.budget_seconds,
+                     "exceeded": [{"pass": what, "outcome": how, "note": note}
+                                  for what, how, note in a.over_budget]}
+    for what, how, note in a.over_budget:
+        if how == "undecided" and (what.startswith("limiter ") or what == "dispersion"):
+            undecided.append(f"{what}: {note}")
+    doc["undecided"] = list(dict.fromkeys(undecided))
     return doc
+
+
+def _over(a, what: str) -> str | None:
+    """The note of a pass that went past its budget and ended undecided, else None."""
+    return next((f"{what}: {note}" for name, how, note in a.over_budget
+                 if name == what and how == "undecided"), None)

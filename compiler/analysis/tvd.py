@@ -133,7 +133,7 @@ def analyse_tvd(scheme, monotone_whole_step: CourantSet | None) -> TVD:
                    "exact: Harten's incremental form (C and D) over all ratios",
                    detail, "limiter", incremental)
     rk = method(scheme.time)
-    if rk.ssp_coefficient is None:
+    if rk.ssp_coefficient == 0:
         return undecided(f"{rk.description} is not strong-stability preserving, so the "
                          f"forward-Euler TVD set ({fe_set.text()}) does not carry over",
                          "limiter")
@@ -149,9 +149,8 @@ def analyse_tvd(scheme, monotone_whole_step: CourantSet | None) -> TVD:
 
 def _scale(fe_set: CourantSet, factor) -> CourantSet | None:
     """An SSP method is TVD for c up to its coefficient times the forward-Euler limit,
-    from c = 0; islands of forward Euler do not carry over."""
-    if factor == 1:
-        return fe_set
+    from c = 0; islands of forward Euler do not carry over (a stage may take a shorter
+    forward-Euler step than the island's)."""
     main = fe_set.main
     if main is None:
         return CourantSet((), fe_set.method, fe_set.tolerance)

@@ -6,6 +6,7 @@ document (schema in README.md); `--plots DIR` writes PNG figures.
 from __future__ import annotations
 
 import json
+import math
 from fractions import Fraction
 from pathlib import Path
 
@@ -13,6 +14,7 @@ import sympy
 
 from fluxloom.compiler import LoomError
 from fluxloom.compiler.analysis import analyse
+from fluxloom.compiler.analysis.budget import DEFAULT_SECONDS
 
 from .common import add_set_option, add_spec_argument, scheme_from_args
 
@@ -32,6 +34,9 @@ def register(sub) -> None:
                         help="write PNG figures (|G|, stability map, phase speed, limiters) to DIR")
     parser.add_argument("--force", action="store_true",
                         help="overwrite existing figures in the --plots directory")
+    parser.add_argument("--budget", default=str(DEFAULT_SECONDS), metavar="SECONDS",
+                        help="CPU seconds each analysis pass may take before it falls back to "
+                             f"a numeric method or says undecided (default {DEFAULT_SECONDS:g})")
     parser.set_defaults(run=run)
 
 
@@ -48,10 +53,23 @@ def parse_courant(text: str) -> Fraction:
     return value
 
 
+def parse_budget(text: str) -> float:
+    try:
+        value = float(text)
+    except ValueError:
+        raise LoomError(f"--budget expects a number of seconds, given '{text}'",
+                        file="--budget") from None
+    if not math.isfinite(value) or value <= 0:
+        raise LoomError(f"--budget must be a positive number of seconds, given '{text}'",
+                        file="--budget")
+    return value
+
+
 def run(args) -> int:
     courant = parse_courant(args.courant)
+    seconds = parse_budget(args.budget)
     scheme = scheme_from_args(args)
-    analysis = analyse(scheme, sympy.Rational(courant.numerator, courant.denominator))
+    analysis = analyse(scheme, sympy.Rational(courant.numerator, courant.denominator), seconds)
     doc = analysis.to_json()
     if args.plots:
         from fluxloom.runtime.analysis_plots import write_plots
@@ -114,12 +132,23 @@ def _only(d: dict) -> str:
     return " (only at " + ", ".join(_interval(i) for i in isl) + ")"
 
 
+def _ssp(time_method: dict) -> str:
+    exact = time_method["ssp_coefficient_exact"]
+    return f"{exact} (not SSP)" if time_method["ssp_coefficient"] == 0 else exact
+
+
 def render(doc: dict) -> str:
     out = []
     head = f"{doc['scheme']}" + (f"  -  {doc['about']}" if doc.get("about") else "")
     out.append(head)
     out.append(f"  time {doc['time']}, stencil offsets {doc['offsets']} (upwind frame), "
                f"halo {doc['halo']}" + "".join(f", {k} = {v['exact']}" for k, v in doc["params"].items()))
+    tm = doc["time_method"]
+    out.append(f"  time method {tm['name']}: {tm['stages']} stage{'s' if tm['stages'] > 1 else ''}, "
+               f"order {tm['order']}"
+               + (f" ({tm['linear_order']} on linear problems)"
+                  if tm["linear_order"] != tm["order"] else "")
+               + f", SSP coefficient {_ssp(tm)}")
     if not doc["linear"]:
         out.append(f"  nonlinear: {doc['linearisation']}")
 
@@ -165,9 +194,9 @@ def render(doc: dict) -> str:
             out.append(f"  |G|^2 = {only['abs_squared_s']}, s = sin^2(theta/2)")
     if "time_method" in st:
         tm = st["time_method"]
-        out.append(f"  R(z) = {tm['stability_polynomial']}; imaginary-axis limit "
-                   f"{tm['imaginary_axis_limit_exact']}; SSP coefficient "
-                   f"{tm['ssp_coefficient'] if tm['ssp_coefficient'] is not None else 'none (not SSP)'}")
+        limit = _c(tm["imaginary_axis_limit"], tm["imaginary_axis_limit_exact"])
+        out.append(f"  R(z) = {tm['stability_polynomial']}; imaginary-axis limit {limit}; "
+                   f"SSP coefficient {_ssp(tm)}")
     out.append(f"  method: {st['method']}" + (f", tolerance {st['tolerance']:g}" if st["tolerance"] else ""))
 
     out.append("")
@@ -243,6 +272,13 @@ def render(doc: dict) -> str:
     if doc["undecided"]:
         out.append("")
         out.append("undecided     " + "; ".join(doc["undecided"]))
+    over = doc.get("budget", {}).get("exceeded") or []
+    if over:
+        out.append("")
+        out.append(f"budget        {doc['budget']['seconds']:g} s of CPU time per pass "
+                   "(--budget); past it:")
+        for item in over:
+            out.append(f"  {item['pass']}: {item['note']}")
     if doc.get("plots"):
         out.append("")
         out.append("plots         " + ", ".join(doc["plots"]))
