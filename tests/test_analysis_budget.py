@@ -158,4 +158,4 @@ def test_the_budget_does_not_change_verdicts_given_enough_time(fresh_cache):
     second = analysis.analyse(scheme, budget_seconds=120).to_json()
     for doc in (first, second):
         doc.pop("budget")
-    assert first == second and not analysis._CACHE[(scheme.fingerprint, 0.5, 60.0)].over_budget
+    assert first == second and not analysis.analyse(scheme, budget_seconds=60).over_budget

@@ -103,6 +103,8 @@ def exact_text(value) -> str:
 
 def display_text(value) -> str:
     """Exact text when short, else the value to 6 significant digits (exact form in JSON)."""
+    if isinstance(value, sympy.Float):
+        return f"{number(value):.6g}"  # a numeric value: its digits, not a float's repr
     text = exact_text(value)
     if len(text) <= 24:
         return text

@@ -197,7 +197,8 @@ def render(doc: dict) -> str:
         limit = _c(tm["imaginary_axis_limit"], tm["imaginary_axis_limit_exact"])
         out.append(f"  R(z) = {tm['stability_polynomial']}; imaginary-axis limit {limit}; "
                    f"SSP coefficient {_ssp(tm)}")
-    out.append(f"  method: {st['method']}" + (f", tolerance {st['tolerance']:g}" if st["tolerance"] else ""))
+    if st["method"]:
+        out.append(f"  method: {st['method']}" + (f", tolerance {st['tolerance']:g}" if st["tolerance"] else ""))
 
     out.append("")
     out.append(f"conservation  {_yes(doc['conservative'])}: {doc['conservation']['reason']}")
@@ -261,7 +262,8 @@ def render(doc: dict) -> str:
     disp = doc.get("dispersion")
     if disp:
         out.append("")
-        where = "" if disp["stable_at_courant"] else ", outside the stable interval"
+        where = {True: "", False: ", outside the stable interval",
+                 None: ", where no stability is claimed"}[disp["stable_at_courant"]]
         out.append(f"dispersion    at c = {disp['courant']:g} ({disp['label']}{where})")
         out.append("  cells/wave   |G|/step   phase err/step   rel. speed   |G|/wavelength   phase err/wavelength")
         for r in disp["rows"]:
