@@ -215,7 +215,10 @@ def test_unusual_schemes_analyse_and_say_how(name):
         labels = [sch["label"] for sch in doc["stability"]["schemes"]]
         assert len(labels) == 2 and all("monotone data" in x for x in labels)
         expected = min(limit(3 / 4, 1 / 4), limit(5 / 4, -1 / 4))
-        assert abs(doc["stability"]["courant_max"] - expected) <= 1e-3
+        # nothing is proven for the nonlinear face itself: its linearisations are reported
+        # as stand-ins
+        assert doc["stability"]["kind"] is None
+        assert abs(doc["stability"]["stand_ins"]["courant_max"] - expected) <= 1e-3
     elif how == "numeric":
         assert doc["stability"]["method"].startswith("numeric") and doc["stability"]["tolerance"] <= 1e-4
     elif how == "sampled":
