@@ -91,26 +91,11 @@ def _limiter_values(body, courant: bool, r, c=None):
     return np.broadcast_to(np.asarray(values, dtype=float), r.shape)
 
 
-def _shade_failures(ax, facts, variable="r"):
-    """The exact ranges of r where a property fails, as red bands along the axis."""
-    labelled = False
-    for failure in facts.failures if facts is not None else ():
-        if failure.variable != variable:
-            continue
-        for span in failure.where:
-            lo = float(sympy.N(span.lo)) if span.lo.is_finite else -1.0
-            hi = float(sympy.N(span.hi)) if span.hi.is_finite else 4.0
-            ax.axvspan(max(lo, -1.0), min(max(hi, lo + 0.02), 4.0), ymin=0, ymax=0.04,
-                       color="C3", alpha=0.7, label=None if labelled else "fails (exact range)")
-            labelled = True
-
-
 def limiter_figure(analysis, limiter, path: Path) -> Path:
     """The limiter over the TVD region: the Courant-free region (a limiter of r) and, in
     one panel per Courant number, the region of the flux-limited Lax-Wendroff form at c."""
     r = np.linspace(-1.0, 4.0, 1001)
     body = analysis.scheme.bound(limiter.body)
-    facts = next((f for f in analysis.limiters if f.name == limiter.name), None)
     panels = ([None] if not limiter.courant else []) + list(LIMITER_COURANTS)
     fig, axes = plt.subplots(1, len(panels), figsize=(3.4 * len(panels), 3.6), squeeze=False)
     pos = r > 0
@@ -136,7 +121,7 @@ def limiter_figure(analysis, limiter, path: Path) -> Path:
             ax.plot(np.where(outside, r, np.nan), np.where(outside, psi, np.nan), color="C3",
                     lw=2.4, label="outside the region")
         if c is None:
-            _shade_failures(ax, facts)
+            _shade_failures(ax, analysis, limiter.name, r[0], r[-1])
         top = max(top, float(np.nanmax(np.where(np.isfinite(psi), psi, np.nan))) + 0.2)
         ax.set_xlabel("r")
         ax.set_title(title, fontsize=9)
@@ -147,6 +132,39 @@ def limiter_figure(analysis, limiter, path: Path) -> Path:
     args = "r, c" if limiter.courant else "r"
     fig.suptitle(f"{analysis.scheme.name}: limiter {limiter.name}({args})", fontsize=9)
     return _save(fig, path)
+
+
+FAILURE_COLOURS = {"sweby_tvd": "tab:red", "second_order_region": "tab:orange"}
+
+
+def _shade_failures(ax, analysis, name: str, left: float, right: float) -> None:
+    """Shade the r where the limiter leaves Sweby's region (red) or its second-order part
+    (orange), as the analysis found them, and name the range in the legend."""
+    from fluxloom.compiler.analysis.wording import PROPERTY_LABELS, r_set_text
+
+    facts = next((f for f in analysis.limiters if f.name == name), None)
+    shaded = sympy.S.EmptySet
+    for failure in getattr(facts, "failures", ()):
+        colour = FAILURE_COLOURS.get(failure.property)
+        if colour is None:
+            continue
+        label = f"outside {PROPERTY_LABELS[failure.property]}: {r_set_text(failure.where)}"
+        where = sympy.Complement(failure.where, shaded)   # each r shaded once
+        shaded = sympy.Union(shaded, failure.where)
+        if where.is_empty:
+            ax.plot([], [], color=colour, label=label.replace(": ", " (as above): ", 1))
+            continue
+        pieces = where.args if isinstance(where, sympy.Union) else (where,)
+        for piece in pieces:
+            lo = max(left, float(piece.inf)) if piece.inf != -sympy.oo else left
+            hi = min(right, float(piece.sup)) if piece.sup != sympy.oo else right
+            if hi < lo:
+                continue
+            if hi == lo:
+                ax.axvline(lo, color=colour, lw=1.0, ls="--", label=label)
+            else:
+                ax.axvspan(lo, hi, color=colour, alpha=0.15, label=label)
+            label = None
 
 
 def write_plots(analysis, directory: Path, force: bool = False) -> list[Path]:

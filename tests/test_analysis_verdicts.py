@@ -442,7 +442,9 @@ def test_linear_tvd_and_monotone_are_the_same_set(tmp_path, capsys):
     path = tmp_path / "only_at_half.loom"
     path.write_text(ONLY_AT_HALF)
     assert main(["check", str(path)]) == 0
-    assert "TVD           no (only at c = 1/2" in capsys.readouterr().out
+    tvd_line = next(line for line in capsys.readouterr().out.splitlines()
+                    if line.startswith("TVD"))
+    assert "only for c = 1/2" in tvd_line
 
 
 RANDOM_WEIGHT = st.fractions(min_value=-1, max_value=1, max_denominator=4)
@@ -509,37 +511,46 @@ def test_rational_courant_finds_the_order_where_a_term_vanishes(capsys, tmp_path
 
 # ---- reasons true, exact fields exact ---------------------------------------------------------
 
-def test_failure_ranges_are_true_and_exact():
-    # max(0, min(1, 2/r)) is piecewise rational (a pole at r = 0 is a breakpoint): its facts
-    # are exact, and each failing range really fails (numpy at points inside each range).
-    scheme = scheme_from_text(lw_spec("inverse", "max(0, min(1, 2 / r))"))
+def _outside_numpy(prop, psi, rs):
+    """Where psi leaves Sweby's region, its second-order part, or symmetry (numpy)."""
+    with np.errstate(all="ignore"):
+        v = np.broadcast_to(psi(rs), rs.shape)
+        if prop == "symmetric":
+            return np.abs(v / rs - np.broadcast_to(psi(1 / rs), rs.shape)) > 1e-9
+    pos = rs > 0
+    upper = np.where(pos, np.minimum(2 * rs, 2), 0.0)
+    lower = np.zeros_like(rs)
+    if prop == "second_order_region":
+        lower = np.where(pos, np.minimum(rs, 1), 0.0)
+        upper = np.where(pos, np.minimum(np.maximum(rs, 1), upper), 0.0)
+    return (v < lower - 1e-12) | (v > upper + 1e-12)
+
+
+@pytest.mark.parametrize("body", ["max(0, min(1, 2 / r))", VANLEER_MINUS,
+                                  "max(0, min(3 * r, 1), min(r, 3))"])
+def test_failure_ranges_are_true_and_exact(body):
+    # Each failing range is exact and true: numpy finds the property violated at points
+    # inside it (max(0, min(1, 2/r)) is piecewise rational: the pole at r = 0 is a breakpoint).
+    scheme = scheme_from_text(lw_spec("failing", body))
     facts = analyse(scheme).limiters[0]
     assert facts.method.startswith("exact")
     psi = sympy.lambdify(R, scheme.limiters[0].body, "numpy")
-    bounds = {"2r": lambda r: 2 * r, "2": lambda r: 2 + 0 * r, "r": lambda r: r,
-              "1": lambda r: 1 + 0 * r, "0": lambda r: 0 * r}
-    checked = 0
+    assert facts.failures
     for failure in facts.failures:
-        if failure.variable != "r" or not failure.where:
-            continue
-        words = failure.detail.split()
-        if failure.property == "symmetric":  # psi(r)/r != psi(1/r) inside the range
-            for span in failure.where:
-                rs = np.linspace(float(span.lo) + 0.01, min(float(span.hi), 50.0) - 0.01, 39)
-                with np.errstate(all="ignore"):
-                    assert np.any(np.abs(psi(rs) / rs - psi(1 / rs)) > 1e-9), failure
-            checked += 1
-            continue
-        bound, below = bounds[words[-1]], "below" in words
-        for span in failure.where:
-            lo = float(span.lo) if span.lo.is_finite else -50.0
-            hi = float(span.hi) if span.hi.is_finite else 50.0
-            rs = np.linspace(lo, hi, 41)[1:-1]
-            with np.errstate(all="ignore"):
-                values = np.broadcast_to(psi(rs), rs.shape)
-            assert np.all(values < bound(rs)) if below else np.all(values > bound(rs)), failure
-            checked += 1
-    assert checked >= 2
+        pieces = failure.where.args if isinstance(failure.where, sympy.Union) else (failure.where,)
+        for piece in pieces:
+            if isinstance(piece, sympy.FiniteSet):
+                rs = np.array([float(v) for v in piece])
+            else:
+                lo = float(piece.inf) if piece.inf.is_finite else -50.0
+                hi = float(piece.sup) if piece.sup.is_finite else 50.0
+                rs = np.linspace(lo, hi, 41)[1:-1]
+                rs = rs[rs != 0]
+            if failure.property == "second_order_region" and np.all(rs == 1):
+                continue  # psi(1) != 1: a point, checked below through psi_at_1
+            assert np.all(_outside_numpy(failure.property, psi, rs)), (body, failure)
+    for line in facts.why:  # every reason is labelled with its property and its range
+        assert " fails for " in line and ("r in" in line or "r = " in line or "c in" in line)
 
 
 def _exact_fields(node, path=""):

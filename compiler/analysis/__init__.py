@@ -111,14 +111,28 @@ class Analysis:
             return bounded if bounded is not None and bounded.any_positive else None
         if self.linearisation.exact:
             return self.stability[0].stable if self.stability else None
+        if self.small_data:
+            return self.stand_in_set
         tvd = self.tvd.stable_set
         return tvd if tvd is not None and tvd.any_positive else None
 
     @property
+    def small_data(self) -> bool:
+        """A nonlinear face differentiable at a constant state: for data close enough to a
+        constant state it is its Jacobian linearisation, whose von Neumann verdict is then
+        exact for those data (and says nothing about larger data)."""
+        lin = self.linearisation
+        return (not lin.exact and lin.source == "linearisation"
+                and (lin.where or "").startswith("a constant state") and bool(self.stability))
+
+    @property
     def stability_claim(self) -> str:
-        """What the stable set means: 'exact' (linear: unstable outside it) or 'at least'
-        (nonlinear: proven stable there, no claim outside)."""
-        return "exact" if (self.linearisation.exact and self.scheme.correct != "fct") else "at least"
+        """What the stable set means: 'exact' (linear, or small perturbations of a constant
+        state: unstable outside it) or 'at least' (nonlinear: proven stable there, no claim
+        outside)."""
+        if self.scheme.correct == "fct":
+            return "at least"
+        return "exact" if (self.linearisation.exact or self.small_data) else "at least"
 
     @property
     def stable_interval(self) -> Span | None:
@@ -257,7 +271,7 @@ def _limiter(run, name: str, body, courant: bool = False) -> LimiterFacts:
 
     def undecided():
         return LimiterFacts(name, sympy.sstr(body), None, None, None, None, None, None, None,
-                            None, "undecided: budget exceeded", (), courant)
+                            None, "undecided: budget exceeded", courant=courant)
     sampled = _sampled_courant if courant else _sampled
     return run(f"limiter {name}", lambda: analyse_limiter(name, body, courant),
                lambda: sampled(name, body, None, None, None),

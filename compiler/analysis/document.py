@@ -12,6 +12,8 @@ import sympy
 from . import intervals
 from .intervals import CourantSet, Span
 from .stability import kind_of
+from .limiters import range_text
+from .wording import r_set_text
 from .timemethods import imaginary_axis_limit, method, stability_polynomial
 
 SCHEMA_VERSION = 1
@@ -49,6 +51,17 @@ def _set(cset: CourantSet | None, leading: bool = True) -> dict:
     rest = cset.others if leading else cset.islands
     return {**_span(first), "islands": [_span(p) for p in rest],
             "set": cset.text(), "method": cset.method, "tolerance": cset.tolerance}
+
+
+def _r_end(value):
+    return None if value in (sympy.oo, -sympy.oo) else float(sympy.N(value, 17))
+
+
+def _failure(failure) -> dict:
+    """A limiter failure: the property, the range of r where it fails (readable and numeric)."""
+    where = failure.where
+    return {"property": failure.property, "r": r_set_text(where),
+            "r_min": _r_end(where.inf), "r_max": _r_end(where.sup), "detail": failure.detail}
 
 
 def _terms(terms) -> list[dict]:
@@ -114,7 +127,12 @@ def analysis_document(a) -> dict:
     scheme_set = a.stable_set
     every = [st.stable for st in a.stability]
     claim = a.stability_claim
-    if claim == "exact":
+    if a.small_data:
+        basis, source = ("small perturbations of a constant state, where the face is its "
+                         "Jacobian linearisation (von Neumann, exact for that linearisation); "
+                         "larger data, where the weights or clamps act, are not covered"), \
+            "linearisation"
+    elif claim == "exact":
         basis, source = "the scheme's own amplification factor (von Neumann, exact)", "scheme"
         if s.clip is not None:
             basis += "; the clamp only acts at the bounds and keeps values in them regardless"
@@ -263,12 +281,12 @@ def analysis_document(a) -> dict:
             "tvd_courant": _set(lim.tvd_courant, leading=False), "second_order_courant":
                 _set(lim.second_order_courant, leading=False),
             "method": lim.method, "why_not": list(lim.why),
-            "failures": [{"property": f.property, "detail": f.detail, "variable": f.variable,
-                          "ranges": [{"lo": _num(w.lo), "lo_exact": _exact(w.lo),
-                                      "hi": _num(w.hi), "hi_exact": _exact(w.hi),
-                                      "lo_closed": w.lo_closed, "hi_closed": w.hi_closed}
-                                     for w in f.where],
-                          "text": f.text()} for f in lim.failures]}
+            "failures": [_failure(f) for f in lim.failures],
+            "courant_failures": [{"property": f.property, "detail": f.detail,
+                                  "c": " and ".join(range_text(w, "c") for w in f.where),
+                                  "ranges": [{**_span(w), "lo_closed": w.lo_closed,
+                                              "hi_closed": w.hi_closed} for w in f.where],
+                                  "text": f.text()} for f in lim.courant_failures]}
 
     # TVD
     t = a.tvd

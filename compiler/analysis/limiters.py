@@ -31,27 +31,33 @@ SAMPLE_SLACK = 1e-12
 REGION_TOP = sympy.Integer(1)
 """The Courant-dependent region is that of single-step schemes, 0 < c <= 1."""
 
-PROPERTY_WORDS = {
-    "sweby_tvd": "TVD region",
-    "second_order_region": "second-order region",
-    "symmetric": "symmetry psi(r)/r = psi(1/r)",
-    "tvd_courant": "Courant-dependent TVD region",
-    "second_order_courant": "Courant-dependent second-order region",
+COURANT_PROPERTY_WORDS = {
+    "tvd_courant": "the Courant-dependent TVD region",
+    "second_order_courant": "its second-order part",
+    "symmetric_courant": "symmetry psi(r, c)/r = psi(1/r, c)",
 }
 
 
 @dataclass(frozen=True)
 class Failure:
-    """Where one property of a limiter fails: the variable (r or c) and its ranges."""
+    """One property a limiter fails, the set of r where it fails, and how."""
 
-    property: str
+    property: str           # sweby_tvd | second_order_region | symmetric
+    where: sympy.Set        # the r where it fails (exact, or the sampled points' hull)
     detail: str
-    variable: str
+
+
+@dataclass(frozen=True)
+class CourantFailure:
+    """Where a limiter leaves the Courant-dependent region: the Courant numbers (0, 1]."""
+
+    property: str                # tvd_courant | second_order_courant
     where: tuple[Span, ...]
+    detail: str
 
     def text(self) -> str:
-        ranges = " and ".join(range_text(s, self.variable) for s in self.where)
-        return f"{PROPERTY_WORDS[self.property]}: {self.detail}" + (f" for {ranges}" if ranges else "")
+        ranges = " and ".join(range_text(s, "c") for s in self.where)
+        return f"{COURANT_PROPERTY_WORDS[self.property]} fails for {ranges}: {self.detail}"
 
 
 def range_text(span: Span, variable: str) -> str:
@@ -76,15 +82,12 @@ class LimiterFacts:
     sup_psi: sympy.Expr | None          # sup over r of psi (None: depends on c)
     sup_psi_over_r: sympy.Expr | None   # sup over r != 0 of psi / r
     method: str
-    failures: tuple[Failure, ...] = ()
+    why: tuple[str, ...] = ()           # every failure, labelled, one line each
+    failures: tuple[Failure, ...] = ()  # each failing property with the r where it fails
     courant: bool = False               # a limiter of (r, c)
     tvd_courant: CourantSet | None = None           # c in (0, 1] where psi is in the region
     second_order_courant: CourantSet | None = None  # ... and in its second-order part
-
-    @property
-    def why(self) -> tuple[str, ...]:
-        """Each failing property with its range, labelled (one line each)."""
-        return tuple(f.text() for f in self.failures)
+    courant_failures: tuple[CourantFailure, ...] = ()
 
     @property
     def lipschitz_at_1(self) -> bool:
@@ -92,90 +95,102 @@ class LimiterFacts:
             self.slope_left.is_finite and self.slope_right.is_finite
 
 
-# ---- exact ranges where an inequality fails ---------------------------------------
+PROPERTY_LABELS = {"sweby_tvd": "Sweby's TVD region",
+                   "second_order_region": "second-order region",
+                   "symmetric": "symmetry psi(r)/r = psi(1/r)"}
 
-def where_negative(expr: sympy.Expr, span: sympy.Interval) -> list[Span]:
-    """The parts of span where the rational function expr is < 0, with exact ends."""
-    if span.is_empty or not isinstance(span, sympy.Interval):
-        return []
+
+def why_lines(failures, courant_failures) -> tuple[str, ...]:
+    """Every failure as one labelled line: the property, where it fails, what goes wrong."""
+    from .wording import r_set_text
+
+    lines = [f"{PROPERTY_LABELS[f.property]} fails for {r_set_text(f.where)}: {f.detail}"
+             for f in failures]
+    return tuple(lines + [f.text() for f in courant_failures])
+
+
+# ---- exact sets of r where an inequality fails ----------------------------------------
+
+def _negative_set(expr: sympy.Expr, span: sympy.Interval) -> sympy.Set:
+    """The r in span where the rational function expr < 0, exactly."""
+    if span.measure == 0:
+        return sympy.Union(*[sympy.FiniteSet(p) for p in span.boundary
+                             if p.is_finite and sympy.simplify(expr.subs(R, p)) < 0])
+    num, den = sympy.fraction(sympy.cancel(expr))
     lo, hi = span.inf, span.sup
-    if lo == hi:
-        value = expr.subs(R, lo)
-        return [Span(lo, lo)] if value.is_finite and value < 0 else []
-    numerator, denominator = sympy.fraction(sympy.cancel(expr))
-    cuts = sorted(set(piecewise.interior_roots(numerator, lo, hi)
-                      + piecewise.interior_roots(denominator, lo, hi)), key=float)
+    cuts = sorted(set(piecewise.interior_roots(num, lo, hi) + piecewise.interior_roots(den, lo, hi)),
+                  key=float)
     points = [lo] + cuts + [hi]
-    out: list[Span] = []
-    for i, (a, b) in enumerate(zip(points, points[1:])):
-        if expr.subs(R, piecewise.rational_between(a, b)) >= 0:
-            continue
-        a_closed = (i > 0 or not span.left_open) and a.is_finite and _negative_at(expr, a)
-        b_closed = (b != hi or not span.right_open) and b.is_finite and _negative_at(expr, b)
-        if out and out[-1].hi == a and (out[-1].hi_closed or a_closed):
-            out[-1] = Span(out[-1].lo, b, out[-1].lo_closed, b_closed)
-        else:
-            out.append(Span(a, b, a_closed, b_closed))
-    return out
+    found = [sympy.Interval.open(a, b) for a, b in zip(points, points[1:])
+             if expr.subs(R, piecewise.rational_between(a, b)) < 0]
+    for end in (lo, hi):
+        if end.is_finite and span.contains(end) and sympy.simplify(expr.subs(R, end)) < 0:
+            found.append(sympy.FiniteSet(end))
+    return sympy.Union(*found) if found else sympy.S.EmptySet
 
 
-def _negative_at(expr, point) -> bool:
-    value = sympy.cancel(expr).subs(R, point)
-    return bool(value.is_finite and value < 0)
-
-
-_NONPOS = sympy.Interval(-sympy.oo, 0)
-_ZERO = sympy.Integer(0)
-# (lower bound, its words, upper bound, its words, window)
-_SWEBY = [
-    (_ZERO, "0", _ZERO, "0", _NONPOS),
-    (_ZERO, "0", 2 * R, "2r", sympy.Interval.Lopen(0, 1)),
-    (_ZERO, "0", sympy.Integer(2), "2", sympy.Interval(1, sympy.oo)),
-]
-_SECOND_ORDER = [
-    (_ZERO, "0", _ZERO, "0", _NONPOS),
-    (R, "r", 2 * R, "2r", sympy.Interval.Lopen(0, sympy.Rational(1, 2))),
-    (R, "r", sympy.Integer(1), "1", sympy.Interval(sympy.Rational(1, 2), 1)),
-    (sympy.Integer(1), "1", R, "r", sympy.Interval(1, 2)),
-    (sympy.Integer(1), "1", sympy.Integer(2), "2", sympy.Interval(2, sympy.oo)),
-]
-
-
-def _region_failures(parts, region, prop: str) -> list[Failure]:
-    found: dict[str, list[Span]] = {}
+def _failures(parts, region_pieces, prop: str) -> list[Failure]:
+    """Where psi leaves the region, exactly: one failure with the union of the bad r,
+    and per bound it crosses, the r where it does."""
+    by_bound: dict[str, list[sympy.Set]] = {}
     for expr, where in parts:
-        for low, low_text, high, high_text, window in region:
+        for lo_expr, hi_expr, window, _ in region_pieces:
             span = where.intersect(window)
             if span.is_empty or not isinstance(span, sympy.Interval):
                 continue
-            shown = sympy.sstr(expr)
-            for detail, difference in ((f"psi = {shown} is below {low_text}", expr - low),
-                                       (f"psi = {shown} exceeds {high_text}", high - expr)):
-                spans = where_negative(difference, span)
-                if spans:
-                    found.setdefault(detail, []).extend(spans)
-    return [Failure(prop, detail, "r", tuple(spans)) for detail, spans in found.items()]
+            for bound, below in ((lo_expr, True), (hi_expr, False)):
+                if bound is None:
+                    continue
+                bad = _negative_set(expr - bound if below else bound - expr, span)
+                if not bad.is_empty:
+                    key = f"psi {'below' if below else 'above'} {sympy.sstr(bound)}"
+                    by_bound.setdefault(key, []).append(bad)
+    if not by_bound:
+        return []
+    from .wording import r_set_text
+    sets = {key: sympy.Union(*found) for key, found in by_bound.items()}
+    detail = "; ".join(f"{key} for {r_set_text(where)}" for key, where in sets.items())
+    return [Failure(prop, sympy.Union(*sets.values()), detail)]
 
 
-def _symmetry_failures(parts) -> list[Failure]:
-    """Where psi(r)/r != psi(1/r) on r > 0 (exact, piece by piece)."""
+def _positive_part(interval: sympy.Interval) -> sympy.Interval:
+    return interval.intersect(sympy.Interval.open(0, sympy.oo))
+
+
+_NONPOS = sympy.Interval(-sympy.oo, 0)
+_SWEBY = [
+    (sympy.Integer(0), sympy.Integer(0), _NONPOS, "0 (r <= 0)"),
+    (sympy.Integer(0), 2 * R, sympy.Interval.Lopen(0, 1), "[0, 2r]"),
+    (sympy.Integer(0), sympy.Integer(2), sympy.Interval(1, sympy.oo), "[0, 2]"),
+]
+_SECOND_ORDER = [
+    (sympy.Integer(0), sympy.Integer(0), _NONPOS, "0 (r <= 0)"),
+    (R, 2 * R, sympy.Interval.Lopen(0, sympy.Rational(1, 2)), "[r, 2r]"),
+    (R, sympy.Integer(1), sympy.Interval(sympy.Rational(1, 2), 1), "[r, 1]"),
+    (sympy.Integer(1), R, sympy.Interval(1, 2), "[1, r]"),
+    (sympy.Integer(1), sympy.Integer(2), sympy.Interval(2, sympy.oo), "[1, 2]"),
+]
+
+
+def _symmetric_failures(parts) -> list[Failure]:
+    """The r > 0 where psi(r)/r != psi(1/r), as open intervals between the pieces' ends."""
     cuts = set()
     for _, where in parts:
         for end in (where.inf, where.sup):
             if end.is_finite and end > 0:
                 cuts |= {end, 1 / end}
     points = [sympy.Integer(0)] + sorted(cuts, key=float) + [sympy.oo]
-    spans = []
+    bad = []
     for a, b in zip(points, points[1:]):
         mid = piecewise.rational_between(a, b)
         here = piecewise.piece_at(parts, mid)
         there = piecewise.piece_at(parts, 1 / mid)
-        if here is None or there is None or sympy.cancel(here / R - there.subs(R, 1 / R)) != 0:
-            if spans and spans[-1].hi == a:
-                spans[-1] = Span(spans[-1].lo, b, False, False)
-            else:
-                spans.append(Span(a, b, False, False))
-    return [Failure("symmetric", "psi(r)/r != psi(1/r)", "r", tuple(spans))] if spans else []
+        if here is not None and there is not None and \
+                sympy.cancel(here / R - there.subs(R, 1 / R)) != 0:
+            bad.append(sympy.Interval.open(a, b))
+    if not bad:
+        return []
+    return [Failure("symmetric", sympy.Union(*bad), "psi(r)/r != psi(1/r)")]
 
 
 def _sup(parts, over_r: bool) -> sympy.Expr:
@@ -295,14 +310,14 @@ def complement(cset: CourantSet, top=REGION_TOP) -> tuple[Span, ...]:
     return tuple(out)
 
 
-def _courant_failures(tvd_set, second_set) -> list[Failure]:
+def _courant_failures(tvd_set, second_set) -> list[CourantFailure]:
     out = []
     for prop, cset, words in (("tvd_courant", tvd_set, "psi leaves the region"),
                               ("second_order_courant", second_set,
                                "psi leaves the second-order part")):
         gaps = complement(cset)
         if gaps:
-            out.append(Failure(prop, words, "c", gaps))
+            out.append(CourantFailure(prop, gaps, words))
     return out
 
 
@@ -317,23 +332,29 @@ def analyse_limiter(name: str, body: sympy.Expr, courant: bool = False) -> Limit
     parts = piecewise.pieces(body)
     if parts is None:
         return _sampled(name, body, value, left, right)
-    failures = _region_failures(parts, _SWEBY, "sweby_tvd")
-    second = _region_failures(parts, _SECOND_ORDER, "second_order_region")
+    failures = _failures(parts, _SWEBY, "sweby_tvd")
+    second = _failures(parts, _SECOND_ORDER, "second_order_region")
     if value != 1:
-        second.append(Failure("second_order_region", f"psi(1) = {sympy.sstr(value)}, not 1",
-                              "r", ()))
-    symmetric = _symmetry_failures(parts)
+        if second:
+            second = [Failure("second_order_region", second[0].where | sympy.FiniteSet(1),
+                              second[0].detail + f"; psi(1) = {sympy.sstr(value)}, not 1")]
+        else:
+            second = [Failure("second_order_region", sympy.FiniteSet(1),
+                              f"psi(1) = {sympy.sstr(value)}, not 1")]
+    symmetric = _symmetric_failures(parts)
     try:
         tvd_set, second_set = courant_sets(body)
         courant_failures = _courant_failures(tvd_set, second_set)
     except parametric.NotExact:
         tvd_set = second_set = None
         courant_failures = []
+    found = failures + second + symmetric
     return LimiterFacts(
         name, sympy.sstr(body), value, left, right, not failures, not second, not symmetric,
         _sup(parts, False), _sup(parts, True),
         f"exact: piecewise rational on {len(parts)} pieces, checked piece by piece",
-        tuple(failures + second + symmetric + courant_failures), False, tvd_set, second_set)
+        why_lines(found, courant_failures), tuple(found), False, tvd_set, second_set,
+        tuple(courant_failures))
 
 
 def _analyse_courant_limiter(name: str, body: sympy.Expr) -> LimiterFacts:
@@ -346,15 +367,16 @@ def _analyse_courant_limiter(name: str, body: sympy.Expr) -> LimiterFacts:
         symmetric, symmetry_failures = _courant_symmetry(body)
     except parametric.NotExact:
         return _sampled_courant(name, body, value, left, right)
-    failures = _courant_failures(tvd_set, second_set) + symmetry_failures
+    courant_failures = _courant_failures(tvd_set, second_set) + symmetry_failures
     return LimiterFacts(
         name, sympy.sstr(body), value, left, right, covers(tvd_set), covers(second_set),
         symmetric, None, None,
         "exact: pieces in r whose ends are rational functions of c, checked as sets of "
-        "0 < c <= 1", tuple(failures), True, tvd_set, second_set)
+        "0 < c <= 1", why_lines((), courant_failures), (), True, tvd_set, second_set,
+        tuple(courant_failures))
 
 
-def _courant_symmetry(body) -> tuple[bool, list[Failure]]:
+def _courant_symmetry(body) -> tuple[bool, list[CourantFailure]]:
     """psi(r, c)/r == psi(1/r, c) for r > 0 and every 0 < c < 1, band by band."""
     pic = parametric.picture(body, top=REGION_TOP)
     failing = []
@@ -378,8 +400,8 @@ def _courant_symmetry(body) -> tuple[bool, list[Failure]]:
                 break
     if not failing:
         return True, []
-    return False, [Failure("symmetric", "psi(r, c)/r != psi(1/r, c) for some r", "c",
-                           tuple(failing))]
+    return False, [CourantFailure("symmetric_courant", tuple(failing),
+                                  "psi(r, c)/r != psi(1/r, c) for some r")]
 
 
 def _piece_at(band, r_value):
@@ -449,18 +471,41 @@ def _sampled(name, body, value, left, right) -> LimiterFacts:
         sup_psi = float(numpy.max(v))
         nonzero = r != 0
         sup_ratio = float(numpy.max(v[nonzero] / r[nonzero]))
+        outside_sweby = numpy.where(neg, numpy.abs(v) > SAMPLE_SLACK,
+                                    (v < -SAMPLE_SLACK) | (v > numpy.minimum(2 * r, 2) + SAMPLE_SLACK))
+        low_all = numpy.where(r <= 1, r, 1.0)
+        high_all = numpy.where(r <= 1, numpy.minimum(2 * r, 1), numpy.minimum(r, 2))
+        outside_second = outside_sweby | (~neg & ((v < low_all - SAMPLE_SLACK)
+                                                  | (v > high_all + SAMPLE_SLACK)))
+        asymmetric = numpy.zeros_like(r, dtype=bool)
+        asymmetric[pos] = ~numpy.isclose(v[pos] / rp, mirrored, rtol=1e-10, atol=1e-12)
     failures = []
-    if not sweby:
-        failures.append(Failure("sweby_tvd", "psi leaves the region at sampled points", "r", ()))
-    if not second:
-        failures.append(Failure("second_order_region",
-                                "psi leaves the second-order part at sampled points", "r", ()))
-    if not symmetric:
-        failures.append(Failure("symmetric", "psi(r)/r != psi(1/r) at sampled points", "r", ()))
+    for prop, bad, ok in (("sweby_tvd", outside_sweby, sweby),
+                          ("second_order_region", outside_second, second),
+                          ("symmetric", asymmetric, symmetric)):
+        if not ok and bad.any():
+            failures.append(Failure(prop, _sampled_runs(r, bad),
+                                    "psi(r)/r != psi(1/r) at the sample points there"
+                                    if prop == "symmetric" else
+                                    "psi leaves the region at the sample points there"))
     return LimiterFacts(name, sympy.sstr(body), value, left, right, sweby, second, symmetric,
                         sympy.Float(sup_psi, 8), sympy.Float(sup_ratio, 8),
                         f"sampled: {piecewise.SAMPLE_GRID} (the body is not piecewise rational); "
-                        f"tolerance {SAMPLE_SLACK:g}; values are not exact", tuple(failures))
+                        f"tolerance {SAMPLE_SLACK:g}; values are not exact",
+                        why_lines(failures, ()), tuple(failures))
+
+
+def _sampled_runs(r: numpy.ndarray, bad: numpy.ndarray) -> sympy.Set:
+    """Closed hulls of the runs of consecutive failing sample points."""
+    runs, start = [], None
+    for i, flag in enumerate(bad):
+        if flag and start is None:
+            start = i
+        if start is not None and (not flag or i == len(bad) - 1):
+            end = i if flag else i - 1
+            runs.append(sympy.Interval(sympy.Float(r[start], 6), sympy.Float(r[end], 6)))
+            start = None
+    return sympy.Union(*runs)
 
 
 COURANT_SAMPLES = 200
@@ -486,12 +531,13 @@ def _sampled_courant(name, body, value, left, right) -> LimiterFacts:
                                   and numpy.all(v[pos] <= high + SAMPLE_SLACK)))
     step = 1.0 / COURANT_SAMPLES
     sets = [_numeric_set(cs, oks, step) for oks in (tvd_ok, second_ok)]
-    failures = _courant_failures(*sets)
+    courant_failures = _courant_failures(*sets)
     return LimiterFacts(name, sympy.sstr(body), value, left, right, covers(sets[0]),
                         covers(sets[1]), None, None, None,
                         f"sampled: {piecewise.SAMPLE_GRID}, c in steps of {step:g} on (0, 1] "
                         "(the body is not piecewise rational); values are not exact",
-                        tuple(failures), True, *sets)
+                        why_lines((), courant_failures), (), True, *sets,
+                        tuple(courant_failures))
 
 
 def _numeric_set(cs, oks, step) -> CourantSet:

@@ -16,7 +16,13 @@ from fluxloom.compiler import LoomError
 from fluxloom.compiler.analysis import analyse
 from fluxloom.compiler.analysis.budget import DEFAULT_SECONDS
 
-from .common import add_set_option, add_spec_argument, scheme_from_args
+from fluxloom.compiler.analysis.claims import read_claims
+from fluxloom.compiler.analysis.wording import (bounded_text, failure_text, limiter_text,
+                                                order_text, stability_text, value_text,
+                                                verdict_text, yes_no)
+
+from .common import add_courant_option, add_set_option, add_spec_argument, parse_courant, \
+    scheme_from_args
 
 
 def register(sub) -> None:
@@ -27,9 +33,8 @@ def register(sub) -> None:
     add_spec_argument(parser)
     add_set_option(parser)
     parser.add_argument("--json", action="store_true", help="print the analysis as JSON")
-    parser.add_argument("--courant", default="1/2", metavar="C",
-                        help="Courant number for the dispersion table and the verdicts at one "
-                             "Courant number; a decimal or a fraction such as 3/5 (default 1/2)")
+    add_courant_option(parser, "Courant number for the dispersion table and the order there, "
+                               "e.g. 0.5 or 3/5 (default 0.5)")
     parser.add_argument("--plots", metavar="DIR",
                         help="write PNG figures (|G|, stability map, phase speed, limiters) to DIR")
     parser.add_argument("--force", action="store_true",
@@ -38,19 +43,6 @@ def register(sub) -> None:
                         help="CPU seconds each analysis pass may take before it falls back to "
                              f"a numeric method or says undecided (default {DEFAULT_SECONDS:g})")
     parser.set_defaults(run=run)
-
-
-def parse_courant(text: str) -> Fraction:
-    """A positive Courant number, exact: '0.6' and '3/5' are both 3/5."""
-    try:
-        top, _, bottom = text.strip().partition("/")
-        value = Fraction(top.strip()) / (Fraction(bottom.strip()) if bottom else 1)
-    except (ValueError, ZeroDivisionError):
-        raise LoomError(f"--courant expects a number such as 0.6 or 3/5, given '{text}'",
-                        file="--courant") from None
-    if value <= 0:
-        raise LoomError(f"--courant must be a positive number, given '{text}'", file="--courant")
-    return value
 
 
 def parse_budget(text: str) -> float:
@@ -66,16 +58,15 @@ def parse_budget(text: str) -> float:
 
 
 def run(args) -> int:
-    courant = parse_courant(args.courant)
+    parse_courant(args.courant)  # validates; the analysis keeps the Courant number exact
     seconds = parse_budget(args.budget)
     scheme = scheme_from_args(args)
-    analysis = analyse(scheme, sympy.Rational(courant.numerator, courant.denominator), seconds)
+    analysis = analyse(scheme, exact_courant(args.courant), seconds)
     doc = analysis.to_json()
     if args.plots:
-        from fluxloom.runtime.analysis_plots import write_plots
-
-        written = write_plots(analysis, Path(args.plots), force=args.force)
+        written, skipped = write_figures(analysis, Path(args.plots), args.force)
         doc["plots"] = [str(p) for p in written]
+        doc["plots_not_written"] = skipped
     if args.json:
         print(json.dumps(doc, indent=2))
     else:
@@ -83,54 +74,32 @@ def run(args) -> int:
     return 0
 
 
+def exact_courant(text: str) -> sympy.Rational:
+    """'3/5' and '0.6' as the exact 3/5 (the text already passed parse_courant)."""
+    top, _, bottom = text.strip().partition("/")
+    value = Fraction(top.strip()) / (Fraction(bottom.strip()) if bottom else 1)
+    return sympy.Rational(value.numerator, value.denominator)
+
+
+def write_figures(analysis, directory: Path, force: bool) -> tuple[list[Path], list[str]]:
+    """The figures --plots writes, and a sentence for each kind it cannot write."""
+    try:
+        from fluxloom.runtime.analysis_plots import write_plots
+    except ImportError as err:  # matplotlib missing from this installation
+        raise LoomError(f"--plots needs matplotlib, which cannot be imported ({err}); "
+                        "install it (pip install matplotlib) or leave out --plots",
+                        file="--plots") from None
+    skipped = []
+    lin = analysis.linearisation
+    if not lin.smooth:
+        skipped.append(f"no amplification, stability-map or phase-speed figures: no linear "
+                       f"scheme stands for this one ({lin.note})")
+    if not analysis.scheme.limiters:
+        skipped.append("no limiter figure: the scheme has no limiter statement")
+    return write_plots(analysis, directory, force=force), skipped
+
+
 # ---- terminal report ------------------------------------------------------------
-
-def _yes(value) -> str:
-    return {True: "yes", False: "no", None: "undecided"}[value]
-
-
-def _c(value, exact) -> str:
-    if value is None and exact in (None, "oo"):
-        return "oo" if exact == "oo" else "-"
-    if exact is not None and len(exact) <= 24 and exact != _short(value):
-        return f"{exact} ({_short(value)})"
-    return _short(value)
-
-
-def _short(value) -> str:
-    if value is None:
-        return "-"
-    return f"{value:.6g}"
-
-
-def _interval(d: dict) -> str:
-    if d.get("courant_min") is None and d.get("courant_max") is None \
-            and d.get("courant_max_exact") is None:
-        return "no interval"
-    lo = _c(d.get("courant_min"), d.get("courant_min_exact"))
-    hi = _c(d.get("courant_max"), d.get("courant_max_exact"))
-    if lo == hi:
-        return f"c = {lo}"
-    closing = ")" if d.get("courant_max_exact") == "oo" else "]"
-    return f"[{lo}, {hi}{closing}"
-
-
-def _islands(d: dict) -> str:
-    isl = d.get("islands") or []
-    if not isl:
-        return ""
-    return "; also " + ", ".join(
-        f"c = {_c(i['courant_min'], i['courant_min_exact'])}" if i["courant_min"] == i["courant_max"]
-        else _interval(i) for i in isl)
-
-
-def _only(d: dict) -> str:
-    """' (only at c = 1/2)' for a verdict that holds at isolated Courant numbers only."""
-    isl = d.get("islands") or []
-    if not isl:
-        return ""
-    return " (only at " + ", ".join(_interval(i) for i in isl) + ")"
-
 
 def _ssp(time_method: dict) -> str:
     exact = time_method["ssp_coefficient_exact"]
@@ -138,6 +107,8 @@ def _ssp(time_method: dict) -> str:
 
 
 def render(doc: dict) -> str:
+    """The analysis for reading; every verdict is worded by compiler/analysis/wording.py."""
+    claims = read_claims(doc)
     out = []
     head = f"{doc['scheme']}" + (f"  -  {doc['about']}" if doc.get("about") else "")
     out.append(head)
@@ -154,11 +125,9 @@ def render(doc: dict) -> str:
 
     order = doc["order"]
     out.append("")
-    if order["overall"] is None:
-        out.append(f"consistency   {_yes(doc['consistent'])}; no order")
-    else:
-        out.append(f"consistency   {_yes(doc['consistent'])}; order {order['overall']} overall "
-                   f"(space {order['space']}, time {order['time']}) at fixed Courant number")
+    out.append(f"consistency   {yes_no(claims.consistent)}; order "
+               f"{order_text(claims.order, claims.courant)}"
+               + (" at fixed Courant number" if claims.order.overall is not None else ""))
     for term in doc["modified_equation"]:
         out.append(f"  {term['coefficient']} * {term['derivative']}")
     if doc["modified_equation"]:
@@ -171,9 +140,7 @@ def render(doc: dict) -> str:
 
     st = doc["stability"]
     out.append("")
-    out.append(f"stability     {st['kind'] or 'undecided'}"
-               + (f" for c in {_interval(st)}" if st["kind"] == "conditional" else "")
-               + (_islands(st) if st["kind"] else _only(st).replace("only at", "proven stable only at"))
+    out.append(f"stability     {stability_text(claims.stability)}"
                + ("; no claim elsewhere" if st["outside"] == "no claim" and st["kind"] else ""))
     out.append(f"  basis: {st['basis']}")
     at = st["at_courant"]
@@ -181,9 +148,9 @@ def render(doc: dict) -> str:
                + {True: "stable", False: "unstable", None: "no claim"}[at["stable"]])
     if st.get("stand_ins"):
         out.append(f"  stand-ins: all stable for {st['stand_ins']['set']}")
-    for sch in st["schemes"]:
-        if len(st["schemes"]) > 1 or sch.get("islands"):
-            out.append(f"  {sch['label']}: {sch['kind']}, stable for {sch['set']}")
+    for standin in claims.stability.standins:
+        if len(claims.stability.standins) > 1:
+            out.append(f"  {standin.label}: {stability_text_of(standin)}")
     if len(st["schemes"]) == 1:
         only = st["schemes"][0]
         if only.get("semi_discrete_z"):
@@ -194,27 +161,25 @@ def render(doc: dict) -> str:
             out.append(f"  |G|^2 = {only['abs_squared_s']}, s = sin^2(theta/2)")
     if "time_method" in st:
         tm = st["time_method"]
-        limit = _c(tm["imaginary_axis_limit"], tm["imaginary_axis_limit_exact"])
+        limit = value_text(tm["imaginary_axis_limit"], tm["imaginary_axis_limit_exact"])
         out.append(f"  R(z) = {tm['stability_polynomial']}; imaginary-axis limit {limit}; "
                    f"SSP coefficient {_ssp(tm)}")
     if st["method"]:
         out.append(f"  method: {st['method']}" + (f", tolerance {st['tolerance']:g}" if st["tolerance"] else ""))
 
     out.append("")
-    out.append(f"conservation  {_yes(doc['conservative'])}: {doc['conservation']['reason']}")
+    out.append(f"conservation  {yes_no(claims.conservative)}: {claims.conservation_reason}")
 
-    conv = doc["convergent"]
     out.append("")
-    out.append(f"convergence   {_yes(conv['holds'])}: {conv['reason']}")
+    out.append(f"convergence   {verdict_text(claims.convergent)}: {claims.convergent.reason}")
 
     mono = doc["monotone"]
     out.append("")
-    out.append(f"monotone      {_yes(mono['holds'])}" + (f" for c in {_interval(mono)}" if mono["holds"] else "")
-               + (_islands(mono) if mono["holds"] else _only(mono)) + f": {mono['reason']}")
+    out.append(f"monotone      {verdict_text(claims.monotone)}: {claims.monotone.reason}")
     if mono["coefficients"]:
         out.append("  update coefficients: " + ", ".join(
             f"q[j{int(k):+d}] {v}" for k, v in mono["coefficients"].items()))
-    for bnd in mono.get("bounding", []):
+    for bnd in mono["bounding"]:
         out.append(f"  {bnd['label']}: monotone for {bnd['set']}")
 
     if doc["limiters"]:
@@ -227,34 +192,32 @@ def render(doc: dict) -> str:
             out.append(f"  {name}({', '.join(lim['arguments'])}) = {lim['psi']}")
             out.append(f"    psi(1) = {lim['psi_at_1_exact']}, slope at 1 = {slopes}, "
                        f"max psi = {lim['sup_psi_exact'] or 'depends on c'}")
-            out.append(f"    Sweby TVD region {_yes(lim['sweby_tvd'])}; second-order region "
-                       f"{_yes(lim['second_order_region'])}; symmetric {_yes(lim['symmetric'])}")
+            facts = next(f for f in claims.limiters if f.name == name)
+            out.append(f"    {limiter_text(facts)}")
             if lim["tvd_courant"]["set"] is not None:
-                out.append(f"    in the Courant-dependent region for {lim['tvd_courant']['set']}; "
-                           f"its second-order part for {lim['second_order_courant']['set']}")
-            for why in lim["why_not"]:
-                out.append(f"    fails: {why}")
+                out.append(f"    in the Courant-dependent TVD region for "
+                           f"{lim['tvd_courant']['set']}; its second-order part for "
+                           f"{lim['second_order_courant']['set']}")
+            for failure in facts.failures:
+                out.append(f"    {failure_text(failure)}")
+            for failure in lim["courant_failures"]:
+                out.append(f"    {failure['text']}")
             out.append(f"    method: {lim['method']}")
 
     tvd = doc["tvd"]
     out.append("")
-    if tvd["holds"] is None:
-        out.append(f"TVD           undecided: {tvd['reason']}")
+    if claims.tvd.holds is None:
+        out.append(f"TVD           undecided: {claims.tvd.reason}")
     else:
-        where = tvd["set"] if tvd.get("set") else "no Courant number"
-        out.append(f"TVD           {_yes(tvd['holds'])}" + (f" for {where}" if tvd["holds"] else
-                                                            _only(tvd)))
+        out.append(f"TVD           {verdict_text(claims.tvd)}")
         out.append(f"  method: {tvd['method']}")
-        if tvd["reason"]:
-            out.append(f"  {tvd['reason']}")
+        if claims.tvd.reason:
+            out.append(f"  {claims.tvd.reason}")
 
-    bounded = doc["bounded"]
     if doc["bounds"] is not None:
         b = doc["bounds"]
         out.append("")
-        extra = f" for c in {_interval(bounded)}" if b["kind"] == "fct" and bounded["holds"] else \
-            (f" within [{b['low_exact']}, {b['high_exact']}]" if b["kind"] == "clip" else "")
-        out.append(f"bounds ({b['kind']})  bounded {_yes(b['bounded'])}{extra}")
+        out.append(f"bounds        bounded {bounded_text(claims)}")
         out.append(f"  new extrema: {b['new_extrema']}")
         out.append(f"  accuracy: {b['order']}")
         out.append(f"  {b['reason']}")
@@ -281,7 +244,16 @@ def render(doc: dict) -> str:
                    "(--budget); past it:")
         for item in over:
             out.append(f"  {item['pass']}: {item['note']}")
-    if doc.get("plots"):
+    if "plots" in doc:
         out.append("")
-        out.append("plots         " + ", ".join(doc["plots"]))
+        out.append("plots         " + (", ".join(doc["plots"]) or "none written"))
+        for why in doc["plots_not_written"]:
+            out.append(f"  {why}")
     return "\n".join(out)
+
+
+def stability_text_of(standin) -> str:
+    """One linear stand-in's stability, worded like the scheme's."""
+    from fluxloom.compiler.analysis.claims import Stability
+
+    return stability_text(Stability(standin.kind, standin.stable, (), None, None, ""))
