@@ -93,8 +93,7 @@ def verify_summary(row: Compared) -> str:
             words.append("DISAGREE: " + ", ".join(wrong))
         return "; ".join(words)
     unclaimed = sum(f.verdict == NO_CLAIM for f in findings)
-    return f"agree ({len(findings) - unclaimed} findings" + \
-        (f", {unclaimed} no claim)" if unclaimed else ")")
+    return f"{len(findings) - unclaimed} agree, {unclaimed} no claim"
 
 
 def measure_rows(comparison: Comparison):

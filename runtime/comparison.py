@@ -89,8 +89,9 @@ class CompareSettings:
         """Refuse (LoomError) settings whose runs are unbounded or meaningless."""
         if self.cells < 8:
             raise LoomError(f"--cells must be at least 8, given {self.cells}", file="--cells")
-        if any(n < 8 for n in self.grids) or not self.grids:
-            raise LoomError("--grids must list grids of at least 8 cells", file="--grids")
+        if any(n < 8 for n in self.grids) or len(self.ladder) < 2:
+            raise LoomError("--grids must list grids of at least 8 cells, two or more with "
+                            "--cells (a convergence line needs two points)", file="--grids")
         for n in self.ladder:
             harness.check_run_size(n, self.courant)
         if self.target_error is not None and not (0 < self.target_error < math.inf):
@@ -354,7 +355,8 @@ def sorted_comparison(comparison: Comparison, column: str | None) -> Comparison:
     """The same comparison, rows in the order of `column` (families and cheapest follow)."""
     if not column:
         return comparison
-    order = [comparison.rows.index(r) for r in sort_rows(comparison.rows, column)]
+    position = {id(r): i for i, r in enumerate(comparison.rows)}
+    order = [position[id(r)] for r in sort_rows(comparison.rows, column)]
     where = {old: new for new, old in enumerate(order)}
     rows = tuple(comparison.rows[i] for i in order)
     best = comparison.cheapest

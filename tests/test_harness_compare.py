@@ -53,6 +53,7 @@ def test_bad_set_value_is_bad_input(capsys):
 
 
 @pytest.mark.parametrize("option", [["--grids", "25,x"], ["--grids", "4,8"],
+                                    ["--grids", "100"],
                                     ["--target-error", "abc"], ["--target-error", "-1"],
                                     ["--repeats", "0"]])
 def test_bad_compare_options_are_bad_input(capsys, option):
