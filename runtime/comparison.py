@@ -13,7 +13,7 @@ from __future__ import annotations
 
 import itertools
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 import sympy
 
 from fluxloom.compiler import LoomError, load_scheme
@@ -22,13 +22,16 @@ from fluxloom.compiler.ir import parse_override
 from . import harness
 from .accuracy import Cheapest, GridError, Reach, cheapest, grid_errors, reach
 from .costs import Cost, TimingSettings, noise_warnings, time_kernels, within_noise
-from .findings import DISAGREE, FAULT, Options, Verification, verify_kernel
+from .findings import AGREE, DISAGREE, FAULT, NO_CLAIM, Finding, Options, Verification, \
+    verify_kernel
 from .measurements import in_clip_range
 from .modeller_measures import Measures, bell_row, measures
 from .prediction import Prediction
 from .profiles import BELL
 
 DEFAULT_GRIDS = (25, 50, 100, 200, 400)
+ORDER_JUDGED_FROM = 400   # an order is judged on a ladder reaching this grid (verify: 800),
+                          # coarser grids may not show the asymptotic order yet
 
 
 # ---- variants ------------------------------------------------------------------------
@@ -179,7 +182,7 @@ def measure_variant(variant: Variant, settings: CompareSettings,
     kernel = load_kernel(scheme, backend=settings.backend, precision=settings.precision)
     options = Options(courant=settings.courant, cells=settings.ladder,
                       shape_cells=settings.cells, stability=settings.stability)
-    verification = verify_kernel(kernel, prediction, options)
+    verification = short_ladder(verify_kernel(kernel, prediction, options), settings.ladder)
     m = verification.measurements
     background = in_clip_range(BELL, prediction.clip).low
     bell = grid_errors(m.convergence[1])
@@ -190,6 +193,23 @@ def measure_variant(variant: Variant, settings: CompareSettings,
     return Compared(variant, document, verification,
                     measures(m, kernel, settings.cells, background), bell, settings.cells,
                     finals=finals), kernel
+
+
+def short_ladder(verification: Verification, ladder) -> Verification:
+    """On a ladder ending below ORDER_JUDGED_FROM the measured order is reported, not
+    judged either way (agree or disagree): it may not have reached its asymptote."""
+    finest = max(ladder)
+    if finest >= ORDER_JUDGED_FROM:
+        return verification
+    findings = []
+    for f in verification.findings:
+        if f.check == "convergence" and f.verdict in (AGREE, DISAGREE):
+            f = Finding(f.check, f.context,
+                        f"no claim on grids up to N = {finest} (the order is judged on a "
+                        f"ladder reaching N = {ORDER_JUDGED_FROM}; the analysis: "
+                        f"{f.predicted})", f.measured, NO_CLAIM, f.values)
+        findings.append(f)
+    return replace(verification, findings=tuple(findings))
 
 
 # ---- the comparison -------------------------------------------------------------------

@@ -226,6 +226,22 @@ def test_a_wrong_prediction_is_marked_as_a_disagreement():
     assert compare([Variant("lax_wendroff", lw)], settings(64)).rows[0].disagreeing_checks == ()
 
 
+def test_a_wrong_order_is_marked_on_a_ladder_long_enough_to_judge_it():
+    # Lax-Wendroff (second order) measured against Fromm's claim of order 3 at c = 0.5
+    fromm = Prediction.from_document(analysis_document(load_scheme(EXAMPLES / "fromm.loom"), 0.5))
+    assert fromm.order == 3
+    lw = Variant("lax_wendroff", load_scheme(EXAMPLES / "lax_wendroff.loom"))
+    long = CompareSettings(cells=100, grids=(200, 400), stability=False, timing=NO_TIMING)
+    (row,) = compare([lw], long, predictions=[fromm]).rows
+    assert "convergence" in row.disagreeing_checks
+    # on a ladder ending at N = 100 the order is reported, not judged either way
+    short = CompareSettings(cells=100, grids=(50,), stability=False, timing=NO_TIMING)
+    (row,) = compare([lw], short, predictions=[fromm]).rows
+    assert "convergence" not in row.disagreeing_checks
+    assert all(f.verdict == "no claim" for f in row.verification.findings
+               if f.check == "convergence")
+
+
 # ---- the target error --------------------------------------------------------------------
 
 def test_target_error_is_interpolated_in_log_log():
