@@ -35,13 +35,20 @@ class Param:
 @dataclass(frozen=True)
 class Limiter:
     name: str
-    body: sympy.Expr  # in terms of symbols.R
+    body: sympy.Expr  # in terms of symbols.R (and symbols.C when courant)
+    courant: bool = False  # `limiter NAME(r, c)`: the body may depend on the Courant number
 
-    def __call__(self, r):
-        return self.body.subs(R, r)
+    @property
+    def arguments(self) -> tuple[sympy.Symbol, ...]:
+        """The symbols a call passes, in order: (R,) or (R, C)."""
+        return (R, C) if self.courant else (R,)
+
+    def __call__(self, r, c=C):
+        return self.body.xreplace({R: r, C: c}) if self.courant else self.body.subs(R, r)
 
     def lambdified(self):
-        return sympy.lambdify(R, self.body, modules="numpy")
+        """psi(r) for numpy arrays, or psi(r, c) for a Courant-dependent limiter."""
+        return sympy.lambdify(self.arguments, self.body, modules="numpy")
 
 
 @dataclass(frozen=True)
@@ -115,7 +122,7 @@ class Scheme:
         subs = {}
         for call in limiter_calls(expr, self.limiter_names):
             lim = self.limiter(limiter_name_of(call))
-            subs[call] = self.bound(lim(call.args[0]))
+            subs[call] = self.bound(lim(*call.args))
         return expr.xreplace(subs) if subs else expr
 
     @cached_property
@@ -125,7 +132,8 @@ class Scheme:
                  sympy.srepr(self.low_face), str(self.correct),
                  sympy.srepr(self.clip) if self.clip else "None"]
         parts += [f"{p.name}={sympy.srepr(p.value)}" for p in self.params]
-        parts += [f"{lim.name}:{sympy.srepr(lim.body)}" for lim in self.limiters]
+        parts += [f"{lim.name}{'(r, c)' if lim.courant else ''}:{sympy.srepr(lim.body)}"
+                  for lim in self.limiters]
         # surrogatepass: any str hashes, even one no file could hold
         return hashlib.sha256("\n".join(parts).encode("utf-8", "surrogatepass")).hexdigest()[:16]
 
@@ -238,7 +246,7 @@ class _Lowerer:
             args = [self.expr(a, local) for a in node.args]
             self._mixed(list(zip(node.args, args)))
             if node.func.id in self.limiters:
-                return self.limiters[node.func.id](args[0])
+                return self.limiters[node.func.id](*args)  # (r) or (r, c)
             if node.func.id == "sqrt" and args[0].is_number and args[0].is_negative:
                 raise LoomError(f"sqrt of the negative constant {args[0]} is not a real number",
                                 node.span)
@@ -299,9 +307,9 @@ def lower(spec: ast.Spec) -> Scheme:
         elif isinstance(stmt, ast.Let):
             low.env[stmt.name.id] = low.expr(stmt.value)
         elif isinstance(stmt, ast.LimiterDef):
-            body = low.expr(stmt.body, {stmt.args[0].id: R})
+            body = low.expr(stmt.body, {stmt.args[0].id: R})  # 'c' is C from the environment
             low.check_kernel_constants(body, stmt.body)
-            limiters.append(Limiter(stmt.name.id, body))
+            limiters.append(Limiter(stmt.name.id, body, courant=len(stmt.args) == 2))
             low.limiters[stmt.name.id] = limiter_function(stmt.name.id)
         elif isinstance(stmt, ast.Flux):
             flux = low.expr(stmt.value)

@@ -152,6 +152,13 @@ class KernelPrinter(C99CodePrinter):
         return (f"{self.plan.name}_{form.kind}_{form.limiter_name}"
                 f"({', '.join(self._print(a) for a in expr.args)})")
 
+    def _print_Quotient(self, expr):
+        return f"({self._print(expr.args[0])})/({self._print(expr.args[1])})"
+
+    def _print_NonzeroOr(self, expr):
+        b, x = expr.args
+        return f"({self._print(b)} != 0 ? {self._print(x)} : {self.real_literal(sympy.Integer(0))})"
+
     def _print_UnitSign(self, expr):
         suffix = "f" if self.precision == "float" else ""
         return f"copysign{suffix}({self.real_literal(sympy.Integer(1))}, {self._print(expr.args[0])})"
@@ -378,14 +385,19 @@ def c_context(scheme: Scheme, precision: str = "double", verdicts: bool = True) 
     limiters = []
     for lim in plan.limiters:
         statements, result = print_program(printer, lim.program)
+        arguments = ("r", "c") if scheme.limiter(lim.name).courant else ("r",)
         limiters.append({"name": lim.name, "label": printer.escape_text(lim.name),
-                         "statements": statements, "result": result})
+                         "statements": statements, "result": result,
+                         "arguments": ", ".join(arguments),
+                         "parameters": ", ".join(f"{printer.ctype} {a}" for a in arguments)})
     forms = []
     for form in plan.limiter_forms:
         statements, result = print_program(printer, form.program)
+        arguments = ("a", "b", "c") if form.courant else ("a", "b")
         forms.append({"function": f"{plan.name}_{form.kind}_{form.name}", "kind": form.kind,
                       "label": printer.escape_text(form.name), "statements": statements,
-                      "result": result})
+                      "result": result,
+                      "parameters": ", ".join(f"{printer.ctype} {a}" for a in arguments)})
     stages = []
     for s, update in enumerate(plan.stage_updates):
         code = stage_expression(printer, update)

@@ -9,16 +9,16 @@ small. Each limiter call is therefore emitted from a and b, never from r:
 Homogeneous form. With A = a sign(b) and B = |b| (so r = A/B, B > 0), every
 subexpression e(r) of the limiter body is rewritten as E(A, B) / B^d, pushing
 the powers of B into sums, products, min, max, abs and sign (B > 0 keeps their
-order); divisions become guarded quotients (ratio: 0 where the divisor is 0,
-so no 0/0 at a = b = 0 or at a limiter's own singular point). Then
+order); a division stays an IEEE division (`Quotient`, one node, so its parts of
+degree 1 are divided before anything multiplies them). Then
 
     psi(ratio(a, b)) * b = sign(b) * H(A, B),  H = E * B^(1 - d)   (the slope form)
     psi(ratio(a, b))     = E / B^d                                   (the value form)
 
-for every a and b, b = 0 included (there A = B = 0 and H(0, 0) = 0). Van Leer
-becomes (A + |A|) B / (B + |A|), minmod max(0, min(A, B)): no division at all.
-Where H = B * rest, the slope form is b * rest (b exact, no sign to restore); where
-H(A, 0) = 0 the sign of b is taken with copysign (two bit operations).
+for every b != 0; where b = 0 the slope form is 0 (a select where H(A, 0) might not
+be 0). Van Leer becomes B (A + |A|) / (B + |A|), minmod max(0, min(A, B)): no
+division at all. Where H = B * rest, the slope form is b * rest (b exact, no sign to
+restore); the sign of b is taken with copysign (two bit operations).
 
 Scaling. When some part of H is of degree 2 or more in (A, B) (or below 0), A and
 B are first multiplied by a power of two k chosen from max(|A|, B) (`ScaleDown`:
@@ -31,8 +31,9 @@ at least RATIO_FLOOR (2^-60 in double, 2^-30 in single precision), so a ratio
 beyond 2^60 (2^30) is evaluated there: for a limiter with a finite limit psi(inf)
 this differs by less than the precision's rounding.
 
-A limiter the rewrite does not cover (a power with a param exponent it cannot bind,
-a limiter of several arguments) keeps the plain form psi(r).
+A limiter of (r, c) is rewritten the same way, c a constant of the rewrite; its forms
+take c as a third argument. A limiter the rewrite does not cover (a power with a
+param exponent it cannot bind) keeps the plain form psi(r).
 """
 from __future__ import annotations
 
@@ -41,7 +42,7 @@ from dataclasses import dataclass
 import sympy
 
 from ..ir import Scheme
-from ..symbols import R, Ratio, limiter_calls, limiter_name_of
+from ..symbols import C, R, Ratio, limiter_calls, limiter_name_of
 
 
 class ScaleDown(sympy.Function):
@@ -65,6 +66,22 @@ class UnitSign(sympy.Function):
     """copysign(1, b): 1 or -1 with the sign bit of b (also at b = 0)."""
 
     nargs = 1
+    is_real = True
+
+
+class Quotient(sympy.Function):
+    """x / y with IEEE meaning (a zero divisor gives an infinity the limiter's min or
+    max may absorb), kept as one node so that the quotient of two parts of degree 1 is
+    taken before anything multiplies it."""
+
+    nargs = 2
+    is_real = True
+
+
+class NonzeroOr(sympy.Function):
+    """x where b != 0, else 0 (a select: x need not be finite at b = 0)."""
+
+    nargs = 2
     is_real = True
 
 
@@ -106,7 +123,8 @@ def form_function(base: type, name: str) -> type:
     """The function class standing for one limiter's slope or value form."""
     key = (base, name)
     if key not in _FORMS:
-        _FORMS[key] = type(f"{base.kind}_{name}", (base,), {"limiter_name": name, "nargs": 2})
+        _FORMS[key] = type(f"{base.kind}_{name}", (base,), {"limiter_name": name,
+                                                            "nargs": (2, 3)})
     return _FORMS[key]
 
 
@@ -156,21 +174,21 @@ def _homogenise(e: sympy.Expr) -> tuple[sympy.Expr, sympy.Expr]:
                 top.append(expr)
                 degree += d
         numerator = sympy.Mul(*top)
-        return (Ratio(numerator, sympy.Mul(*bottom)) if bottom else numerator), degree
+        return (Quotient(numerator, sympy.Mul(*bottom)) if bottom else numerator), degree
     if isinstance(e, sympy.Pow):
         base, exponent = e.args
         if not exponent.is_Rational or exponent.has(R):
             raise _NotCovered(e)
         expr, d = _homogenise(base)
         if exponent.is_Integer and exponent < 0:
-            return Ratio(sympy.Integer(1), expr ** -exponent), d * exponent
+            return Quotient(sympy.Integer(1), expr ** -exponent), d * exponent
         if exponent.is_Integer:
             return expr ** exponent, d * exponent
         p, q = exponent.p, exponent.q
         lift = next(k for k in range(q) if ((d + k) * p) % q == 0)
         root = (expr * _B ** lift) ** abs(exponent)
         if p < 0:
-            return Ratio(sympy.Integer(1), root), (d + lift) * exponent
+            return Quotient(sympy.Integer(1), root), (d + lift) * exponent
         return root, (d + lift) * exponent
     if isinstance(e, (sympy.Max, sympy.Min)):
         terms = [_homogenise(t) for t in e.args]
@@ -210,7 +228,7 @@ def _degree(expr: sympy.Expr):
         degree = max(parts)
     elif isinstance(expr, sympy.Mul):
         degree = sum(parts)
-    elif isinstance(expr, Ratio):
+    elif isinstance(expr, (Ratio, Quotient)):
         degree = parts[0] - parts[1]
     else:  # powers, roots
         return None
@@ -248,22 +266,25 @@ def limiter_form(name: str, psi: sympy.Expr, kind: str) -> LimiterForm | None:
     expr, degree = found
     if kind == "slope":
         return _slope_form(name, expr * _B ** (1 - degree) if degree <= 1
-                           else Ratio(expr, _B ** (degree - 1)))
-    return _value_form(name, expr * _B ** (-degree) if degree <= 0 else Ratio(expr, _B ** degree))
+                           else Quotient(expr, _B ** (degree - 1)))
+    return _value_form(name, expr * _B ** (-degree) if degree <= 0
+                       else Quotient(expr, _B ** degree))
 
 
 def _slope_form(name: str, body: sympy.Expr) -> LimiterForm:
     """psi(ratio(a, b)) * b = sign(b) H(A, B). Where H = B * rest, that is b * rest:
-    no sign to restore and no scale to undo (b is exact)."""
-    rest = sympy.Mul(*[f for f in sympy.Mul.make_args(body) if f != _B]) \
-        if _B in sympy.Mul.make_args(body) else None
-    vanishes = rest is not None or all(
-        sympy.simplify(body.xreplace({_A: v, _B: 0})) == 0 for v in (1, -1))
-    # A unit of b's sign: copysign is two bit operations; sign(b) is needed only where
-    # H(A, 0) is not 0 (then b = 0 must give A = 0, as ratio(a, 0) = 0 does)
+    no sign to restore and no scale to undo (b is exact). The sign of b is taken with
+    copysign (two bit operations); at b = 0, where A = a and B = 0, the result is made
+    0 by a select wherever H(A, 0) might not be (a quotient 0/0, a limiter unbounded
+    at infinity), as psi(ratio(a, 0)) * 0 = psi(0) * 0 is."""
+    factors = sympy.Mul.make_args(body)
+    rest = sympy.Mul(*[f for f in factors if f != _B]) if _B in factors else None
+    divides = body.has(Quotient) or any(node.is_Pow and node.exp.is_negative
+                                        for node in sympy.preorder_traversal(body))
+    vanishes = not divides and all(sympy.simplify(body.xreplace({_A: v, _B: 0})) == 0
+                                   for v in (1, -1))
     sign_b, top, bottom = _step("sign_b"), _step("top"), _step("bottom", nonnegative=True)
-    steps = [(sign_b, UnitSign(B_ARG) if vanishes else sympy.sign(B_ARG)),
-             (top, A_ARG * sign_b), (bottom, sympy.Abs(B_ARG))]
+    steps = [(sign_b, UnitSign(B_ARG)), (top, A_ARG * sign_b), (bottom, sympy.Abs(B_ARG))]
     scaled = needs_scaling(body)
     if scaled:
         largest, down = _step("largest", nonnegative=True), _step("down", positive=True)
@@ -274,11 +295,13 @@ def _slope_form(name: str, body: sympy.Expr) -> LimiterForm:
     else:
         values = {_A: top, _B: bottom}
     if rest is not None:
-        result = B_ARG * rest.xreplace(values)
+        inner = rest.xreplace(values)
+        result = B_ARG * (NonzeroOr(B_ARG, inner) if divides else inner)
     else:
-        result = sign_b * body.xreplace(values)
+        inner = sign_b * body.xreplace(values)
         if scaled:
-            result = result * ScaleUp(steps[3][0])
+            inner = inner * ScaleUp(steps[3][0])
+        result = inner if vanishes else NonzeroOr(B_ARG, inner)
     return LimiterForm(name, "slope", tuple(steps), result, scaled)
 
 
@@ -336,18 +359,18 @@ def safe_limiters(scheme: Scheme, face: sympy.Expr) -> tuple[sympy.Expr, dict]:
         return form_function(LimitedSlope if kind == "slope" else LimiterOfRatio, name)
 
     for call in limiter_calls(face, scheme.limiter_names):
-        if len(call.args) != 1:
-            continue  # a limiter of several arguments keeps its plain form
-        (argument,) = call.args
+        argument, extra = call.args[0], call.args[1:]  # extra: (c,) for a limiter of (r, c)
+        if extra and extra != (C,):
+            continue  # not a call the front end makes: keep the plain form
         a, b = argument.args if isinstance(argument, Ratio) else (argument, sympy.Integer(1))
         if isinstance(argument, Ratio) and _slope_products(face, call, b):
             slope = form(call, "slope")
             if slope is not None:
                 # every product call * b becomes slope(a, b); other uses keep the value
                 face = face.replace(lambda e: _is_slope_product(e, call, b),
-                                    lambda e: _without(e, (call, b)) * slope(a, b))
+                                    lambda e: _without(e, (call, b)) * slope(a, b, *extra))
         value = form(call, "psi")
         if value is not None:
-            face = face.xreplace({call: value(a, b)})
+            face = face.xreplace({call: value(a, b, *extra)})
     used = {(type(f).limiter_name, type(f).kind) for f in face.atoms(LimiterFormCall)}
     return face, {key: forms[key] for key in forms if key in used}

@@ -10,7 +10,7 @@ domain), and lets a block whose faces share one velocity sign read every
 from __future__ import annotations
 
 from contextlib import contextmanager
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import sympy
 from sympy.printing.numpy import NumPyPrinter
@@ -22,7 +22,7 @@ from ..ir import Scheme
 from ..symbols import C, R, LimiterApplication, limiter_name_of, offset_of
 from ..time_methods.low_storage import StageUpdate
 from . import environment
-from .limited import FLOOR_EXPONENT, LimiterFormCall
+from .limited import FLOOR_EXPONENT, LimiterFormCall, Quotient
 from .plan import FaceProgram, banner_lines, plan_kernel
 
 PRECISIONS = {"double": "np.float64", "float": "np.float32"}
@@ -125,6 +125,13 @@ class NumpyKernelPrinter(NumPyPrinter):
             return "r"
         return super()._print_Symbol(expr)
 
+    def _print_Quotient(self, expr):
+        return f"({self._print(expr.args[0])})/({self._print(expr.args[1])})"
+
+    def _print_NonzeroOr(self, expr):
+        b, x = expr.args
+        return f"np.where({self._print(b)} != 0, {self._print(x)}, 0.0)"
+
     def _print_UnitSign(self, expr):
         return f"np.copysign(1.0, {self._print(expr.args[0])})"
 
@@ -214,6 +221,8 @@ class Function:
     doc: str
     assignments: tuple[tuple[str, str], ...]
     result: str
+    arguments: str = "r"   # limiters: "r", or "r, c" for a limiter of the Courant number
+    quiet: bool = False    # a limiter with a division: numpy's divide warning silenced
 
 
 @dataclass(frozen=True)
@@ -269,13 +278,13 @@ class NumpyModule:
 
 
 def print_function(printer: NumpyKernelPrinter, name: str, doc: str,
-                   program: FaceProgram) -> Function:
+                   program: FaceProgram, arguments: str = "r") -> Function:
     assignments = tuple((printer.doprint(sym), printer.doprint(value))
                         for sym, value in program.scaling)
     with printer.reading(dict(program.renames)):
         assignments += tuple((printer.doprint(sym), printer.doprint(value))
                              for sym, value in program.temporaries)
-        return Function(name, doc, assignments, printer.doprint(program.result))
+        return Function(name, doc, assignments, printer.doprint(program.result), arguments)
 
 
 def stage_expression(printer: NumpyKernelPrinter, update: StageUpdate) -> Stage:
@@ -330,6 +339,14 @@ def check_precision(precision: str) -> None:
                         file="--precision")
 
 
+def _divides(body: sympy.Expr) -> bool:
+    """A limiter with a division: the front end let it through only where min/max absorb
+    the infinity of a zero divisor (2/r at r = 0, 2/(1 - c) at c = 1), so numpy's
+    divide-by-zero warning there is noise."""
+    return any(isinstance(node, sympy.Pow) and node.exp.is_negative
+               for node in sympy.preorder_traversal(body))
+
+
 def numpy_module(scheme: Scheme, precision: str = "double", banner=None) -> NumpyModule:
     """Lower a scheme (through the shared kernel plan) to the template's data."""
     check_precision(precision)
@@ -340,17 +357,23 @@ def numpy_module(scheme: Scheme, precision: str = "double", banner=None) -> Nump
     if plan.low_flux is not None:
         faces.append(print_function(printer, "low_face_values",
                                     "g of the monotone low-order flux", plan.low_flux))
-    limiters = tuple(print_function(printer, limiter_name(lim.name),
-                                    f"The limiter {printer.escape_text(lim.name)}(r).",
-                                    lim.program)
+    arguments = {lim.name: "r, c" if lim.courant else "r" for lim in scheme.limiters}
+    limiters = tuple(replace(print_function(printer, limiter_name(lim.name),
+                                            f"The limiter {printer.escape_text(lim.name)}"
+                                            f"({arguments[lim.name]}).",
+                                            lim.program, arguments[lim.name]),
+                             quiet=_divides(scheme.limiter(lim.name).body))
                      for lim in plan.limiters)
-    forms = tuple(print_function(
+    forms = tuple(replace(print_function(
         printer, form_name(form.kind, form.name),
         (f"psi(ratio(a, b)) * b for the limiter {printer.escape_text(form.name)}"
          if form.kind == "slope" else
          f"psi(ratio(a, b)) for the limiter {printer.escape_text(form.name)}")
         + ", from a and b without forming the ratio (finite for finite a and b).",
-        form.program) for form in plan.limiter_forms)
+        form.program, "a, b, c" if form.courant else "a, b"),
+        quiet=any(_divides(v) or v.has(Quotient) for v in
+                  (form.program.result, *(value for _, value in form.program.temporaries))))
+        for form in plan.limiter_forms)
     offsets = tuple(Offset(q_name(k), _shift(k - 1), _shift(-k)) for k in plan.offsets)
     programs = [plan.flux] + ([plan.low_flux] if plan.low_flux is not None else [])
     uses_c = any(p.uses_c for p in programs)

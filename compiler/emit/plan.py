@@ -23,7 +23,7 @@ values, u_face[2 + i] is face i), and more ghost cells (`kernel_halo`).
 """
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import sympy
 
@@ -68,7 +68,8 @@ class LimiterFormProgram:
 
     name: str
     kind: str             # "slope": psi(ratio(a, b)) * b; "psi": psi(ratio(a, b))
-    program: FaceProgram  # in limited.A_ARG, limited.B_ARG
+    program: FaceProgram  # in limited.A_ARG, limited.B_ARG (and symbols.C when courant)
+    courant: bool = False  # a limiter of (r, c): the form takes c too
 
 
 @dataclass(frozen=True)
@@ -190,10 +191,15 @@ def plan_kernel(scheme: Scheme) -> KernelPlan:
         forms = {**forms, **low_forms}
     limiters = tuple(LimiterProgram(name, face_program(scheme.limiter(name).body, "s"))
                      for name in limiters_used(scheme, (face, low_face)))
-    limiter_forms = tuple(LimiterFormProgram(name, kind, form_program(forms[(name, kind)]))
+    limiter_forms = tuple(LimiterFormProgram(name, kind, form_program(forms[(name, kind)]),
+                                             scheme.limiter(name).courant)
                           for name, kind in sorted(forms))
     low = scaled_program(scheme, low_face) if low_face is not None else None
     program = scaled_program(scheme, face)
+    called = {lim.name for lim in limiters} | {name for name, _ in forms}
+    if any(c_in_denominator(scheme.limiter(name).body) for name in sorted(called)):
+        # a limiter of (r, c) dividing by c: evaluate it with c = 1 where u == 0, too
+        program = replace(program, guard_c=True)
     if R in program.result.free_symbols:
         raise AssertionError("limiter argument symbol leaked into a face expression")
     return KernelPlan(
