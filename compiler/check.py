@@ -9,6 +9,7 @@ import re
 
 from . import syntax as ast
 from .diagnostics import LoomError, Span, did_you_mean
+from .limits import MAX_EXPRESSION_NODES, MAX_OFFSET
 
 TIME_METHODS = ("euler", "ssp_rk2", "ssp_rk3", "rk4")
 CORRECTIONS = ("fct",)
@@ -52,11 +53,19 @@ class _Scope:
         self.params: dict[str, ast.Param] = {}
         self.lets: dict[str, ast.Let] = {}
         self.limiters: dict[str, ast.LimiterDef] = {}
+        self.names: dict[str, Span] = {}  # params, lets and limiters defined so far
+        # Size of each let and limiter once lets are written out (MAX_EXPRESSION_NODES).
+        self.sizes: dict[str, int] = {}
+        self.limiter_sizes: dict[str, tuple[int, int]] = {}  # body size, uses of its argument
 
     def defined(self) -> dict[str, Span]:
-        return {**{k: v.name.span for k, v in self.params.items()},
-                **{k: v.name.span for k, v in self.lets.items()},
-                **{k: v.name.span for k, v in self.limiters.items()}}
+        """Every param, let and limiter defined so far -> where (kept, not rebuilt: a
+        spec of n statements is checked in time linear in n)."""
+        return self.names
+
+    def add(self, table: dict, stmt) -> None:
+        table[stmt.name.id] = stmt
+        self.names[stmt.name.id] = stmt.name.span
 
 
 def check(spec: ast.Spec) -> None:
@@ -106,10 +115,11 @@ def check(spec: ast.Spec) -> None:
             _define(scope, stmt)
         if isinstance(stmt, ast.Param):
             _check_expr(stmt.value, scope, "param", time_method)
-            scope.params[stmt.name.id] = stmt
+            scope.add(scope.params, stmt)
         elif isinstance(stmt, ast.Let):
             _check_expr(stmt.value, scope, "let", time_method)
-            scope.lets[stmt.name.id] = stmt
+            scope.sizes[stmt.name.id] = _check_size(stmt.value, scope, f"let '{stmt.name.id}'")
+            scope.add(scope.lets, stmt)
         elif isinstance(stmt, ast.LimiterDef):
             if len(stmt.args) != 1:
                 raise LoomError(f"a limiter takes exactly one argument (its ratio r); "
@@ -118,9 +128,12 @@ def check(spec: ast.Spec) -> None:
             if arg.id in RESERVED:
                 raise LoomError(f"'{arg.id}' cannot name a limiter's argument", arg.span)
             _check_expr(stmt.body, scope, "limiter", time_method, arg=arg.id)
-            scope.limiters[stmt.name.id] = stmt
+            body = _check_size(stmt.body, scope, f"limiter '{stmt.name.id}'")
+            scope.limiter_sizes[stmt.name.id] = (body, _uses(stmt.body, arg.id))
+            scope.add(scope.limiters, stmt)
         elif isinstance(stmt, ast.Flux):
             _check_expr(stmt.value, scope, stmt.kind, time_method)
+            _check_size(stmt.value, scope, f"the {stmt.kind}")
         elif isinstance(stmt, ast.Clip):
             _check_expr(stmt.low, scope, "clip", time_method)
             _check_expr(stmt.high, scope, "clip", time_method)
@@ -152,8 +165,13 @@ def _check_expr(expr: ast.Expr, scope: _Scope, where: str, time_method: str,
             raise LoomError(f"only 'q' can be indexed; '{base.id}[...]' is not allowed", base.span)
         if constant or where == "limiter":
             raise LoomError(f"'q[...]' is not allowed in a {where}", expr.span)
-        if integer_offset(expr.offset) is None:
+        offset = integer_offset(expr.offset)
+        if offset is None:
             raise LoomError("the offset in q[...] must be an integer such as 0, 1 or -1",
+                            expr.offset.span)
+        if abs(offset) > MAX_OFFSET:
+            raise LoomError(f"stencil offset too wide: q[k] needs -{MAX_OFFSET} <= k <= "
+                            f"{MAX_OFFSET} (the widest stencil fluxloom analyses)",
                             expr.offset.span)
         return
     if isinstance(expr, ast.Name):
@@ -226,11 +244,56 @@ def _check_name(expr: ast.Name, scope: _Scope, where: str, time_method: str,
 
 
 def integer_offset(expr: ast.Expr) -> int | None:
-    """The integer value of a q[...] offset, or None if it is not an integer literal."""
+    """The integer value of a q[...] offset, or None if it is not an integer literal.
+
+    Offsets of more than six digits come back as +-10**6 (far past MAX_OFFSET, which
+    check refuses) rather than being converted digit by digit.
+    """
     sign = 1
     while isinstance(expr, ast.Unary):
         sign = -sign if expr.op == "-" else sign
         expr = expr.operand
     if isinstance(expr, ast.Number) and re.fullmatch(r"\d+", expr.text):
-        return sign * int(expr.text)
+        digits = expr.text.lstrip("0") or "0"
+        return sign * (int(digits) if len(digits) <= 6 else 10 ** 6)
     return None
+
+
+def _check_size(expr: ast.Expr, scope: _Scope, what: str) -> int:
+    """The size of expr with its lets and limiters written out; refused past the limit."""
+    size = _inlined_size(expr, scope)
+    if size > MAX_EXPRESSION_NODES:
+        raise LoomError(f"{what} is too large: {size} operators and operands once the lets and "
+                        f"limiters it uses are written out (at most {MAX_EXPRESSION_NODES})",
+                        expr.span)
+    return size
+
+
+def _inlined_size(expr: ast.Expr, scope: _Scope) -> int:
+    """Nodes of expr once lets and limiter bodies replace their names (known names only)."""
+    if isinstance(expr, ast.Name):
+        return scope.sizes.get(expr.id, 1)
+    if isinstance(expr, ast.Unary):
+        return 1 + _inlined_size(expr.operand, scope)
+    if isinstance(expr, ast.Binary):
+        return 1 + _inlined_size(expr.left, scope) + _inlined_size(expr.right, scope)
+    if isinstance(expr, ast.Call):
+        args = [_inlined_size(a, scope) for a in expr.args]
+        if expr.func.id in scope.limiter_sizes and len(args) == 1:
+            body, uses = scope.limiter_sizes[expr.func.id]
+            return 1 + body + uses * (args[0] - 1)  # each use of r becomes the argument
+        return 1 + sum(args)
+    return 1  # numbers and q[k]
+
+
+def _uses(expr: ast.Expr, name: str) -> int:
+    """How often `name` occurs in expr."""
+    if isinstance(expr, ast.Name):
+        return int(expr.id == name)
+    if isinstance(expr, ast.Unary):
+        return _uses(expr.operand, name)
+    if isinstance(expr, ast.Binary):
+        return _uses(expr.left, name) + _uses(expr.right, name)
+    if isinstance(expr, ast.Call):
+        return sum(_uses(a, name) for a in expr.args)
+    return 0
