@@ -1,6 +1,7 @@
 """Located errors: every problem in a spec is reported as file:line:col with a caret."""
 from __future__ import annotations
 
+import re
 from dataclasses import dataclass
 
 
@@ -39,7 +40,7 @@ class LoomError(Exception):
         return self
 
     def render(self) -> str:
-        file, message = printable(self.file), printable(self.message, keep="\n\t")
+        file, message = printable(self.file), _shorten(printable(self.message, keep="\n\t"))
         if self.span is None:
             return f"{file}: error: {message}"
         head = f"{file}:{self.span.line}:{self.span.col}: error: {message}"
@@ -55,7 +56,7 @@ class LoomError(Exception):
             line = ("..." if start else "") + line[start:start + SHOWN_WIDTH] + (
                 "..." if start + SHOWN_WIDTH < len(line) else "")
             col = col - start + (3 if start else 0)
-            width = min(width, SHOWN_WIDTH)
+            width = max(1, min(width, len(line) - col + 1))
         caret = " " * (col - 1) + "^" + "~" * (width - 1)
         return f"{head}\n  {line}\n  {caret}"
 
@@ -68,6 +69,15 @@ def printable(text: str, keep: str = "") -> str:
     file name or a quoted name cannot move the terminal's cursor or fake a line."""
     return "".join(ch if ch.isprintable() or ch in keep
                    else ch.encode("unicode_escape").decode("ascii") for ch in text)
+
+
+def _shorten(message: str) -> str:
+    """Very long words (a 5000-digit number, a name pasted many times) cut in the middle."""
+    return _LONG_WORD.sub(lambda m: f"{m.group(0)[:30]}...({len(m.group(0))} characters)..."
+                          f"{m.group(0)[-10:]}", message)
+
+
+_LONG_WORD = re.compile(r"[^\s']{81,}")
 
 
 def split_lines(text: str) -> list[str]:
