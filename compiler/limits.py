@@ -14,7 +14,8 @@ polynomials whose degree grows with the width times the number of stages)."""
 
 MAX_DEPTH = 100
 """Expressions nest at most this deep: every operator, parenthesis, call and unary
-sign is one level (a sum of n terms is n - 1 levels; group long sums)."""
+sign is one level (a sum of n terms is n - 1 levels; group long sums). The same
+holds once lets are written out (a chain of lets each wrapping the last nests too)."""
 
 MAX_EXPRESSION_NODES = 10_000
 """A flux, low flux or let may hold at most this many operators and operands once

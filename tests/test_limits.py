@@ -133,6 +133,16 @@ def test_nesting_at_the_limit_compiles_and_one_more_is_refused():
     assert err.span.line == 2
 
 
+def test_nesting_counts_lets_written_out():
+    def chain(links):  # a0 = q[0] is one level (indexing); each abs(...) adds one
+        lets = "".join(f"  let a{k + 1} = abs(a{k})\n" for k in range(links))
+        return f"scheme d {{\n  let a0 = q[0]\n{lets}  flux = u * q[0]\n}}\n"
+    assert scheme_from_text(chain(MAX_DEPTH - 1)).name == "d"
+    err = _error(chain(MAX_DEPTH))
+    assert f"let 'a{MAX_DEPTH}' nests {MAX_DEPTH + 1} levels deep" in err.message
+    assert err.span.line == MAX_DEPTH + 2
+
+
 def test_a_long_flat_sum_is_refused_not_a_crash():
     err = _error("scheme s {\n  flux = u * (" + " + ".join(["q[0]"] * 5000) + ")\n}\n")
     assert "nested more than" in err.message and err.span.line == 2

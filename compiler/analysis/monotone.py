@@ -43,9 +43,19 @@ def monotone_set(coefficients) -> CourantSet:
         critical += intervals.positive_roots(sympy.numer(v), C)
         critical += intervals.positive_roots(sympy.denom(v), C)
 
+    # Each coefficient as numerator and denominator polynomials: exact and fast to
+    # evaluate at the rational Courant numbers decide() asks about.
+    fractions = [tuple(sympy.Poly(part, C) for part in sympy.fraction(v)) for v in values]
+
+    def nonnegative(value, fraction, c_value) -> bool:
+        if c_value.is_Rational:
+            top, bottom = (part.eval(c_value) for part in fraction)
+            return bottom != 0 and top * bottom >= 0
+        at = value.subs(C, c_value)
+        return at.is_finite is True and bool(at >= 0)
+
     def holds(c_value) -> bool:
-        at = [v.subs(C, c_value) for v in values]
-        return all(a.is_finite is True and bool(a >= 0) for a in at)
+        return all(nonnegative(v, f, c_value) for v, f in zip(values, fractions))
 
     return intervals.decide(critical, holds, method="exact (roots in c of every update coefficient)")
 

@@ -94,15 +94,15 @@ class LinearScheme:
     def abs_squared(self) -> sympy.Expr:
         """|G|^2 as a polynomial in s = sin^2(theta/2) (coefficients in c)."""
         b = self.update
+        try:
+            return _abs_squared_fast(b)
+        except (sympy.PolynomialError, sympy.CoercionFailed):
+            pass  # coefficients not polynomial in c over QQ: the general sympy path
         # H = G(z) G(1/z) is symmetric in z <-> 1/z: h_0 + sum_k h_k (z^k + z^-k).
         h: Laurent = {}
         for m, v in b.items():
             for n, w in b.items():
                 h[m - n] = h.get(m - n, 0) + v * w
-        try:
-            return _chebyshev_sum_fast(h)
-        except (sympy.PolynomialError, sympy.CoercionFailed):
-            pass  # coefficients not polynomial in c over QQ: the general sympy path
         cos_theta = 1 - 2 * S
         total = h.get(0, 0)
         for k, v in h.items():
@@ -149,13 +149,28 @@ def _numpy_function_of_c(value: sympy.Expr):
     return lambda cs: numpy.polyval(coefficients, cs)
 
 
-def _chebyshev_sum_fast(h: Laurent) -> sympy.Expr:
-    """h_0 + sum_k 2 h_k T_k(1 - 2s) with polynomial arithmetic over QQ[s, c]."""
-    total = sympy.Poly(h.get(0, 0), S, C, domain="QQ")
-    for k, v in h.items():
-        if k > 0:
-            t_k = sympy.Poly(sympy.chebyshevt(k, 1 - 2 * S), S, C, domain="QQ")
-            total += 2 * sympy.Poly(sympy.expand(v), S, C, domain="QQ") * t_k
+def _abs_squared_fast(b: Laurent) -> sympy.Expr:
+    """|G|^2 = h_0 + sum_k 2 h_k T_k(1 - 2s), all in QQ[s, c] polynomial arithmetic.
+
+    h_k = sum_m b_m b_(m-k) and the Chebyshev polynomials come from their recurrence
+    T_(k+1) = 2x T_k - T_(k-1): the cost grows polynomially with the stencil width
+    (no symbolic expansion of T_k(1 - 2s) or of the products).
+    """
+    ring = (S, C)
+    coefficient = {m: sympy.Poly(v, *ring, domain="QQ") for m, v in b.items()}
+    zero = sympy.Poly(0, *ring, domain="QQ")
+    h: dict[int, sympy.Poly] = {}
+    for m, v in coefficient.items():
+        for n, w in coefficient.items():
+            if m >= n:
+                h[m - n] = h.get(m - n, zero) + v * w
+    x = sympy.Poly(1 - 2 * S, *ring, domain="QQ")
+    previous, current = sympy.Poly(1, *ring, domain="QQ"), x
+    total = h.get(0, zero)
+    for k in range(1, max(h, default=0) + 1):
+        if k in h:
+            total += 2 * h[k] * current
+        previous, current = current, 2 * x * current - previous
     return total.as_expr()
 
 
