@@ -9,7 +9,8 @@ import re
 
 from . import syntax as ast
 from .diagnostics import LoomError, Span, did_you_mean
-from .limits import MAX_DEPTH, MAX_EXPRESSION_NODES, MAX_OFFSET
+from .limits import MAX_OFFSET
+from .measure import Measurer
 
 TIME_METHODS = ("euler", "ssp_rk2", "ssp_rk3", "rk4")
 CORRECTIONS = ("fct",)
@@ -54,10 +55,7 @@ class _Scope:
         self.lets: dict[str, ast.Let] = {}
         self.limiters: dict[str, ast.LimiterDef] = {}
         self.names: dict[str, Span] = {}  # params, lets and limiters defined so far
-        # (nodes, depth) of each let and limiter body once lets are written out, and how
-        # often a limiter uses its argument (MAX_EXPRESSION_NODES, MAX_DEPTH).
-        self.sizes: dict[str, tuple[int, int]] = {}
-        self.limiter_sizes: dict[str, tuple[int, int, int]] = {}
+        self.measure = Measurer()  # sizes once lets are written out (compiler/limits.py)
 
     def defined(self) -> dict[str, Span]:
         """Every param, let and limiter defined so far -> where (kept, not rebuilt: a
@@ -119,7 +117,7 @@ def check(spec: ast.Spec) -> None:
             scope.add(scope.params, stmt)
         elif isinstance(stmt, ast.Let):
             _check_expr(stmt.value, scope, "let", time_method)
-            scope.sizes[stmt.name.id] = _check_size(stmt.value, scope, f"let '{stmt.name.id}'")
+            scope.measure.let(stmt.name.id, stmt.value)
             scope.add(scope.lets, stmt)
         elif isinstance(stmt, ast.LimiterDef):
             if len(stmt.args) != 1:
@@ -129,12 +127,11 @@ def check(spec: ast.Spec) -> None:
             if arg.id in RESERVED:
                 raise LoomError(f"'{arg.id}' cannot name a limiter's argument", arg.span)
             _check_expr(stmt.body, scope, "limiter", time_method, arg=arg.id)
-            body = _check_size(stmt.body, scope, f"limiter '{stmt.name.id}'")
-            scope.limiter_sizes[stmt.name.id] = (*body, _uses(stmt.body, arg.id))
+            scope.measure.limiter(stmt.name.id, arg.id, stmt.body)
             scope.add(scope.limiters, stmt)
         elif isinstance(stmt, ast.Flux):
             _check_expr(stmt.value, scope, stmt.kind, time_method)
-            _check_size(stmt.value, scope, f"the {stmt.kind}")
+            scope.measure.check(stmt.value, f"the {stmt.kind}")
         elif isinstance(stmt, ast.Clip):
             _check_expr(stmt.low, scope, "clip", time_method)
             _check_expr(stmt.high, scope, "clip", time_method)
@@ -258,53 +255,3 @@ def integer_offset(expr: ast.Expr) -> int | None:
         digits = expr.text.lstrip("0") or "0"
         return sign * (int(digits) if len(digits) <= 6 else 10 ** 6)
     return None
-
-
-def _check_size(expr: ast.Expr, scope: _Scope, what: str) -> tuple[int, int]:
-    """(nodes, depth) of expr with its lets and limiters written out; refused past the limits.
-
-    Lowering writes lets out in full, so these bound what every later stage handles.
-    """
-    size, depth = _inlined_size(expr, scope)
-    if size > MAX_EXPRESSION_NODES:
-        raise LoomError(f"{what} is too large: {size} operators and operands once the lets and "
-                        f"limiters it uses are written out (at most {MAX_EXPRESSION_NODES})",
-                        expr.span)
-    if depth > MAX_DEPTH:
-        raise LoomError(f"{what} nests {depth} levels deep once the lets and limiters it uses "
-                        f"are written out (at most {MAX_DEPTH}); use fewer lets in a chain",
-                        expr.span)
-    return size, depth
-
-
-def _inlined_size(expr: ast.Expr, scope: _Scope) -> tuple[int, int]:
-    """(nodes, depth) of expr once lets and limiter bodies replace their names."""
-    if isinstance(expr, ast.Name):
-        return scope.sizes.get(expr.id, (1, 0))
-    if isinstance(expr, ast.Unary):
-        size, depth = _inlined_size(expr.operand, scope)
-        return 1 + size, 1 + depth
-    if isinstance(expr, ast.Binary):
-        (a, da), (b, db) = _inlined_size(expr.left, scope), _inlined_size(expr.right, scope)
-        return 1 + a + b, 1 + max(da, db)
-    if isinstance(expr, ast.Call):
-        args = [_inlined_size(a, scope) for a in expr.args]
-        if expr.func.id in scope.limiter_sizes and len(args) == 1:
-            body, body_depth, uses = scope.limiter_sizes[expr.func.id]
-            # each use of r becomes the argument (depths added: an upper bound)
-            return 1 + body + uses * (args[0][0] - 1), 1 + body_depth + args[0][1]
-        return 1 + sum(a for a, _ in args), 1 + max((d for _, d in args), default=0)
-    return 1, 1 if isinstance(expr, ast.Index) else 0
-
-
-def _uses(expr: ast.Expr, name: str) -> int:
-    """How often `name` occurs in expr."""
-    if isinstance(expr, ast.Name):
-        return int(expr.id == name)
-    if isinstance(expr, ast.Unary):
-        return _uses(expr.operand, name)
-    if isinstance(expr, ast.Binary):
-        return _uses(expr.left, name) + _uses(expr.right, name)
-    if isinstance(expr, ast.Call):
-        return sum(_uses(a, name) for a in expr.args)
-    return 0

@@ -20,3 +20,14 @@ holds once lets are written out (a chain of lets each wrapping the last nests to
 MAX_EXPRESSION_NODES = 10_000
 """A flux, low flux or let may hold at most this many operators and operands once
 the lets it uses are written out in full (chains of lets can double in size)."""
+
+MAX_DEGREE = 256
+"""An expression's degree in the cell values (and c, and a limiter's argument) with its
+lets and limiters written out, as a fraction over one denominator (the larger of the
+two degrees): powers multiply it, products add it, a sum of fractions multiplies out
+their denominators; piecewise parts (abs, min, max) count as their largest piece.
+Bounds towers of powers built through lets."""
+
+MAX_EXPONENT = 64
+"""A number written as an exponent is at most this in size (exact arithmetic on
+constants cannot run away); a param used as an exponent too."""

@@ -184,3 +184,77 @@ def test_nested_limiter_calls_count_each_use_of_the_argument():
 def test_many_lets_compile():
     lets = "".join(f"  let a{k} = q[0] + {k}\n" for k in range(5000))
     assert scheme_from_text(f"scheme many {{\n{lets}  flux = u * a4999\n}}\n").name == "many"
+
+
+# ---- the flux's part without u, decided without expanding where possible ----------------
+
+BIG = "(q[-2] + q[-1] + q[0] + q[1] + q[2] + q[3])"
+SMALL = "(q[-2] + q[-1] + q[0] + q[1] + q[2] + q[3] - q[3])"
+
+
+def _identity(power: int, extra: str = "") -> str:
+    # S^p - S^(p-1) * (S - q3) - q3 * S^(p-1) is zero: expanded, S^64 over six cells has
+    # C(69, 5) = 11 million terms, which must never be built.
+    return (f"scheme rest {{\n  flux = u * q[0] + {BIG}^{power} - {BIG}^{power - 1} * {SMALL} "
+            f"- q[3] * {BIG}^{power - 1}{extra}\n}}\n")
+
+
+def test_a_part_without_u_that_vanishes_identically_is_accepted():
+    import sympy
+    from fluxloom.compiler.symbols import q
+    # the identity itself, checked by expansion where that is cheap (power 3)
+    s = sum(q(k) for k in range(-2, 4))
+    assert sympy.expand(s ** 3 - s ** 2 * (s - q(3)) - q(3) * s ** 2) == 0
+    for power in (3, 64):
+        assert scheme_from_text(_identity(power)).face == q(0)
+
+
+@pytest.mark.parametrize("extra", [" + q[4]", " + max(0, q[1] - 1000000000)", " + 1/3"])
+def test_a_part_without_u_is_found_without_expanding(extra):
+    err = _error(_identity(64, extra))
+    assert "has a part without u" in err.message and err.span.line == 2
+
+
+# ---- degree: towers of powers through lets ------------------------------------------------
+
+def _tower(levels: int, tail: str = "") -> str:
+    lets = "".join(f"  let a{k + 1} = a{k}^4\n" for k in range(levels))
+    return f"scheme tower {{\n  let a0 = q[1] - q[0]\n{lets}  flux = u * (q[0] + a{levels}{tail})\n}}\n"
+
+
+def test_degree_limit_at_its_edge():
+    import sympy
+    from fluxloom.compiler.limits import MAX_DEGREE
+    from fluxloom.compiler.symbols import q
+    assert MAX_DEGREE == 4 ** 4
+    face = scheme_from_text(_tower(4)).face
+    # sympy's own degree of the lowered face (q[1] - q[0])^256 + q[0]
+    assert sympy.Poly(face, q(0), q(1)).total_degree() == MAX_DEGREE
+    err = _error(_tower(4, " * q[2]"))
+    assert "the flux has degree up to 257" in err.message and err.span.line == 7
+    err = _error(_tower(5))
+    assert "let 'a5' has degree up to 1024" in err.message and err.span.line == 7
+
+
+def test_degree_counts_a_sum_of_fractions_over_one_denominator():
+    import sympy
+    from fluxloom.compiler.symbols import q
+    # y^57 + 1 / (1 + w^50 x^50 z^50 v^50) = (y^57 (1 + ...) + 1) / (1 + ...): degree 257
+    text = ("scheme d {\n  flux = u * (q[0] + q[1]^57 + 1 / (1 + q[2]^50 * q[3]^50 * q[4]^50 "
+            "* q[-1]^50))\n}\n")
+    err = _error(text)
+    assert "degree up to 257" in err.message
+    # sympy clears the denominator the same way (at a degree it can afford: 5 and 3 * 4)
+    small = q(1) ** 5 + 1 / (1 + q(2) ** 3 * q(3) ** 3 * q(4) ** 3 * q(-1) ** 3)
+    numerator = sympy.fraction(sympy.together(small))[0]
+    assert sympy.Poly(numerator, q(1), q(2), q(3), q(4), q(-1)).total_degree() == 5 + 12
+
+
+def test_a_param_used_as_an_exponent_is_bounded_like_a_number():
+    import sympy
+    text = "scheme p {\n  param k = 2\n  flux = u * (q[0] + (q[1] - q[0])^k)\n}\n"
+    assert scheme_from_text(text, "p.loom", {"k": sympy.Integer(64)}).params[0].value == 64
+    with pytest.raises(LoomError, match="makes the exponent k = 65, more than 64"):
+        scheme_from_text(text, "p.loom", {"k": sympy.Integer(65)})
+    err = _error(text.replace("k = 2", "k = 65"))
+    assert "exponent k = 65 is too large" in err.message and (err.span.line, err.span.col) == (3, 36)
