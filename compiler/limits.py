@@ -5,7 +5,7 @@ the front end stops with a located error instead of running away.
 """
 from __future__ import annotations
 
-MAX_FILE_BYTES = 256 * 1024
+MAX_FILE_BYTES = 128 * 1024
 """A spec file larger than this is refused before it is parsed."""
 
 MAX_OFFSET = 8

@@ -85,7 +85,7 @@ def test_file_at_the_size_limit_compiles_and_one_byte_more_is_refused(tmp_path):
     with pytest.raises(LoomError) as caught:
         load_scheme(path)
     err = caught.value
-    assert "larger than 256 KiB" in err.message
+    assert f"larger than {MAX_FILE_BYTES // 1024} KiB" in err.message
     assert err.span.line == text.count("\n") + 1 and err.span.col == 1
     with pytest.raises(LoomError):
         scheme_from_text(text + "\n", "big.loom")
