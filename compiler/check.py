@@ -11,8 +11,7 @@ from . import syntax as ast
 from .diagnostics import LoomError, Span, did_you_mean
 from .limits import MAX_OFFSET
 from .measure import Measurer
-
-TIME_METHODS = ("euler", "ssp_rk2", "ssp_rk3", "rk4")
+from .time_methods import NAMES as TIME_METHODS
 CORRECTIONS = ("fct",)
 
 # name -> (least, most) number of arguments; None means no upper bound.

@@ -46,7 +46,7 @@ class Limiter:
 class Scheme:
     name: str
     about: str
-    time: str                      # euler | ssp_rk2 | ssp_rk3 | rk4
+    time: str                      # a name in the time-method registry
     face: sympy.Expr               # g in flux = u * g; params kept as symbols
     low_face: sympy.Expr | None    # g of low_flux, if given
     correct: str | None            # "fct" or None

@@ -3,9 +3,10 @@
 It reads the IR, turns the face expression into a scalar Python function with
 sympy.lambdify (limiters expanded, params bound), and then does everything face
 by face and cell by cell on a periodic domain, straight from the definitions:
-the upwind frame, flux 0 where u == 0, the Runge-Kutta method in its textbook
-form, Zalesak's flux correction and the post-step clamp. Only tests and
-cross-checks use it; it is far too slow for real runs.
+the upwind frame, flux 0 where u == 0, the Runge-Kutta method in the plain
+Shu-Osher form of its registry table (every stage kept, none of the kernels'
+low-storage bookkeeping), Zalesak's flux correction and the post-step clamp.
+Only tests and cross-checks use it; it is far too slow for real runs.
 """
 from __future__ import annotations
 
@@ -16,6 +17,7 @@ import sympy
 
 from fluxloom.compiler.ir import Scheme
 from fluxloom.compiler.symbols import C, q
+from fluxloom.compiler.time_methods import method
 
 
 def _ratio(a, b):
@@ -69,36 +71,30 @@ class PeriodicReference:
 
     # ---- time methods ------------------------------------------------------
     def step(self, values, u_face, dt_dx):
-        time = self.scheme.time
         if self.scheme.correct == "fct":
             new = self.fct_step(values, u_face, dt_dx)
-        elif time == "euler":
-            new = _axpy(values, 1.0, self.rate(values, u_face, dt_dx))
-        elif time == "ssp_rk2":
-            # Heun's method: the average of q and a forward-Euler step from q1.
-            q1 = _axpy(values, 1.0, self.rate(values, u_face, dt_dx))
-            q2 = _axpy(q1, 1.0, self.rate(q1, u_face, dt_dx))
-            new = [(a + b) / 2 for a, b in zip(values, q2)]
-        elif time == "ssp_rk3":
-            # Shu and Osher (1988), as in ../shared/REFERENCE.md.
-            q1 = _axpy(values, 1.0, self.rate(values, u_face, dt_dx))
-            r1 = self.rate(q1, u_face, dt_dx)
-            q2 = [0.75 * a + 0.25 * b + 0.25 * r for a, b, r in zip(values, q1, r1)]
-            r2 = self.rate(q2, u_face, dt_dx)
-            new = [a / 3 + 2 * b / 3 + 2 * r / 3 for a, b, r in zip(values, q2, r2)]
-        elif time == "rk4":
-            # Classical RK4 from its Butcher tableau: k2 and k3 at half steps.
-            k1 = self.rate(values, u_face, dt_dx)
-            k2 = self.rate(_axpy(values, 0.5, k1), u_face, dt_dx)
-            k3 = self.rate(_axpy(values, 0.5, k2), u_face, dt_dx)
-            k4 = self.rate(_axpy(values, 1.0, k3), u_face, dt_dx)
-            new = [v + (a + 2 * b + 2 * c + d) / 6 for v, a, b, c, d in zip(values, k1, k2, k3, k4)]
         else:
-            raise ValueError(f"unknown time method {time!r}")
+            new = self.runge_kutta_step(values, u_face, dt_dx)
         if self.scheme.clip is not None:
             lo, hi = (float(v) for v in self.scheme.clip)
             new = [min(hi, max(lo, v)) for v in new]
         return new
+
+    def runge_kutta_step(self, values, u_face, dt_dx):
+        """Y_k = sum_j alpha[k][j] Y_j + beta[k][j] dt L(Y_j), Y_0 = q, Y_s the new q."""
+        table = method(self.scheme.time)
+        stages, rates = [values], []
+        for alpha_row, beta_row in zip(table.alpha, table.beta):
+            rates.append(self.rate(stages[-1], u_face, dt_dx))
+            new = [0.0] * len(values)
+            for j, (a, b) in enumerate(zip(alpha_row, beta_row)):
+                a, b = float(a), float(b)
+                if a:
+                    new = _axpy(new, a, stages[j])
+                if b:
+                    new = _axpy(new, b, rates[j])
+            stages.append(new)
+        return stages[-1]
 
     def fct_step(self, values, u_face, dt_dx):
         """Zalesak (1979, J. Comput. Phys. 31:335): flux-corrected transport, one step.

@@ -218,26 +218,6 @@ def test_plots_are_written_and_foreign_files_kept(tmp_path):
     assert write_plots(analysis, tmp_path, force=True)
 
 
-@pytest.mark.parametrize("name", ["euler", "ssp_rk2", "ssp_rk3", "rk4"])
-def test_generated_stage_updates_have_the_analysed_stability_polynomial(name):
-    # What is analysed is what is generated: the emitters' stage updates
-    # (compiler/timestep.py), applied to L(q) = lambda q, give the R(z) the analysis uses.
-    from fluxloom.compiler.analysis.timemethods import Z, stability_polynomial
-    from fluxloom.compiler.timestep import stage_updates
-
-    start = sympy.Integer(1)
-    stage, accumulator = start, sympy.Integer(0)
-    for update in stage_updates(name):
-        d_l = Z * stage
-        out = (update.start * start + update.stage * stage + update.rate * d_l
-               + update.acc * accumulator)
-        if update.accumulates:
-            accumulator = (update.acc_start * start + update.acc_keep * accumulator
-                           + update.acc_rate * d_l)
-        stage = sympy.expand(out)
-    assert sympy.expand(stage - stability_polynomial(name)) == 0
-
-
 def test_unconditional_and_inconsistent_shift():
     # flux = u q[0] / c moves every value one cell per step whatever c is: |G| = 1 for all c
     # (unconditionally stable) but consistent only at c = 1, so not convergent (common

@@ -2,7 +2,7 @@
 
 For each linear example the update matrix on a periodic grid is built by
 evaluating the IR's face expression face by face (sympy.lambdify) and staging
-it with Runge-Kutta formulas written out here; its eigenvalues are then
+it with the Runge-Kutta formulas as published (tests/published_methods.py); its eigenvalues are then
 compared with |G| from the analysis on the same theta grid, and the largest
 stable Courant number found from the eigenvalues is compared with check's.
 Nothing here calls the analysis' own symbol code.
@@ -20,6 +20,7 @@ from fluxloom.compiler.analysis import analyse
 from fluxloom.compiler.symbols import C, offset_of
 
 from conftest import EXAMPLE_FILES
+from published_methods import published_step
 
 LINEAR = [p for p in EXAMPLE_FILES if not load_scheme(p).limited]
 
@@ -45,26 +46,6 @@ def _face_values(scheme):
     return faces
 
 
-# Classical Runge-Kutta stages (Butcher tableaux; common practice, no source).
-def rk_step(rhs, q, dt, method):
-    if method == "euler":
-        return q + dt * rhs(q)
-    if method == "ssp_rk2":
-        q1 = q + dt * rhs(q)
-        return 0.5 * q + 0.5 * (q1 + dt * rhs(q1))
-    if method == "ssp_rk3":
-        q1 = q + dt * rhs(q)
-        q2 = 0.75 * q + 0.25 * (q1 + dt * rhs(q1))
-        return q / 3 + 2 / 3 * (q2 + dt * rhs(q2))
-    if method == "rk4":
-        k1 = rhs(q)
-        k2 = rhs(q + dt / 2 * k1)
-        k3 = rhs(q + dt / 2 * k2)
-        k4 = rhs(q + dt * k3)
-        return q + dt / 6 * (k1 + 2 * k2 + 2 * k3 + k4)
-    raise AssertionError(method)
-
-
 def one_step(scheme, q, c):
     """q after one step at Courant number c (u > 0, dx = 1, u = 1, dt = c)."""
     faces = face_values(scheme)
@@ -72,7 +53,7 @@ def one_step(scheme, q, c):
     def rhs(v):
         f = faces(v, c)
         return -(f - numpy.roll(f, 1))
-    return rk_step(rhs, q, c, scheme.time)
+    return published_step(scheme.time, q, lambda y: c * rhs(y), lambda a, b: a / b)
 
 
 def update_matrix(scheme, c, n):

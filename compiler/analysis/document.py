@@ -48,6 +48,15 @@ def _terms(terms) -> list[dict]:
              "coefficient": t.coefficient_text} for t in terms]
 
 
+def time_method_document(name: str) -> dict:
+    """The time method's facts, each derived from its registry table."""
+    m = method(name)
+    return {"name": name, "description": m.description, "stages": m.stages,
+            "order": m.order, "linear_order": m.linear_order,
+            "ssp_coefficient": _num(m.ssp_coefficient),
+            "ssp_coefficient_exact": _exact(m.ssp_coefficient)}
+
+
 def analysis_document(a) -> dict:
     s = a.scheme
     lin = a.linearisation
@@ -56,6 +65,7 @@ def analysis_document(a) -> dict:
                  "params": {p.name: {"value": _num(p.value), "exact": _exact(p.value)}
                             for p in s.params},
                  "courant": a.courant, "linear": lin.exact, "linearisation": lin.note}
+    doc["time_method"] = time_method_document(s.time)
     undecided: list[str] = []
 
     # consistency and order
@@ -108,14 +118,12 @@ def analysis_document(a) -> dict:
         "variables": "z = exp(i theta), s = sin(theta/2)^2, theta = k dx",
     }
     if s.time != "euler":
-        m = method(s.time)
         limit = imaginary_axis_limit(s.time)
         doc["stability"]["time_method"] = {
-            "name": s.time, "description": m.description,
+            **doc["time_method"],
             "stability_polynomial": sympy.sstr(stability_polynomial(s.time)),
             "imaginary_axis_limit": _num(limit) if limit != 0 else 0.0,
-            "imaginary_axis_limit_exact": _exact(limit),
-            "ssp_coefficient": _num(m.ssp_coefficient), "order": m.order}
+            "imaginary_axis_limit_exact": _exact(limit)}
     if not a.stability:
         undecided.append(f"stability: {lin.note}")
 

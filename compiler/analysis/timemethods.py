@@ -1,108 +1,30 @@
-"""Runge-Kutta time methods: stage tables, stability polynomials, SSP facts.
+"""The analysis's view of the time methods: R(z) and its imaginary-axis limit.
 
-The Shu-Osher tables are what the emitters stage; the Butcher tables and the
-stability polynomials R(z) are what the analysis reads. Both are kept here so
-that what is analysed is what is generated.
+Every fact comes from the registry (compiler/time_methods/): the tables and,
+derived from them, R(z), the orders and the SSP coefficient. This module adds
+what only the analysis needs: |R(iy)|^2 and the largest stable interval of the
+imaginary axis.
 """
 from __future__ import annotations
 
-from dataclasses import dataclass
 from functools import lru_cache
 
 import sympy
 
-Z = sympy.Symbol("z")
-"""The argument of a stability polynomial: dt times an eigenvalue."""
+from ..time_methods import METHODS, Z, TimeMethod, method
 
-half, third, quarter, sixth = (sympy.Rational(1, n) for n in (2, 3, 4, 6))
-
-
-@dataclass(frozen=True)
-class ShuOsherStage:
-    """q_stage = sum_k alpha[k] q_k + beta * dt L(q_{stage-1}), q_0 the step's start.
-
-    alpha[k] weighs stage value k (k = 0 is the start of the step); the operator
-    is applied to the previous stage only, which is all these methods need.
-    """
-
-    alpha: tuple[sympy.Rational, ...]
-    beta: sympy.Rational
+__all__ = ["METHODS", "TimeMethod", "Z", "abs_squared_on_imaginary_axis",
+           "imaginary_axis_limit", "linear_order", "method", "stability_polynomial"]
 
 
-@dataclass(frozen=True)
-class TimeMethod:
-    name: str
-    order: int
-    stages: int
-    butcher_a: tuple[tuple[sympy.Rational, ...], ...]
-    butcher_b: tuple[sympy.Rational, ...]
-    shu_osher: tuple[ShuOsherStage, ...] | None  # None where the method is not SSP
-    ssp_coefficient: sympy.Rational | None         # None: not strong-stability preserving
-    description: str
-
-    @property
-    def butcher_c(self) -> tuple[sympy.Rational, ...]:
-        return tuple(sum(row, sympy.Integer(0)) for row in self.butcher_a)
-
-    @property
-    def stability_polynomial(self) -> sympy.Expr:
-        return stability_polynomial(self.name)
-
-
-_ONE, _ZERO = sympy.Integer(1), sympy.Integer(0)
-
-METHODS: dict[str, TimeMethod] = {
-    "euler": TimeMethod(
-        "euler", 1, 1, ((_ZERO,),), (_ONE,),
-        (ShuOsherStage((_ONE,), _ONE),), _ONE,
-        "forward Euler"),
-    "ssp_rk2": TimeMethod(
-        "ssp_rk2", 2, 2, ((_ZERO, _ZERO), (_ONE, _ZERO)), (half, half),
-        (ShuOsherStage((_ONE,), _ONE), ShuOsherStage((half, half), half)), _ONE,
-        "two-stage SSP Runge-Kutta (Heun)"),
-    "ssp_rk3": TimeMethod(
-        "ssp_rk3", 3, 3,
-        ((_ZERO, _ZERO, _ZERO), (_ONE, _ZERO, _ZERO), (quarter, quarter, _ZERO)),
-        (sixth, sixth, 2 * third),
-        (ShuOsherStage((_ONE,), _ONE),
-         ShuOsherStage((3 * quarter, quarter), quarter),
-         ShuOsherStage((third, _ZERO, 2 * third), 2 * third)), _ONE,
-        "three-stage third-order SSP Runge-Kutta (Shu-Osher form)"),
-    "rk4": TimeMethod(
-        "rk4", 4, 4,
-        ((_ZERO,) * 4, (half, _ZERO, _ZERO, _ZERO), (_ZERO, half, _ZERO, _ZERO),
-         (_ZERO, _ZERO, _ONE, _ZERO)),
-        (sixth, third, third, sixth), None, None,
-        "classical fourth-order Runge-Kutta (not SSP)"),
-}
-
-
-def method(name: str) -> TimeMethod:
-    return METHODS[name]
-
-
-@lru_cache(maxsize=None)
 def stability_polynomial(name: str) -> sympy.Expr:
-    """R(z) = 1 + z b^T (I - z A)^{-1} 1, a polynomial for explicit methods."""
-    m = METHODS[name]
-    a = sympy.Matrix(m.butcher_a)
-    b = sympy.Matrix([m.butcher_b])
-    ones = sympy.ones(m.stages, 1)
-    # (I - zA)^{-1} = sum_k (zA)^k, finite because A is strictly lower triangular.
-    acc, term = sympy.zeros(m.stages, 1), ones
-    for _ in range(m.stages):
-        acc += term
-        term = Z * a * term
-    return sympy.expand(1 + Z * (b * acc)[0])
+    """R(z) of a registered method, from its table."""
+    return method(name).stability_polynomial
 
 
 def linear_order(name: str) -> int:
     """The order to which R(z) matches exp(z): the method's order on linear problems."""
-    r = sympy.Poly(stability_polynomial(name), Z)
-    p = 0
-    while p + 1 <= r.degree() and r.coeff_monomial(Z ** (p + 1)) == sympy.Rational(1, sympy.factorial(p + 1)):
-        p += 1
-    return p
+    return method(name).linear_order
 
 
 def abs_squared_on_imaginary_axis(name: str) -> tuple[sympy.Expr, sympy.Symbol]:

@@ -106,7 +106,7 @@ def analyse_tvd(scheme, monotone_whole_step: CourantSet | None) -> TVD:
         return TVD(not fe_set.empty, fe_set, "exact: Harten's incremental form over all ratios",
                    detail, _source(scheme), incremental)
     rk = method(scheme.time)
-    if rk.ssp_coefficient is None:
+    if rk.ssp_coefficient == 0:
         return undecided(f"{rk.description} is not strong-stability preserving, so the "
                          f"forward-Euler TVD interval ({fe_set.text()}) does not carry over")
     scaled = _scale(fe_set, rk.ssp_coefficient)

@@ -149,13 +149,34 @@ def _coefficient(printer: KernelPrinter, value: sympy.Expr) -> str:
     return printer._print(sympy.Float(1)) if value == 1 else f"({printer._print(value)})"
 
 
-def stage_expression(printer: KernelPrinter, update) -> tuple[str, str | None]:
-    """C expressions for q_out[j] and (if any) the new accumulator from one stage update.
+def register_name(k: int) -> str:
+    """The C name of time-stepping register k (compiler/time_methods/low_storage.py)."""
+    return f"acc{k}"
+
+
+@dataclass(frozen=True)
+class StageCode:
+    """One stage update in C: copies of registers it overwrites but still reads,
+    the expression for q_out[j], and the register writes after it."""
+
+    saves: tuple[str, ...]
+    out: str
+    writes: tuple[tuple[str, str], ...]
+
+
+def stage_expression(printer: KernelPrinter, update) -> StageCode:
+    """C for one stage update (out, then register writes, as the update orders them).
 
     Inside the loop `dq` is dt_dx * (F(j+1/2) - F(j-1/2)), so dt * L(q) = -dq.
     """
-    def combo(pairs, rate):
-        terms = [(coef, name) for coef, name in pairs if coef != 0]
+    def register(k: int) -> str:
+        return f"{register_name(k)}_old" if k in update.saved else f"{register_name(k)}[j]"
+
+    def combo(c):
+        terms = [(coef, name) for coef, name in
+                 [(c.start, "start[j]"), (c.stage, "state[j]")] +
+                 [(w, register(k)) for k, w in c.registers] if coef != 0]
+        rate = c.rate
         if rate != 0 and any(coef == rate and name == "state[j]" for coef, name in terms):
             # stage + rate*dL with equal weights: one forward-Euler step, weighted
             terms = [(coef, "(state[j] - dq)" if name == "state[j]" else name)
@@ -167,16 +188,14 @@ def stage_expression(printer: KernelPrinter, update) -> tuple[str, str | None]:
         if len(parts) == 1 and text.startswith("(") and text.endswith(")"):
             text = text[1:-1]
         if rate != 0:
-            text += " - dq" if rate == 1 else f" - {_coefficient(printer, rate)}*dq"
+            term = "dq" if rate == 1 else f"{_coefficient(printer, rate)}*dq"
+            text = f"{text} - {term}" if text else f"-{term}"
         return text
 
-    out = combo([(update.start, "start[j]"), (update.stage, "state[j]"),
-                 (update.acc, "acc[j]")], update.rate)
-    acc = None
-    if update.accumulates:
-        acc = combo([(update.acc_start, "start[j]"), (update.acc_keep, "acc[j]")],
-                    update.acc_rate)
-    return out, acc
+    saves = tuple(f"const {printer.ctype} {register_name(k)}_old = {register_name(k)}[j];"
+                  for k in update.saved)
+    writes = tuple((f"{register_name(k)}[j]", combo(c)) for k, c in update.writes)
+    return StageCode(saves, combo(update.out), writes)
 
 
 def block_signature(ctype: str, plan: KernelPlan, uses_start: bool):
@@ -189,8 +208,9 @@ def block_signature(ctype: str, plan: KernelPlan, uses_start: bool):
         entries.append((f"const {ctype} *restrict start", "q_start + halo + b"))
     entries.append((f"const {ctype} *restrict state", "q_stage + halo + b"))
     entries.append((f"{ctype} *restrict out", "q_out + halo + b"))
-    if plan.accumulator:
-        entries.append((f"{ctype} *restrict acc", "accumulator + b"))
+    for k in range(plan.registers):
+        entries.append((f"{ctype} *restrict {register_name(k)}",
+                        "registers + b" if k == 0 else f"registers + {k} * n + b"))
     entries.append((f"const {ctype} *restrict u", "u_face + b + 1"))
     entries.append((f"{ctype} dt_dx", "dt_dx"))
     entries.append((f"{ctype} *restrict flux", "flux"))
@@ -248,10 +268,10 @@ def c_context(scheme: Scheme, precision: str = "double", verdicts: bool = True) 
         limiters.append({"name": lim.name, "statements": statements, "result": result})
     stages = []
     for s, update in enumerate(plan.stage_updates):
-        out, acc = stage_expression(printer, update)
-        stages.append({"index": s, "out": out, "acc": acc,
+        code = stage_expression(printer, update)
+        stages.append({"index": s, "out": code.out, "saves": code.saves, "writes": code.writes,
                        "clip": plan.clip is not None and s == plan.stages - 1})
-    uses_start = any(u.start != 0 or u.acc_start != 0 for u in plan.stage_updates)
+    uses_start = plan.uses_start
     parameters, arguments = block_signature(printer.ctype, plan, uses_start)
     block_parameters = wrap_list(parameters, len(f"static inline void {plan.name}_block("), 8)
     block_full = wrap_list([a.replace("@M", f"{plan.name}_FLUX_BLOCK") for a in arguments],
@@ -286,7 +306,10 @@ def c_context(scheme: Scheme, precision: str = "double", verdicts: bool = True) 
         "block_parameters": block_parameters,
         "block_full_block": block_full,
         "block_last_block": block_last,
-        "accumulator": plan.accumulator,
+        "registers": plan.registers,
+        # reals the registers take in workspace, as C
+        "register_reals": "" if not plan.registers else ("n" if plan.registers == 1
+                                                         else f"{plan.registers} * n"),
         "stage_calls": step_calls(plan),
         "stage_buffers": stage_buffers(plan),
         "clip": clip,

@@ -18,7 +18,7 @@ from sympy.printing.precedence import PRECEDENCE
 from ..diagnostics import LoomError
 from ..ir import Scheme
 from ..symbols import C, R, offset_of
-from ..timestep import StageUpdate
+from ..time_methods.low_storage import StageUpdate
 from . import environment
 from .plan import FaceProgram, banner_lines, plan_kernel
 
@@ -142,11 +142,13 @@ class Offset:
 
 @dataclass(frozen=True)
 class Stage:
-    """One Runge-Kutta stage on a block, as numpy expressions over `start`,
-    `current`, `rate` (= dt * L(current)) and `acc` (classical RK4's running sum)."""
+    """One Runge-Kutta stage on a block, as numpy over `start`, `current`, `rate`
+    (= dt * L(current)) and the registers acc0, acc1, ... (compiler/time_methods/
+    low_storage.py): copies of overwritten registers still read, q_out, the writes."""
 
+    saves: tuple[str, ...]
     out: str
-    accumulate: str | None
+    writes: tuple[tuple[str, str], ...]
 
 
 @dataclass(frozen=True)
@@ -159,7 +161,8 @@ class NumpyModule:
     halo: int
     face_halo: int
     stages: tuple[Stage, ...]
-    accumulator: bool
+    registers: tuple[tuple[str, str], ...]     # (name, its slice of work for the block)
+    register_reals: str                        # "n", "2 * n" or "0"
     block_cells: int
     params: tuple[tuple[str, str, str], ...]   # (python name, spec name, value)
     limiters: tuple[Function, ...]
@@ -183,22 +186,23 @@ def print_function(printer: NumpyKernelPrinter, name: str, doc: str,
 
 
 def stage_expression(printer: NumpyKernelPrinter, update: StageUpdate) -> Stage:
-    """The stage update of compiler/timestep.py as numpy expressions."""
-    def combo(terms):
+    """One stage update of the time method's low-storage form as numpy expressions."""
+    def register(k: int) -> str:
+        return f"acc{k}_old" if k in update.saved else f"acc{k}"
+
+    def combo(c):
         parts = []
-        for coefficient, name in terms:
+        for coefficient, name in ([(c.start, "start"), (c.stage, "current")]
+                                  + [(w, register(k)) for k, w in c.registers]
+                                  + [(c.rate, "rate")]):
             if coefficient == 0:
                 continue
             parts.append(name if coefficient == 1 else f"({printer.doprint(coefficient)})*{name}")
         return " + ".join(parts) or "0"
 
-    out = combo([(update.start, "start"), (update.stage, "current"),
-                 (update.acc, "acc"), (update.rate, "rate")])
-    accumulate = None
-    if update.accumulates:
-        accumulate = combo([(update.acc_start, "start"), (update.acc_keep, "acc"),
-                            (update.acc_rate, "rate")])
-    return Stage(out, accumulate)
+    return Stage(tuple(f"acc{k}_old = acc{k}.copy()" for k in update.saved),
+                 combo(update.out),
+                 tuple((f"acc{k}[...]", combo(c)) for k, c in update.writes))
 
 
 def _shift(k: int) -> str:
@@ -207,12 +211,24 @@ def _shift(k: int) -> str:
     return f"HALO + {k}" if k > 0 else f"HALO - {-k}"
 
 
-def _workspace_formula(stage_buffers: int, accumulator: bool) -> str:
-    """Reals `step` keeps between stages: the RK4 sum, then stage arrays with halos."""
-    parts = (["n"] if accumulator else []) + \
+def _register_reals(registers: int) -> str:
+    return "0" if not registers else ("n" if registers == 1 else f"{registers} * n")
+
+
+def _workspace_formula(stage_buffers: int, registers: int) -> str:
+    """Reals `step` keeps between stages: the time method's registers, then stage arrays
+    with halos."""
+    parts = ([_register_reals(registers)] if registers else []) + \
         ([f"{stage_buffers} * (n + 2 * HALO)" if stage_buffers > 1 else "n + 2 * HALO"]
          if stage_buffers else [])
     return " + ".join(parts) or "0"
+
+
+def _register_slices(registers: int) -> tuple[tuple[str, str], ...]:
+    """Register k of a block lo:hi is work[k n + lo:k n + hi]."""
+    return tuple((f"acc{k}", "work[lo:hi]" if k == 0 else
+                  ("work[n + lo:n + hi]" if k == 1 else f"work[{k} * n + lo:{k} * n + hi]"))
+                 for k in range(registers))
 
 
 def check_precision(precision: str) -> None:
@@ -246,7 +262,8 @@ def numpy_module(scheme: Scheme, precision: str = "double", banner=None) -> Nump
         halo=plan.halo,
         face_halo=plan.face_halo,
         stages=tuple(stage_expression(printer, u) for u in plan.stage_updates),
-        accumulator=plan.accumulator,
+        registers=_register_slices(plan.registers),
+        register_reals=_register_reals(plan.registers),
         block_cells=BLOCK_BYTES // ITEM_BYTES[precision],
         params=tuple((param_name(name), name, printer.doprint(value))
                      for name, value in plan.params),
@@ -260,7 +277,7 @@ def numpy_module(scheme: Scheme, precision: str = "double", banner=None) -> Nump
         guard_c=any(p.guard_c for p in programs),
         fct=plan.fct,
         clip=None if plan.clip is None else tuple(printer.doprint(v) for v in plan.clip),
-        workspace=_workspace_formula(stage_buffers, plan.accumulator),
+        workspace=_workspace_formula(stage_buffers, plan.registers),
     )
 
 

@@ -29,7 +29,7 @@ import sympy
 
 from ..ir import Scheme
 from ..symbols import C, R, Ratio, limiter_calls, offsets_in
-from ..timestep import StageUpdate, stage_updates, uses_accumulator
+from ..time_methods.low_storage import StageUpdate, low_storage_form
 
 FCT_EXTRA_FACES = 2
 """Extra face velocities (and faces) per side an FCT step evaluates."""
@@ -66,8 +66,9 @@ class KernelPlan:
     fct: bool
     clip: tuple[sympy.Expr, sympy.Expr] | None
     limiters: tuple[LimiterProgram, ...]
-    stage_updates: tuple[StageUpdate, ...]
-    accumulator: bool
+    stage_updates: tuple[StageUpdate, ...]   # derived from the time method's table
+    registers: int      # arrays of n values kept in workspace from stage to stage
+    uses_start: bool    # whether a stage reads q_start
 
     @property
     def offsets(self) -> tuple[int, ...]:
@@ -192,7 +193,7 @@ def limiters_used(scheme: Scheme, face: sympy.Expr) -> tuple[str, ...]:
 def plan_kernel(scheme: Scheme) -> KernelPlan:
     """The plan every back end renders for scheme."""
     fct = scheme.correct == "fct"
-    updates = stage_updates(scheme.time)
+    stepping = low_storage_form(scheme.time)
     face = fuse_limited_slopes(scheme, scheme.face)
     limiters = tuple(LimiterProgram(name, face_program(scheme.limiter(name).body, "s"))
                      for name in limiters_used(scheme, face))
@@ -206,15 +207,16 @@ def plan_kernel(scheme: Scheme) -> KernelPlan:
         time=scheme.time,
         halo=kernel_halo(scheme),
         face_halo=face_halo(scheme),
-        stages=len(updates),
+        stages=len(stepping.updates),
         params=tuple((p.name, p.value) for p in scheme.params),
         flux=program,
         low_flux=low if fct else None,
         fct=fct,
         clip=scheme.clip,
         limiters=limiters,
-        stage_updates=updates,
-        accumulator=uses_accumulator(scheme.time),
+        stage_updates=stepping.updates,
+        registers=stepping.registers,
+        uses_start=stepping.uses_start,
     )
 
 

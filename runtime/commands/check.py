@@ -98,12 +98,23 @@ def _islands(d: dict) -> str:
         else _interval(i) for i in isl)
 
 
+def _ssp(time_method: dict) -> str:
+    exact = time_method["ssp_coefficient_exact"]
+    return f"{exact} (not SSP)" if time_method["ssp_coefficient"] == 0 else exact
+
+
 def render(doc: dict) -> str:
     out = []
     head = f"{doc['scheme']}" + (f"  -  {doc['about']}" if doc.get("about") else "")
     out.append(head)
     out.append(f"  time {doc['time']}, stencil offsets {doc['offsets']} (upwind frame), "
                f"halo {doc['halo']}" + "".join(f", {k} = {v['exact']}" for k, v in doc["params"].items()))
+    tm = doc["time_method"]
+    out.append(f"  time method {tm['name']}: {tm['stages']} stage{'s' if tm['stages'] > 1 else ''}, "
+               f"order {tm['order']}"
+               + (f" ({tm['linear_order']} on linear problems)"
+                  if tm["linear_order"] != tm["order"] else "")
+               + f", SSP coefficient {_ssp(tm)}")
     if not doc["linear"]:
         out.append(f"  nonlinear: {doc['linearisation']}")
 
@@ -141,9 +152,9 @@ def render(doc: dict) -> str:
             out.append(f"  |G|^2 = {only['abs_squared_s']}, s = sin^2(theta/2)")
     if "time_method" in st:
         tm = st["time_method"]
-        out.append(f"  R(z) = {tm['stability_polynomial']}; imaginary-axis limit "
-                   f"{tm['imaginary_axis_limit_exact']}; SSP coefficient "
-                   f"{tm['ssp_coefficient'] if tm['ssp_coefficient'] is not None else 'none (not SSP)'}")
+        limit = _c(tm["imaginary_axis_limit"], tm["imaginary_axis_limit_exact"])
+        out.append(f"  R(z) = {tm['stability_polynomial']}; imaginary-axis limit {limit}; "
+                   f"SSP coefficient {_ssp(tm)}")
     out.append(f"  method: {st['method']}" + (f", tolerance {st['tolerance']:g}" if st["tolerance"] else ""))
 
     out.append("")
