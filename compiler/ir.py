@@ -79,8 +79,10 @@ class Scheme:
 
     @property
     def limited(self) -> bool:
-        """True when the face expression is nonlinear in q (limiters, abs, min, ...)."""
-        return bool(limiter_calls(self.face, self.limiter_names)) or self.face.has(*SMOOTH_BREAKERS)
+        """True when the face expression is nonlinear in q (limiters, abs, min, ..., or
+        products, powers and quotients of q as in weighted reconstructions)."""
+        return bool(limiter_calls(self.face, self.limiter_names)) or \
+            self.face.has(*SMOOTH_BREAKERS) or not _affine_in_q(self.face)
 
     @property
     def limiter_names(self) -> tuple[str, ...]:
@@ -125,6 +127,21 @@ class Scheme:
             return self
         params = tuple(replace(p, value=overrides.get(p.name, p.value)) for p in self.params)
         return replace(self, params=params)
+
+
+def _affine_in_q(expr: sympy.Expr) -> bool:
+    """Whether expr is written as an affine function of the q(k) (structurally: sums,
+    and products with at most one factor that involves q)."""
+    if not offsets_in(expr):
+        return True
+    if expr.is_Symbol:
+        return True
+    if isinstance(expr, sympy.Add):
+        return all(_affine_in_q(a) for a in expr.args)
+    if isinstance(expr, sympy.Mul):
+        with_q = [a for a in expr.args if offsets_in(a)]
+        return len(with_q) == 1 and _affine_in_q(with_q[0])
+    return False
 
 
 # ---- lowering ------------------------------------------------------------

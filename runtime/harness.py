@@ -349,14 +349,17 @@ def growth_probe(kernel, courant: float, velocity: float = 1.0, n: int = 64,
 
 def stability_sweep(kernel, velocity: float = 1.0, predicted_max: float | None = None,
                     linear: bool = False, clip: tuple[float, float] | None = None,
-                    step: float = 0.25) -> Stability:
+                    step: float = 0.25, amplitude: float | None = None) -> Stability:
     """Walk up in Courant number until the scheme grows, then bisect the edge.
 
     Linear schemes (`linear`, possibly under a `clip`) are probed spectrally, others
     by growth over many steps. An unstable scheme is tried at every grid point, to
-    show it grows at each one."""
+    show it grows at each one. `amplitude` sets the size of the random data: a
+    nonlinear face linearised at a constant state acts as its linearisation on
+    data small enough (its weights at their ideal values), so it is probed there."""
     # a clamped scheme is probed well inside its range, where the clamp stays idle
-    centre, amplitude = ((clip[0] + clip[1]) / 2, (clip[1] - clip[0]) * 1e-3) if clip else (0.0, 1.0)
+    centre, size = ((clip[0] + clip[1]) / 2, (clip[1] - clip[0]) * 1e-3) if clip else (0.0, 1.0)
+    amplitude = size if amplitude is None else amplitude
     if linear:
         def measure(c):
             return spectral_probe(kernel, c, velocity, centre=centre, amplitude=amplitude)

@@ -164,8 +164,12 @@ def test_numeric_path_agrees_with_exact_path():
 
 
 ODD_SPECS = {
-    # A face nonlinear without a named limiter: linear analysis is undecided, never guessed.
-    "abs_face": ("scheme odd {\n  flux = u * (q[0] + abs(q[1] - q[0]) / 4)\n}", "undecided"),
+    # A face whose derivatives grow without bound on smooth data (1 / (q[1] - q[0])): no
+    # linear scheme stands for it, so the linear analysis is undecided, never guessed.
+    "unbounded_face": ("scheme odd {\n  flux = u * (q[0] + 1 / (q[1] - q[0]))\n}", "undecided"),
+    # A face nonlinear without a named limiter and kinked at constant states: linearised on
+    # smooth monotone data, one linear scheme for increasing and one for decreasing data.
+    "abs_face": ("scheme odd {\n  flux = u * (q[0] + abs(q[1] - q[0]) / 4)\n}", "smooth"),
     # A param that is not rational: the numeric stability path, tolerance stated.
     "irrational_param": ("scheme odd {\n  param k = sqrt(2)/4\n  time ssp_rk3\n"
                          "  flux = u * (q[0] + k * (q[1] - q[0]))\n}", "numeric"),
@@ -186,6 +190,24 @@ def test_unusual_schemes_analyse_and_say_how(name):
     json.dumps(doc)
     if how == "undecided":
         assert doc["stability"]["kind"] is None and doc["undecided"]
+        assert doc["linear"] is False and "no linearisation" in doc["linearisation"]
+    elif how == "smooth":
+        # q[0] + |q[1] - q[0]|/4 is q[0] + (q[1] - q[0])/4 on increasing data and
+        # q[0] - (q[1] - q[0])/4 on decreasing data (common practice, no source). Their
+        # forward-Euler limits come from G = 1 - c (1 - 1/z)(a + b z) scanned here with
+        # numpy (1/2 and 2/3); the analysis reports the common interval, the smaller one.
+        import numpy
+        z = numpy.exp(1j * numpy.linspace(0, numpy.pi, 4001))
+
+        def limit(a, b):
+            cs = numpy.arange(1, 4001) / 2000
+            ok = [numpy.max(numpy.abs(1 - c * (1 - 1 / z) * (a + b * z))) <= 1 + 1e-12 for c in cs]
+            return cs[numpy.argmin(ok) - 1] if not all(ok) else None
+        assert "smooth monotone data" in doc["linearisation"] and doc["linear"] is False
+        labels = [sch["label"] for sch in doc["stability"]["schemes"]]
+        assert len(labels) == 2 and all("monotone data" in x for x in labels)
+        expected = min(limit(3 / 4, 1 / 4), limit(5 / 4, -1 / 4))
+        assert abs(doc["stability"]["courant_max"] - expected) <= 1e-3
     elif how == "numeric":
         assert doc["stability"]["method"].startswith("numeric") and doc["stability"]["tolerance"] <= 1e-4
     elif how == "sampled":

@@ -11,7 +11,7 @@ from dataclasses import dataclass
 
 import sympy
 
-from . import intervals
+from . import budget, intervals
 from .bounds import Bounds, analyse_bounds, check_low_flux
 from .conservation import Conservation, analyse_conservation
 from .consistency import Consistency, analyse_consistency
@@ -22,6 +22,7 @@ from .monotone import Monotone, analyse_monotone
 from .stability import Stability, analyse_stability, kind_of_interval
 from .symbol import Linearisation, linearise
 from .tvd import TVD, analyse_tvd
+from .tvd import undecided as tvd_undecided
 
 __all__ = ["Analysis", "analyse", "check_low_flux"]
 
@@ -44,18 +45,33 @@ class Analysis:
     dispersion: Dispersion | None
     bounds: Bounds | None
     order_cap_note: str
+    order_cap: int | None = None          # orders are claimed up to this (0: none claimed)
+    budget_seconds: float = budget.DEFAULT_SECONDS
+    over_budget: tuple[tuple[str, str, str], ...] = ()   # (pass, "fallback"|"undecided", note)
 
     # ---- summaries -------------------------------------------------------
+    def exceeded(self, what: str) -> str | None:
+        """How the pass `what` ended when it went past its budget ("fallback" or "undecided")."""
+        return next((how for name, how, _ in self.over_budget if name == what), None)
+
     @property
-    def consistent(self) -> bool:
+    def consistent(self) -> bool | None:
+        """None (undecided) when no linear scheme stands for the scheme or the pass ran out
+        of budget."""
+        if not self.consistency and (self.exceeded("consistency") or not self.linearisation.smooth):
+            return None
         return bool(self.consistency) and all(c.consistent for c in self.consistency)
+
+    def _capped(self, value: int | None) -> int | None:
+        if value is None or self.order_cap is None:
+            return value
+        return None if self.order_cap == 0 else min(value, self.order_cap)
 
     def _order(self, attr: str) -> int | None:
         values = [getattr(c, attr) for c in self.consistency]
         if not values or any(v is None for v in values):
             return None
-        value = min(values)
-        return min(value, SMOOTH_ORDER_CAP) if self.order_cap_note else value
+        return self._capped(min(values))
 
     @property
     def order(self) -> dict:
@@ -71,8 +87,7 @@ class Analysis:
         values = [c.order_at(self.courant) for c in self.consistency]
         if any(v is None for v in values):
             return None
-        value = min(values)
-        return min(value, SMOOTH_ORDER_CAP) if self.order_cap_note else value
+        return self._capped(min(values))
 
     @property
     def stable_interval(self) -> Span | None:
@@ -96,33 +111,102 @@ class Analysis:
 
 
 CACHE_SIZE = 256
-_CACHE: dict[tuple[str, float], Analysis] = {}
+_CACHE: dict[tuple[str, float, float], Analysis] = {}
 
 
-def analyse(scheme, courant: float = 0.5) -> Analysis:
-    """Every analysis pass over one scheme; cached on (fingerprint, courant)."""
+def analyse(scheme, courant: float = 0.5, budget_seconds: float = budget.DEFAULT_SECONDS) -> Analysis:
+    """Every analysis pass over one scheme, each within `budget_seconds` of CPU time;
+    cached on (fingerprint, courant, budget)."""
     check_low_flux(scheme)
-    key = (scheme.fingerprint, float(courant))
+    key = (scheme.fingerprint, float(courant), float(budget_seconds))
     if key not in _CACHE:
         if len(_CACHE) >= CACHE_SIZE:
             _CACHE.pop(next(iter(_CACHE)))  # oldest first
-        _CACHE[key] = _analyse(scheme, float(courant))
+        _CACHE[key] = _analyse(scheme, float(courant), float(budget_seconds))
     return _CACHE[key]
 
 
-def _analyse(scheme, courant: float) -> Analysis:
-    lin = linearise(scheme)
-    consistency = tuple(analyse_consistency(ls) for ls in lin.smooth)
+class _Passes:
+    """Runs each pass under the budget and keeps what went past it."""
+
+    def __init__(self, seconds: float):
+        self.seconds = seconds
+        self.over: list[tuple[str, str, str]] = []
+
+    def run(self, what: str, exact, fallback=None, how: str = "", undecided=None):
+        outcome = budget.attempt(self.seconds, exact, fallback, how, undecided)
+        if outcome.how != "exact":
+            self.over.append((what, outcome.how, outcome.note))
+        return outcome.value
+
+    def reason(self, what: str) -> str:
+        return next((note for name, _, note in self.over if name == what), "budget exceeded")
+
+
+def _numeric_stability(ls) -> Stability:
+    from .stability import numeric_set
+
+    stable = numeric_set(ls, ls.numeric_direct())
+    return Stability(ls.label, "(not formed: the exact step went past the budget)",
+                     "(not formed)", None, stable)
+
+
+def _analyse(scheme, courant: float, seconds: float) -> Analysis:
+    from .stability import NUMERIC_TOLERANCE
+    from .symbol import linearise_numerically
+
+    passes = _Passes(seconds)
+    run = passes.run
+    lin = run("linearisation", lambda: linearise(scheme),
+              lambda: linearise_numerically(scheme),
+              "numeric Jacobian at a constant state instead (tolerance stated in the note)",
+              lambda: Linearisation((), (), False, "budget exceeded: no linear scheme stands "
+                                    "for this one", source="linearisation"))
+    if not lin.smooth and passes.over:
+        lin = Linearisation((), (), False, "linearisation: " + passes.reason("linearisation"),
+                            source=lin.source)
+    consistency = run("consistency", lambda: tuple(analyse_consistency(ls) for ls in lin.smooth),
+                      undecided=tuple)
     linear_schemes = lin.smooth + lin.bounding
-    stability = tuple(analyse_stability(ls) for ls in linear_schemes)
-    monotone = tuple(analyse_monotone(ls) for ls in linear_schemes)
-    limiters = tuple(analyse_limiter(lim.name, scheme.bound(lim.body)) for lim in scheme.limiters)
+    stability = run("stability", lambda: tuple(analyse_stability(ls) for ls in linear_schemes),
+                    lambda: tuple(_numeric_stability(ls) for ls in linear_schemes),
+                    f"numeric scan of |G| instead (tolerance {NUMERIC_TOLERANCE:g})", tuple)
+    monotone = run("monotone", lambda: tuple(analyse_monotone(ls) for ls in linear_schemes),
+                   undecided=tuple)
+    limiters = tuple(_limiter(run, lim.name, scheme.bound(lim.body)) for lim in scheme.limiters)
     whole_step = monotone[0].monotone if (lin.exact and monotone) else None
-    tvd = analyse_tvd(scheme, whole_step)
-    dispersion = analyse_dispersion(lin.smooth[0], courant) if lin.smooth and courant > 0 else None
-    cap_note = ""
-    if not lin.exact and lin.smooth and lin.curved:
+    tvd = run("tvd", lambda: analyse_tvd(scheme, whole_step),
+              undecided=lambda: tvd_undecided(passes.reason("tvd")))
+    dispersion = None
+    if lin.smooth and courant > 0:
+        dispersion = run("dispersion", lambda: analyse_dispersion(lin.smooth[0], courant))
+    conservation = run("conservation", lambda: analyse_conservation(scheme),
+                       undecided=lambda: Conservation(None, passes.reason("conservation"),
+                                                      "scheme", 0))
+    bounds = run("bounds", lambda: analyse_bounds(scheme),
+                 undecided=lambda: _bounds_undecided(scheme, passes.reason("bounds")))
+    cap, cap_note = lin.order_cap, lin.cap_note
+    if cap is None and not lin.exact and lin.smooth and lin.curved:
+        cap = SMOOTH_ORDER_CAP
         cap_note = (f"{', '.join(lin.curved)} is curved at r = 1, so the linearised order is "
                     f"claimed up to {SMOOTH_ORDER_CAP}")
-    return Analysis(scheme, courant, lin, consistency, stability, analyse_conservation(scheme),
-                    monotone, limiters, tvd, dispersion, analyse_bounds(scheme), cap_note)
+    return Analysis(scheme, courant, lin, consistency, stability, conservation, monotone,
+                    limiters, tvd, dispersion, bounds, cap_note, cap, seconds, tuple(passes.over))
+
+
+def _limiter(run, name: str, body) -> LimiterFacts:
+    from .limiters import _sampled
+
+    def undecided():
+        return LimiterFacts(name, sympy.sstr(body), None, None, None, None, None, None, None,
+                            None, "undecided: budget exceeded", ())
+    return run(f"limiter {name}", lambda: analyse_limiter(name, body),
+               lambda: _sampled(name, body, None, None, None),
+               "sampled on a grid instead (tolerance stated in the method)", undecided)
+
+
+def _bounds_undecided(scheme, reason: str) -> Bounds | None:
+    if scheme.correct != "fct" and scheme.clip is None:
+        return None
+    kind = "fct" if scheme.correct == "fct" else "clip"
+    return Bounds(kind, None, *(scheme.clip or (None, None)), None, "undecided", "undecided", reason)

@@ -33,7 +33,8 @@ def _face_on_grid(g, values, face_left_cell: int, sign: int):
             continue
         cell = face_left_cell + k if sign > 0 else face_left_cell + 1 - k
         subs[sym] = values[cell % n]
-    return g.xreplace(subs)
+    with sympy.evaluate(False):  # min/max of a clamp need not re-sort their arguments here
+        return g.xreplace(subs)
 
 
 def total_change(g: sympy.Expr, cells: int, sign: int = 1, factors=None) -> sympy.Expr:

@@ -64,7 +64,8 @@ def analysis_document(a) -> dict:
                  "halo": s.halo, "offsets": list(s.offsets), "fingerprint": s.fingerprint,
                  "params": {p.name: {"value": _num(p.value), "exact": _exact(p.value)}
                             for p in s.params},
-                 "courant": a.courant, "linear": lin.exact, "linearisation": lin.note}
+                 "courant": a.courant, "linear": lin.exact, "linearisation": lin.note,
+                 "linearised_at": lin.where or None}
     doc["time_method"] = time_method_document(s.time)
     undecided: list[str] = []
 
@@ -72,7 +73,10 @@ def analysis_document(a) -> dict:
     doc["consistent"] = a.consistent
     order = a.order
     notes = [c.note for c in a.consistency if c.note]
-    if not lin.exact:
+    if not lin.exact and lin.source == "linearisation" and lin.smooth:
+        notes.append(f"order of the linearisation (at {lin.where}), for smooth data; near "
+                     "extrema and discontinuities the nonlinear face may act differently")
+    elif not lin.exact and lin.source == "limiter":
         notes.append("order in smooth monotone regions (limiter linearised at r = 1); it drops "
                      "to first order or below at extrema, where the limiter switches off")
     if a.order_cap_note:
@@ -95,7 +99,7 @@ def analysis_document(a) -> dict:
          "terms": _terms(c.terms), "semi_discrete_terms": _terms(c.spatial_terms)}
         for c in a.consistency]
     if not a.consistency:
-        undecided.append(f"consistency: {lin.note}")
+        undecided.append(_over(a, "consistency") or f"consistency: {lin.note}")
 
     # stability
     span = a.stable_interval
@@ -108,9 +112,7 @@ def analysis_document(a) -> dict:
         "kind": a.stability_kind if a.stability else None, **_span(span), "islands": islands,
         "method": "; ".join(dict.fromkeys(cs.method for cs in every)) or None,
         "tolerance": None if exact else max(cs.tolerance for cs in every if cs.tolerance),
-        "basis": ("the scheme's own amplification factor" if lin.exact else
-                  "every linear scheme the limited scheme reduces to (linearised at r = 1 and "
-                  "limiter frozen at 0 and at psi(1)); the interval is their common one"),
+        "basis": lin.basis,
         "source": "scheme",
         "schemes": [{"label": st.label, "kind": st.kind, "amplification_z": st.amplification,
                      "abs_squared_s": st.abs_squared, "semi_discrete_z": st.semi_discrete,
@@ -125,10 +127,12 @@ def analysis_document(a) -> dict:
             "imaginary_axis_limit": _num(limit) if limit != 0 else 0.0,
             "imaginary_axis_limit_exact": _exact(limit)}
     if not a.stability:
-        undecided.append(f"stability: {lin.note}")
+        undecided.append(_over(a, "stability") or f"stability: {lin.note}")
 
     # conservation
     doc["conservative"] = a.conservation.conservative
+    if a.conservation.conservative is None:
+        undecided.append(f"conservation: {a.conservation.reason}")
     doc["conservation"] = {"reason": a.conservation.reason, "source": a.conservation.source}
 
     # convergence (Lax equivalence: linear schemes only)
@@ -136,10 +140,11 @@ def analysis_document(a) -> dict:
     if not lin.exact or s.clip is not None or s.correct == "fct":
         why = ("post-step clamp makes the scheme nonlinear" if s.clip is not None else
                "flux-corrected transport is nonlinear" if s.correct == "fct" else
-               "the scheme is nonlinear (limited)")
+               "the scheme is nonlinear (limited)" if lin.source == "limiter" else
+               "the face is nonlinear in q")
         conv["reason"] = (f"{why}; the Lax equivalence theorem covers linear schemes "
                           "only (the harness measures convergence)")
-        conv["source"] = "clip" if s.clip is not None else ("fct" if s.correct == "fct" else "limiter")
+        conv["source"] = "clip" if s.clip is not None else ("fct" if s.correct == "fct" else lin.source)
         undecided.append("convergence: " + why)
     elif not a.consistent:
         conv.update(holds=False, reason="not consistent, so not convergent")
@@ -162,6 +167,9 @@ def analysis_document(a) -> dict:
         mono["bounding"] = [{"label": f"flux alone ({m.label})", "holds": m.holds, **_set(m.monotone)}
                             for m in a.monotone]
         undecided.append("monotone: flux-corrected transport (see bounds)")
+    elif lin.exact and a.exceeded("monotone"):
+        mono["reason"] = _over(a, "monotone")
+        undecided.append(mono["reason"])
     elif lin.exact and a.monotone:
         m0 = a.monotone[0]
         mono.update(holds=m0.holds, **_set(m0.monotone))
@@ -173,10 +181,12 @@ def analysis_document(a) -> dict:
                           "(apart from isolated values)")
     else:
         mono["reason"] = ("the coefficient test applies to linear schemes; a limited "
-                          "scheme is judged by TVD (see tvd)")
+                          "scheme is judged by TVD (see tvd)" if lin.source == "limiter" else
+                          "the coefficient test applies to linear schemes; `bounding` gives it "
+                          "for each linear scheme standing for this nonlinear one")
         mono["bounding"] = [{"label": m.label, "holds": m.holds, **_set(m.monotone)}
                             for m in a.monotone]
-        mono["source"] = "limiter"
+        mono["source"] = lin.source
         undecided.append("monotone: nonlinear scheme")
     if s.clip is not None and mono["holds"] is not None:
         mono["reason"] += "; the clamp is pointwise and non-decreasing, so it keeps this verdict"
@@ -246,11 +256,23 @@ def analysis_document(a) -> dict:
         doc["bounded"] = {"holds": b.bounded, **_span(b.bounded_set.main if b.bounded_set else None),
                           "reason": b.reason, "source": "fct"}
     doc["verdict_sources"] = {
-        "consistent": "scheme" if lin.exact else "limiter",
-        "order": "fct" if s.correct == "fct" else ("scheme" if lin.exact else "limiter"),
-        "stability": "scheme" if lin.exact else "limiter",
+        "consistent": lin.source,
+        "order": "fct" if s.correct == "fct" else lin.source,
+        "stability": lin.source,
         "conservative": doc["conservation"]["source"], "convergent": conv["source"],
         "monotone": mono["source"], "tvd": tvd["source"],
         "bounded": None if b is None else b.kind}
-    doc["undecided"] = undecided
+    doc["budget"] = {"seconds": a.budget_seconds,
+                     "exceeded": [{"pass": what, "outcome": how, "note": note}
+                                  for what, how, note in a.over_budget]}
+    for what, how, note in a.over_budget:
+        if how == "undecided" and (what.startswith("limiter ") or what == "dispersion"):
+            undecided.append(f"{what}: {note}")
+    doc["undecided"] = list(dict.fromkeys(undecided))
     return doc
+
+
+def _over(a, what: str) -> str | None:
+    """The note of a pass that went past its budget and ended undecided, else None."""
+    return next((f"{what}: {note}" for name, how, note in a.over_budget
+                 if name == what and how == "undecided"), None)

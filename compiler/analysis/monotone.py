@@ -43,21 +43,35 @@ def monotone_set(coefficients) -> CourantSet:
         critical += intervals.positive_roots(sympy.numer(v), C)
         critical += intervals.positive_roots(sympy.denom(v), C)
 
-    # Each coefficient as numerator and denominator polynomials: exact and fast to
-    # evaluate at the rational Courant numbers decide() asks about.
-    fractions = [tuple(sympy.Poly(part, C) for part in sympy.fraction(v)) for v in values]
-
-    def nonnegative(value, fraction, c_value) -> bool:
-        if c_value.is_Rational:
-            top, bottom = (part.eval(c_value) for part in fraction)
-            return bottom != 0 and top * bottom >= 0
-        at = value.subs(C, c_value)
-        return at.is_finite is True and bool(at >= 0)
+    fractions = [(sympy.Poly(sympy.numer(v), C), sympy.Poly(sympy.denom(v), C)) for v in values]
 
     def holds(c_value) -> bool:
-        return all(nonnegative(v, f, c_value) for v, f in zip(values, fractions))
+        if not c_value.is_Rational and _clearly_negative(fractions, c_value):
+            return False  # an algebraic c where some coefficient is negative by a wide margin
+        for numerator, denominator in fractions:  # exact evaluation of polynomials: fast
+            bottom = denominator.eval(c_value)
+            if bottom == 0 or numerator.eval(c_value) / bottom < 0:
+                return False
+        return True
 
     return intervals.decide(critical, holds, method="exact (roots in c of every update coefficient)")
+
+
+def _clearly_negative(fractions, c_value) -> bool:
+    """Some numerator/denominator is below -1e-30 at c_value evaluated to 60 digits (far
+    beyond the rounding of that evaluation), so the exact test need not run."""
+    import mpmath
+
+    with mpmath.workdps(60):
+        c = mpmath.mpf(str(sympy.N(c_value, 60)))
+        for numerator, denominator in fractions:
+            top = mpmath.polyval([mpmath.mpf(sympy.Rational(v).p) / sympy.Rational(v).q
+                                  for v in numerator.all_coeffs()], c)
+            bottom = mpmath.polyval([mpmath.mpf(sympy.Rational(v).p) / sympy.Rational(v).q
+                                     for v in denominator.all_coeffs()], c)
+            if bottom != 0 and top / bottom < mpmath.mpf("-1e-30"):
+                return True
+    return False
 
 
 def _rational_in_c(value: sympy.Expr) -> bool:

@@ -97,9 +97,9 @@ def _exact_set(excess: sympy.Expr, scheme: LinearScheme) -> CourantSet | None:
             return None
     q = sympy.Poly(sympy.expand(numerator), S)   # coefficients in c
     while sympy.expand(q.eval(0)) == 0:
-        q = sympy.Poly(sympy.cancel(q.as_expr() / S), S)
+        q = q.exquo(sympy.Poly(S, S, domain=q.domain))        # exact division, no cancel
     while sympy.expand(q.eval(1)) == 0:
-        q = sympy.Poly(sympy.cancel(q.as_expr() / (1 - S)), S)
+        q = q.exquo(sympy.Poly(1 - S, S, domain=q.domain))
     if q.degree() > MAX_EXACT_DEGREE:
         return None
     reduced = q.as_expr()
@@ -181,13 +181,15 @@ def max_growth(g_of, c_value: float, thetas: numpy.ndarray) -> float:
     return float(numpy.max(numpy.abs(g_of(c_value, thetas)) ** 2 - 1.0))
 
 
-def numeric_set(scheme: LinearScheme) -> CourantSet:
+def numeric_set(scheme: LinearScheme, g_of=None) -> CourantSet:
     """Scan 0 < c <= NUMERIC_C_RANGE on a theta grid, bisect each change of verdict.
 
     The theta grid is refined (4x) while bisecting, so a band of instability
-    near a boundary that the coarse grid misses is caught there.
+    near a boundary that the coarse grid misses is caught there. `g_of` (default
+    scheme.numeric()) evaluates G; the budget's fallback passes one that needs no
+    exact update.
     """
-    g_of = scheme.numeric()
+    g_of = g_of or scheme.numeric()
     coarse = numpy.linspace(0.0, numpy.pi, 2001)
     fine = numpy.linspace(0.0, numpy.pi, 8001)
 

@@ -95,7 +95,7 @@ class LinearScheme:
         """|G|^2 as a polynomial in s = sin^2(theta/2) (coefficients in c)."""
         b = self.update
         try:
-            return _abs_squared_fast(b)
+            return _chebyshev_sum_fast(_autocorrelation_fast(b))
         except (sympy.PolynomialError, sympy.CoercionFailed):
             pass  # coefficients not polynomial in c over QQ: the general sympy path
         # H = G(z) G(1/z) is symmetric in z <-> 1/z: h_0 + sum_k h_k (z^k + z^-k).
@@ -132,6 +132,26 @@ class LinearScheme:
             return values @ waves
         return g
 
+    def numeric_direct(self):
+        """G(c, theta) like `numeric`, but from the face coefficients and R(z) alone, in
+        floating point (no exact update is formed): the budget's fallback."""
+        offsets = sorted(self.face)
+        coefficient = [_numpy_function_of_c(self.face[k]) for k in offsets]
+        r = [float(v) for v in sympy.Poly(stability_polynomial(self.time), Z).all_coeffs()]
+        exponents = numpy.array(offsets, dtype=float)
+
+        def g(cs, thetas):
+            cs = numpy.atleast_1d(numpy.asarray(cs, dtype=float))
+            thetas = numpy.atleast_1d(numpy.asarray(thetas, dtype=float))
+            values = numpy.array([numpy.broadcast_to(f(cs), cs.shape) for f in coefficient]).T
+            face = values @ numpy.exp(1j * numpy.outer(exponents, thetas))
+            z = cs[:, None] * -(1 - numpy.exp(-1j * thetas))[None, :] * face
+            out = numpy.zeros_like(z)
+            for weight in r:  # Horner
+                out = out * z + weight
+            return out
+        return g
+
     def lambdified(self):
         """A numpy function G(c, theta) for plots and numeric scans."""
         theta = sympy.Symbol("theta", real=True)
@@ -149,29 +169,39 @@ def _numpy_function_of_c(value: sympy.Expr):
     return lambda cs: numpy.polyval(coefficients, cs)
 
 
-def _abs_squared_fast(b: Laurent) -> sympy.Expr:
-    """|G|^2 = h_0 + sum_k 2 h_k T_k(1 - 2s), all in QQ[s, c] polynomial arithmetic.
+def _chebyshev_sum_fast(h: Laurent) -> sympy.Expr:
+    """h_0 + sum_k 2 h_k T_k(1 - 2s) with polynomial arithmetic over QQ[s, c].
 
-    h_k = sum_m b_m b_(m-k) and the Chebyshev polynomials come from their recurrence
-    T_(k+1) = 2x T_k - T_(k-1): the cost grows polynomially with the stencil width
-    (no symbolic expansion of T_k(1 - 2s) or of the products).
+    Works in a polynomial ring (no expression expansion), with T_k from the
+    recurrence T_{k+1} = 2 x T_k - T_{k-1}, x = 1 - 2s.
     """
-    ring = (S, C)
-    coefficient = {m: sympy.Poly(v, *ring, domain="QQ") for m, v in b.items()}
-    zero = sympy.Poly(0, *ring, domain="QQ")
-    h: dict[int, sympy.Poly] = {}
-    for m, v in coefficient.items():
-        for n, w in coefficient.items():
+    ring, s_, c_ = sympy.polys.rings.ring("s, c", sympy.QQ)
+
+    def element(value):
+        poly = sympy.Poly(value, S, C, domain="QQ")  # raises for non-polynomial values
+        return ring.from_dict({m: v for m, v in poly.as_dict().items()})
+
+    x = 1 - 2 * s_
+    chebyshev = [ring.one, x]
+    top = max(h)
+    while len(chebyshev) <= top:
+        chebyshev.append(2 * x * chebyshev[-1] - chebyshev[-2])
+    total = element(h.get(0, 0))
+    for k, v in h.items():
+        if k > 0:
+            total += 2 * element(v) * chebyshev[k]
+    return total.as_expr(S, C)
+
+
+def _autocorrelation_fast(b: Laurent) -> Laurent:
+    """h_k = sum_m b_m b_(m-k) for k >= 0, in QQ[c] (raises when b is not polynomial in c)."""
+    polys = {m: sympy.Poly(v, C, domain="QQ") for m, v in b.items()}
+    h: Laurent = {}
+    for m, v in polys.items():
+        for n, w in polys.items():
             if m >= n:
-                h[m - n] = h.get(m - n, zero) + v * w
-    x = sympy.Poly(1 - 2 * S, *ring, domain="QQ")
-    previous, current = sympy.Poly(1, *ring, domain="QQ"), x
-    total = h.get(0, zero)
-    for k in range(1, max(h, default=0) + 1):
-        if k in h:
-            total += 2 * h[k] * current
-        previous, current = current, 2 * x * current - previous
-    return total.as_expr()
+                h[m - n] = h.get(m - n, 0) + v * w
+    return {k: v.as_expr() for k, v in h.items()}
 
 
 def _trim(poly: Laurent) -> Laurent:
@@ -212,20 +242,81 @@ def linear_coefficients(g: sympy.Expr) -> tuple[tuple[int, sympy.Expr], ...] | N
 class Linearisation:
     """The linear schemes standing for one Scheme, with what each means."""
 
-    smooth: tuple[LinearScheme, ...]   # the scheme itself, or its linearisations at r = 1
-    bounding: tuple[LinearScheme, ...] # limiter frozen at 0 and at psi(1); empty when linear
+    smooth: tuple[LinearScheme, ...]   # the scheme itself, or its linearisations
+    bounding: tuple[LinearScheme, ...] # limiter frozen at 0 and at psi(1); empty otherwise
     exact: bool                        # True when the scheme is itself linear
     note: str                          # how the linear schemes were obtained, or why none
     curved: tuple[str, ...] = ()       # limiters (or phi) with nonzero curvature at r = 1
+    source: str = "limiter"            # "scheme" (linear), "limiter" (at r = 1) or
+                                       # "linearisation" (Jacobian of a face without a limiter)
+    order_cap: int | None = None       # Jacobian linearisations: order claimed up to this
+    cap_note: str = ""                 # (0: no order claimed); why
+    where: str = ""                    # Jacobian linearisations: "a constant state",
+                                       # "smooth monotone data" or "a constant state,
+                                       # numerically"
+
+    @property
+    def basis(self) -> str:
+        """What the stability verdict of the linear schemes stands for, in words."""
+        if self.exact:
+            return "the scheme's own amplification factor"
+        if self.source == "linearisation":
+            return ("the linearisation of the nonlinear face (" + "; ".join(
+                ls.label for ls in self.smooth) + "); the interval is their common one")
+        return ("every linear scheme the limited scheme reduces to (linearised at r = 1 and "
+                "limiter frozen at 0 and at psi(1)); the interval is their common one")
 
 
 def linearise(scheme, face: sympy.Expr | None = None) -> Linearisation:
+    """Linear schemes for the face: itself when linear; for named limiters and faces of
+    the form q[0] + k(c) phi(r) (q[1] - q[0]), at r = 1 with bounding schemes; for any
+    other nonlinear face, its Jacobian (compiler/analysis/jacobian.py)."""
     g = scheme.bound(scheme.face if face is None else face)
     direct = linear_coefficients(g)
     if direct is not None:
         return Linearisation((LinearScheme("the scheme", scheme.time, direct),), (), True,
-                             "the face flux is linear in q")
+                             "the face flux is linear in q", source="scheme")
     calls = limiter_calls(g, scheme.limiter_names)
+    if not calls:
+        implicit = _linearise_upwind_form(scheme) if face is None else None
+        if implicit is not None:
+            return implicit
+        return _by_jacobian(scheme, g, "")
+    by_limiter = _linearise_limiters(scheme, g, calls)
+    if by_limiter.smooth:
+        return by_limiter
+    return _by_jacobian(scheme, scheme.expand_limiters(g), by_limiter.note)
+
+
+def _by_jacobian(scheme, g: sympy.Expr, before: str) -> Linearisation:
+    from .jacobian import jacobian_linearisation
+
+    found = jacobian_linearisation(g)
+    return _from_jacobian(scheme, found, before, "no linearisation was found: the face is "
+                          "undefined or unbounded at constant states and on smooth monotone data")
+
+
+def _from_jacobian(scheme, found, before: str, why_none: str) -> Linearisation:
+    prefix = f"{before}; " if before else ""
+    if found is None:
+        return Linearisation((), (), False, prefix + why_none, source="linearisation")
+    smooth = tuple(LinearScheme(label, scheme.time, coefficients)
+                   for label, coefficients in found.schemes)
+    return Linearisation(smooth, (), False, prefix + found.note, source="linearisation",
+                         order_cap=found.order_cap, cap_note=found.cap_note, where=found.where)
+
+
+def linearise_numerically(scheme) -> Linearisation:
+    """The budget's fallback: a numeric Jacobian at a constant state (faces free of c)."""
+    from .jacobian import numeric_linearisation
+
+    g = scheme.expand_limiters(scheme.bound(scheme.face))
+    return _from_jacobian(scheme, numeric_linearisation(g), "",
+                          "budget exceeded, and the numeric Jacobian was not found (the face "
+                          "depends on c, or is not differentiable at a constant state)")
+
+
+def _linearise_limiters(scheme, g: sympy.Expr, calls) -> Linearisation:
     smooth, bounding, notes = [], [], []
     # Smooth monotone data: r = 1 + O(dx); psi(r) ~ psi(1) + psi'(1) (r - 1).
     slopes = {}
@@ -267,12 +358,6 @@ def linearise(scheme, face: sympy.Expr | None = None) -> Linearisation:
         coefficients = linear_coefficients(frozen)
         if coefficients is not None:
             bounding.append(LinearScheme(label, scheme.time, coefficients))
-    if not calls:
-        implicit = _linearise_upwind_form(scheme)
-        if implicit is not None:
-            return implicit
-        notes.append("the face is nonlinear in q without a named limiter, and not of the "
-                     "form q[0] + k(c) phi(r) (q[1] - q[0])")
     note = "; ".join(notes) if notes else (
         "limiters linearised at r = 1 (value and slope) for smooth monotone data; "
         "bounding schemes with each limiter frozen at 0 and at psi(1)")

@@ -11,6 +11,7 @@ from pathlib import Path
 
 from fluxloom.compiler import LoomError
 from fluxloom.compiler.analysis import analyse
+from fluxloom.compiler.analysis.budget import DEFAULT_SECONDS
 
 from .common import add_set_option, add_spec_argument, scheme_from_args
 
@@ -29,6 +30,9 @@ def register(sub) -> None:
                         help="write PNG figures (|G|, stability map, phase speed, limiters) to DIR")
     parser.add_argument("--force", action="store_true",
                         help="overwrite existing figures in the --plots directory")
+    parser.add_argument("--budget", default=str(DEFAULT_SECONDS), metavar="SECONDS",
+                        help="CPU seconds each analysis pass may take before it falls back to "
+                             f"a numeric method or says undecided (default {DEFAULT_SECONDS:g})")
     parser.set_defaults(run=run)
 
 
@@ -42,10 +46,23 @@ def parse_courant(text: str) -> float:
     return value
 
 
+def parse_budget(text: str) -> float:
+    try:
+        value = float(text)
+    except ValueError:
+        raise LoomError(f"--budget expects a number of seconds, given '{text}'",
+                        file="--budget") from None
+    if not math.isfinite(value) or value <= 0:
+        raise LoomError(f"--budget must be a positive number of seconds, given '{text}'",
+                        file="--budget")
+    return value
+
+
 def run(args) -> int:
     courant = parse_courant(args.courant)
+    seconds = parse_budget(args.budget)
     scheme = scheme_from_args(args)
-    analysis = analyse(scheme, courant)
+    analysis = analyse(scheme, courant, seconds)
     doc = analysis.to_json()
     if args.plots:
         from fluxloom.runtime.analysis_plots import write_plots
@@ -137,7 +154,7 @@ def render(doc: dict) -> str:
 
     st = doc["stability"]
     out.append("")
-    out.append(f"stability     {st['kind']}" + (f" for c in {_interval(st)}" if st["kind"] == "conditional" else "")
+    out.append(f"stability     {st['kind'] or 'undecided'}" + (f" for c in {_interval(st)}" if st["kind"] == "conditional" else "")
                + _islands(st))
     for sch in st["schemes"]:
         if len(st["schemes"]) > 1 or sch.get("islands"):
@@ -226,6 +243,13 @@ def render(doc: dict) -> str:
     if doc["undecided"]:
         out.append("")
         out.append("undecided     " + "; ".join(doc["undecided"]))
+    over = doc.get("budget", {}).get("exceeded") or []
+    if over:
+        out.append("")
+        out.append(f"budget        {doc['budget']['seconds']:g} s of CPU time per pass "
+                   "(--budget); past it:")
+        for item in over:
+            out.append(f"  {item['pass']}: {item['note']}")
     if doc.get("plots"):
         out.append("")
         out.append("plots         " + ", ".join(doc["plots"]))
