@@ -19,13 +19,22 @@ from fluxloom.runtime.fuzz.outcome import classify
 
 
 def test_the_harness_calls_every_misbehaviour_an_escape():
-    probes = [b"sleep", b"exit", b"allocate", b"raise", b"unlocated", b"located", b"fine"]
-    summary = driver.run("probe", inputs=[("probe", p) for p in probes], timeout=3,
+    probes = [b"spin", b"exit", b"allocate", b"raise", b"unlocated", b"located", b"fine"]
+    summary = driver.run("probe", inputs=[("probe", p) for p in probes], timeout=2,
                          memory_mb=1024)
     by_index = {e.index: e.outcome for e in summary.escapes}
     assert by_index == {0: "timeout", 1: "crash", 2: "memory", 3: "internal", 4: "unlocated"}
+    assert "CPU time limit" in summary.escapes[0].why
     assert summary.outcomes["located"] == 1 and summary.outcomes["ok"] == 1
     assert summary.tried == len(probes) and summary.escaped == 5
+
+
+def test_a_silent_worker_is_killed_on_the_wall_clock():
+    # sleeping uses no CPU time: only the driver's wall-clock net catches it
+    summary = driver.run("probe", inputs=[("probe", b"sleep"), ("probe", b"fine")], timeout=5,
+                         wall=3)
+    assert [e.outcome for e in summary.escapes] == ["timeout"]
+    assert summary.outcomes["ok"] == 1
 
 
 def test_the_classifier_checks_the_quoted_line_and_the_caret():

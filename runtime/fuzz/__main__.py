@@ -26,7 +26,7 @@ def main(argv=None) -> int:
     parser.add_argument("--start", type=int, default=0, help="number of the first input")
     parser.add_argument("--jobs", type=int, default=1, help="worker processes (default 1)")
     parser.add_argument("--timeout", type=float, default=10.0,
-                        help="seconds per input before it counts as a hang (default 10)")
+                        help="CPU seconds per input before it counts as a hang (default 10)")
     parser.add_argument("--memory", type=int, default=1024,
                         help="address-space cap of a worker in MB (default 1024)")
     parser.add_argument("--nice", type=int, default=0, help="niceness of the workers")

@@ -64,12 +64,12 @@ class Summary:
 class Worker:
     """One worker process and the input it is working on."""
 
-    def __init__(self, stage: str, memory_mb: int, nice: int, workdir: Path):
+    def __init__(self, stage: str, memory_mb: int, nice: int, workdir: Path, cpu: float):
         env = dict(os.environ, OPENBLAS_NUM_THREADS="1", OMP_NUM_THREADS="1",
                    PYTHONHASHSEED="0")
         self.process = subprocess.Popen(
             [sys.executable, "-m", "fluxloom.runtime.fuzz.worker", "--stage", stage,
-             "--memory", str(memory_mb), "--workdir", str(workdir)],
+             "--memory", str(memory_mb), "--workdir", str(workdir), "--cpu", str(cpu)],
             stdin=subprocess.PIPE, stdout=subprocess.PIPE, stderr=subprocess.DEVNULL, env=env,
             start_new_session=True, preexec_fn=(lambda: os.nice(nice)) if nice else None)
         self.fd = self.process.stdout.fileno()
@@ -116,20 +116,25 @@ class Worker:
 
 def run(stage: str = "front", count: int = 1000, seed: int = 1, start: int = 0, jobs: int = 1,
         timeout: float = 10.0, memory_mb: int = 1024, nice: int = 0, save: Path | None = None,
-        progress=None, inputs=None) -> Summary:
-    """Run inputs start .. start+count-1 of `seed` (or the given (kind, bytes) list)."""
+        progress=None, inputs=None, wall: float | None = None) -> Summary:
+    """Run inputs start .. start+count-1 of `seed` (or the given (kind, bytes) list).
+
+    timeout is in CPU seconds per input; a worker silent for `wall` seconds of wall-clock
+    time (default max(60, 10 timeout)) is killed too.
+    """
     corpus = seed_corpus()
     if inputs is None:
         pending = ((start + i, *make_input(seed, start + i, corpus)) for i in range(count))
     else:
         pending = ((start + i, kind, data) for i, (kind, data) in enumerate(inputs))
     summary = Summary(stage, seed, start)
+    wall = wall or max(60.0, 10 * timeout)  # a safety net: the CPU limit is the real one
     began = time.monotonic()
     rundir = Path(tempfile.mkdtemp(prefix="fluxloom-fuzz-"))
     started = iter(range(1 << 62))
 
     def new_worker() -> Worker:
-        return Worker(stage, memory_mb, nice, rundir / f"worker-{next(started)}")
+        return Worker(stage, memory_mb, nice, rundir / f"worker-{next(started)}", timeout)
 
     workers = [new_worker() for _ in range(max(1, jobs))]
     exhausted = False
@@ -141,7 +146,7 @@ def run(stage: str = "front", count: int = 1000, seed: int = 1, start: int = 0, 
                     if item is None:
                         exhausted = True
                     else:
-                        worker.send(*item, timeout)
+                        worker.send(*item, wall)
             busy = [w for w in workers if w.job is not None or not w.ready]
             if exhausted and not any(w.job for w in workers):
                 break
@@ -156,7 +161,7 @@ def run(stage: str = "front", count: int = 1000, seed: int = 1, start: int = 0, 
                         status = worker.exit_status()
                         if not worker.ready:
                             raise RuntimeError(f"a fuzz worker failed to start (exit {status})")
-                        _record(summary, worker, status, "", 0.0, 0.0, save, crashed=True)
+                        _record(summary, worker, status, "", timeout, 0.0, save, crashed=True)
                         worker.kill()
                         workers[i] = new_worker()
                         continue
@@ -166,14 +171,14 @@ def run(stage: str = "front", count: int = 1000, seed: int = 1, start: int = 0, 
                         worker.ready, worker.path = True, answer["path"]
                         continue
                     _record(summary, worker, answer["exit"], answer["stderr"],
-                            answer["seconds"], answer["peak_rss_mb"], save)
+                            answer["cpu_seconds"], answer["peak_rss_mb"], save)
                     worker.job = None
                     if progress and summary.tried % 500 == 0:
                         progress(summary)
                 elif time.monotonic() >= worker.deadline:
                     if worker.job is None and not worker.ready:
                         raise RuntimeError("a fuzz worker did not start")
-                    _record(summary, worker, None, "", timeout, 0.0, save)
+                    _record(summary, worker, None, "", wall, 0.0, save)
                     worker.kill()
                     workers[i] = new_worker()
     finally:
@@ -190,7 +195,9 @@ def _record(summary: Summary, worker: Worker, status, stderr: str, seconds: floa
         return
     index, kind, data = worker.job
     outcome, why = classify(status, stderr, worker.path, data)
-    if crashed:
+    if crashed and status == 128 + signal.SIGXCPU:
+        outcome, why = "timeout", "past the CPU time limit (SIGXCPU)"
+    elif crashed:
         outcome, why = "crash", f"the worker died (exit status {status})"
     summary.tried += 1
     summary.outcomes[outcome] += 1

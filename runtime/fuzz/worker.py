@@ -5,8 +5,10 @@ It reads one JSON request per line on stdin ({"index", "data" in base64}), write
 input to a file, runs the stage as the command line would (exit status 0, 2 for bad
 input, 3 for an internal error), and answers one JSON line: the exit status, the
 first part of stderr, the seconds taken and the peak resident memory of that input.
-The address space is capped (RLIMIT_AS); the driver kills a worker that overruns
-its time limit and starts another.
+The address space is capped (RLIMIT_AS) and each input gets the CPU seconds given
+(RLIMIT_CPU: the kernel stops the worker with SIGXCPU past them), so the limits do
+not depend on how busy the machine is; the driver also kills a worker that gives
+no answer within a generous wall-clock time, and starts another.
 """
 from __future__ import annotations
 
@@ -15,6 +17,7 @@ import base64
 import contextlib
 import io
 import json
+import math
 import os
 import resource
 import sys
@@ -61,6 +64,18 @@ def _compile_python(outdir: Path) -> None:
         source.unlink()
 
 
+def _limit_cpu(seconds: float) -> None:
+    """Allow this input `seconds` of CPU time from now (whole seconds, rounded up)."""
+    if not seconds:
+        return
+    usage = resource.getrusage(resource.RUSAGE_SELF)
+    used = usage.ru_utime + usage.ru_stime
+    _, hard = resource.getrlimit(resource.RLIMIT_CPU)
+    soft = math.ceil(used + seconds)
+    resource.setrlimit(resource.RLIMIT_CPU, (soft, hard if hard == resource.RLIM_INFINITY
+                                             else max(soft, hard)))
+
+
 def _peak_rss_mb() -> float:
     with open("/proc/self/status", encoding="ascii") as status:
         for line in status:
@@ -75,7 +90,7 @@ def _reset_peak() -> None:
             refs.write("5")  # Linux: reset VmHWM to the current resident size
 
 
-def serve(stage: str, memory_mb: int, work: Path) -> None:
+def serve(stage: str, memory_mb: int, work: Path, cpu_seconds: float) -> None:
     # The protocol gets its own copy of stdout; fd 1 itself goes to /dev/null so that
     # nothing a stage prints (or a C compiler writes) can corrupt the answers.
     answers = os.fdopen(os.dup(1), "w", buffering=1, encoding="utf-8")
@@ -97,7 +112,8 @@ def serve(stage: str, memory_mb: int, work: Path) -> None:
         path.write_bytes(base64.b64decode(request["data"]))
         stderr = io.StringIO()
         _reset_peak()
-        start = time.perf_counter()
+        _limit_cpu(cpu_seconds)
+        start, cpu = time.perf_counter(), time.process_time()
         with contextlib.redirect_stdout(io.StringIO()), contextlib.redirect_stderr(stderr):
             try:
                 status = run_stage(stage, path, request["index"], outdir)
@@ -110,6 +126,7 @@ def serve(stage: str, memory_mb: int, work: Path) -> None:
             "index": request["index"], "exit": status,
             "stderr": stderr.getvalue()[:STDERR_KEPT],
             "seconds": round(time.perf_counter() - start, 4),
+            "cpu_seconds": round(time.process_time() - cpu, 4),
             "peak_rss_mb": round(_peak_rss_mb(), 1),
         }) + "\n")
 
@@ -118,13 +135,14 @@ def main(argv=None) -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--stage", choices=STAGES + ("probe",), default="front")
     parser.add_argument("--memory", type=int, default=1024, help="address-space cap in MB (0: none)")
+    parser.add_argument("--cpu", type=float, default=10.0, help="CPU seconds per input (0: none)")
     parser.add_argument("--workdir", type=Path, required=True,
                         help="a folder of this worker's own (inputs, outputs, build cache)")
     args = parser.parse_args(argv)
     if args.stage == "probe":
         global run_stage  # noqa: PLW0603 - the harness's own self-test stage
         run_stage = _probe
-    serve(args.stage, args.memory, args.workdir)
+    serve(args.stage, args.memory, args.workdir, args.cpu)
 
 
 def _probe(stage: str, path: Path, index: int, outdir: Path) -> int:
@@ -132,6 +150,9 @@ def _probe(stage: str, path: Path, index: int, outdir: Path) -> int:
     command = path.read_bytes().decode("utf-8", "replace").strip()
     if command == "sleep":
         time.sleep(3600)
+    if command == "spin":
+        while True:
+            pass
     if command == "exit":
         os._exit(7)
     if command == "allocate":
