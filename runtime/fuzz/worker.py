@@ -20,6 +20,7 @@ import json
 import math
 import os
 import resource
+import shutil
 import sys
 import time
 from pathlib import Path
@@ -35,6 +36,7 @@ def run_stage(stage: str, path: Path, index: int, outdir: Path) -> int:
     if stage == "check":
         return main(["check", str(path)] + (["--json"] if index % 2 else []))
     if stage == "build":
+        shutil.rmtree(outdir, ignore_errors=True)  # nothing left over from the last input
         status = main(["build", str(path), "-o", str(outdir), "--force"])
         if status == 0:
             _compile_python(outdir)
@@ -61,7 +63,6 @@ def _compile_python(outdir: Path) -> None:
     """The generated numpy module must at least be valid Python (it is not imported here)."""
     for source in outdir.glob("*.py"):
         compile(source.read_text("utf-8"), str(source), "exec")
-        source.unlink()
 
 
 def _limit_cpu(seconds: float) -> None:
