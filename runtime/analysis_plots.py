@@ -89,12 +89,46 @@ def limiter_figure(analysis, limiter, path: Path) -> Path:
     superbee = np.maximum(0, np.maximum(np.minimum(2 * r, 1), np.minimum(r, 2)))
     ax.fill_between(r[pos], minmod[pos], superbee[pos], color="0.7", label="second-order part")
     ax.plot(r, psi, color="C3", lw=1.6, label=f"{limiter.name}(r)")
+    _shade_failures(ax, analysis, limiter.name, r[0], r[-1])
     ax.set_xlabel("r")
     ax.set_ylabel("psi(r)")
     ax.set_ylim(-0.2, max(3.2, float(np.max(psi)) + 0.2))
     ax.set_title(f"{analysis.scheme.name}: limiter {limiter.name}", fontsize=9)
     ax.legend(fontsize=7, loc="upper left")
     return _save(fig, path)
+
+
+FAILURE_COLOURS = {"sweby_tvd": "tab:red", "second_order_region": "tab:orange"}
+
+
+def _shade_failures(ax, analysis, name: str, left: float, right: float) -> None:
+    """Shade the r where the limiter leaves Sweby's region (red) or its second-order part
+    (orange), as the analysis found them, and name the range in the legend."""
+    from fluxloom.compiler.analysis.wording import PROPERTY_LABELS, r_set_text
+
+    facts = next((f for f in analysis.limiters if f.name == name), None)
+    shaded = sympy.S.EmptySet
+    for failure in getattr(facts, "failures", ()):
+        colour = FAILURE_COLOURS.get(failure.property)
+        if colour is None:
+            continue
+        label = f"outside {PROPERTY_LABELS[failure.property]}: {r_set_text(failure.where)}"
+        where = sympy.Complement(failure.where, shaded)   # each r shaded once
+        shaded = sympy.Union(shaded, failure.where)
+        if where.is_empty:
+            ax.plot([], [], color=colour, label=label.replace(": ", " (as above): ", 1))
+            continue
+        pieces = where.args if isinstance(where, sympy.Union) else (where,)
+        for piece in pieces:
+            lo = max(left, float(piece.inf)) if piece.inf != -sympy.oo else left
+            hi = min(right, float(piece.sup)) if piece.sup != sympy.oo else right
+            if hi < lo:
+                continue
+            if hi == lo:
+                ax.axvline(lo, color=colour, lw=1.0, ls="--", label=label)
+            else:
+                ax.axvspan(lo, hi, color=colour, alpha=0.15, label=label)
+            label = None
 
 
 def write_plots(analysis, directory: Path, force: bool = False) -> list[Path]:

@@ -8,6 +8,7 @@ import argparse
 import importlib
 import os
 import sys
+import warnings
 from importlib import metadata
 
 from fluxloom.compiler import LoomError
@@ -55,7 +56,12 @@ def main(argv=None) -> int:
         parser.print_help()
         return EXIT_BAD_INPUT
     try:
-        status = args.run(args)
+        with warnings.catch_warnings():
+            # Library warnings (sympy, numpy round-off) are not the user's business;
+            # FLUXLOOM_DEBUG=1 shows them.
+            if not os.environ.get("FLUXLOOM_DEBUG"):
+                warnings.simplefilter("ignore")
+            status = args.run(args)
     except LoomError as err:
         print(err.render(), file=sys.stderr)
         return EXIT_BAD_INPUT

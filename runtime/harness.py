@@ -1,9 +1,12 @@
 """Measure a kernel on a periodic domain: convergence, boundedness, total variation,
 conservation and stability.
 
-Everything here measures; nothing here predicts. runtime/findings.py holds each
-measurement against the analysis. A run that blows up (NaN, Inf, or growth past
-DIVERGENCE_FACTOR times the initial maximum) stops at that step and says so.
+Everything here measures; nothing here predicts. runtime/rules.py holds each
+measurement against the analysis. A run that blows up (growth past
+DIVERGENCE_FACTOR times the initial maximum, or an overflow to Inf/NaN at a
+Courant number where one step can overflow) stops at that step and says so: it
+diverged. A NaN or Inf from finite data where one step cannot overflow is a
+kernel fault, reported as such (`fault_at`), never as divergence.
 """
 from __future__ import annotations
 
@@ -13,6 +16,8 @@ from typing import Callable
 
 import numpy as np
 
+from fluxloom.compiler import LoomError
+
 from .kernel import fill_periodic, periodic_faces
 from .norms import NORMS, Errors, errors, fitted_order, pair_orders
 from .profiles import Profile, face_positions
@@ -20,6 +25,10 @@ from .profiles import Profile, face_positions
 DIVERGENCE_FACTOR = 1e6
 CONVERGENCE_CELLS = tuple(25 * 2 ** k for k in range(6))  # 25 .. 800
 ROUND_OFF_FLOOR = 200.0  # errors below this many eps * sqrt(steps) are round-off, not order
+MAX_STEPS = 100_000      # steps of one run: caps the work of tiny Courant numbers
+MAX_CELLS = 1_000_000    # cells of one run
+OVERFLOW_DEGREE = 8      # one step multiplies values by at most ~(1 + 4c)^8 (RK4 on a
+OVERFLOW_REACH = 4       # three-point face is degree 4 in c; twice that for slack)
 
 
 # ---- stepping ----------------------------------------------------------------
@@ -28,7 +37,36 @@ ROUND_OFF_FLOOR = 200.0  # errors below this many eps * sqrt(steps) are round-of
 class Run:
     q: np.ndarray              # interior after the last completed step
     steps: int                 # steps completed
-    diverged_at: int | None    # the step that produced NaN, Inf or growth past the limit
+    diverged_at: int | None    # the step that grew past the limit (or overflowed)
+    fault_at: int | None = None  # the step that made NaN/Inf from finite data: a kernel fault
+
+    @property
+    def stopped_at(self) -> int | None:
+        return self.diverged_at if self.diverged_at is not None else self.fault_at
+
+
+def check_run_size(cells: int, courant: float, what: str = "--courant") -> None:
+    """Refuse runs whose work would be unbounded: one revolution on `cells` cells at
+    `courant` takes cells / courant steps."""
+    if cells > MAX_CELLS:
+        raise LoomError(f"{cells} cells is more than the {MAX_CELLS} a measuring run takes",
+                        file=what)
+    steps = revolution_steps(cells, courant)
+    if steps > MAX_STEPS:
+        raise LoomError(f"c = {courant:g} needs {steps} steps for one revolution on {cells} "
+                        f"cells; a measuring run is capped at {MAX_STEPS} steps, so the smallest "
+                        f"Courant number measured on {cells} cells is {cells / MAX_STEPS:g}",
+                        file=what)
+
+
+def overflow_possible(scale: float, courant: float, dtype) -> bool:
+    """Whether one step from data of size `scale` may overflow at this Courant number.
+
+    A step multiplies values by at most a polynomial in c of modest degree, so below
+    this bound an Inf or NaN cannot come from the arithmetic of a correct kernel."""
+    top = math.log10(float(np.finfo(dtype).max))
+    size = math.log10(max(scale, float(np.finfo(dtype).tiny)))
+    return size + OVERFLOW_DEGREE * math.log10(1 + OVERFLOW_REACH * courant) >= top - 1
 
 
 def constant_velocity(n: int, velocity: float) -> np.ndarray:
@@ -51,13 +89,19 @@ def advance(kernel, q0: np.ndarray, u_face: np.ndarray, dt_dx: float, steps: int
     u_face = periodic_faces(np.ascontiguousarray(u_face, dtype=kernel.dtype),
                             getattr(kernel, "face_halo", 0))
     limit = DIVERGENCE_FACTOR * max(float(np.max(np.abs(q0))), np.finfo(float).tiny)
+    courant = float(np.max(np.abs(u_face))) * dt_dx if u_face.size else 0.0
     with np.errstate(all="ignore"):  # overflow is a finding, reported below
         for step in range(1, steps + 1):
             fill_periodic(current, halo)
             kernel.step(current, u_face, dt_dx, out=spare)
             interior = spare[halo:halo + n]
-            if not float(np.max(np.abs(interior))) <= limit:  # also catches NaN
-                return Run(current[halo:halo + n].astype(float), step - 1, step)
+            size = float(np.max(np.abs(interior)))
+            if not size <= limit:  # also catches NaN
+                before = current[halo:halo + n]
+                if math.isfinite(size) or overflow_possible(float(np.max(np.abs(before))),
+                                                            courant, kernel.dtype):
+                    return Run(before.astype(float), step - 1, step)
+                return Run(before.astype(float), step - 1, None, step)
             if watch is not None:
                 watch(step, interior)
             current, spare = spare, current
@@ -76,11 +120,12 @@ class ConvergenceRow:
     n: int
     steps: int
     courant: float
-    errors: Errors | None      # None when the run diverged
+    errors: Errors | None      # None when the run diverged or the kernel faulted
     diverged_at: int | None
     final: np.ndarray = field(repr=False, compare=False, default=None)   # the last state
     exact: np.ndarray = field(repr=False, compare=False, default=None)
     resolved: bool = True      # the error stands clear of accumulated round-off
+    fault_at: int | None = None  # NaN/Inf from finite data (a kernel fault)
 
 
 @dataclass(frozen=True)
@@ -103,10 +148,22 @@ class Convergence:
     def diverged(self) -> list[ConvergenceRow]:
         return [row for row in self.rows if row.diverged_at is not None]
 
+    @property
+    def faults(self) -> list[ConvergenceRow]:
+        return [row for row in self.rows if row.fault_at is not None]
+
 
 def revolution_steps(n: int, courant: float) -> int:
-    """Steps for one full revolution at (as nearly as an integer count allows) Courant `courant`."""
+    """Steps for one full revolution at (as nearly as an integer count allows) Courant `courant`;
+    one step when a single step at `courant` already goes round (courant >= n)."""
     return max(1, math.ceil(n / courant - 1e-9))
+
+
+def run_courant(n: int, courant: float) -> float:
+    """The Courant number a revolution run uses: n / steps, or `courant` itself when one
+    step goes round at least once (a huge Courant number is run as it is)."""
+    steps = revolution_steps(n, courant)
+    return courant if steps == 1 else n / steps
 
 
 def convergence(kernel, profile: Profile, courant: float, velocity: float = 1.0,
@@ -115,15 +172,17 @@ def convergence(kernel, profile: Profile, courant: float, velocity: float = 1.0,
     rows = []
     for n in cells:
         steps = revolution_steps(n, courant)
-        dt_dx = n / steps / abs(velocity)       # velocity * steps * dt_dx / n = one period
+        used = run_courant(n, courant)
+        dt_dx = used / abs(velocity)            # velocity * steps * dt_dx / n = one period
         q0 = profile.cell_averages(n)
         run = advance(kernel, q0, constant_velocity(n, velocity), dt_dx, steps)
-        exact = profile.cell_averages(n, shift=velocity * steps * dt_dx / n)
-        errs = errors(run.q, exact) if run.diverged_at is None else None
+        exact = profile.cell_averages(n, shift=math.fmod(velocity * steps * dt_dx / n, 1.0))
+        errs = errors(run.q, exact) if run.stopped_at is None else None
         # round-off accumulates like a random walk over the steps
         floor = ROUND_OFF_FLOOR * round_off(kernel) * math.sqrt(steps)
-        rows.append(ConvergenceRow(profile.name, n, steps, n / steps, errs, run.diverged_at,
-                                   run.q, exact, errs is not None and errs.l1 > floor))
+        rows.append(ConvergenceRow(profile.name, n, steps, used, errs, run.diverged_at,
+                                   run.q, exact, errs is not None and errs.l1 > floor,
+                                   run.fault_at))
     ns = [row.n for row in rows]
     per_norm = {norm: [row.errors.get(norm) if row.errors else float("nan") for row in rows]
                 for norm in NORMS}
@@ -171,6 +230,11 @@ class Shape:
     diverged_at: int | None
     final: np.ndarray = field(repr=False, compare=False, default=None)
     exact: np.ndarray = field(repr=False, compare=False, default=None)  # at the final step
+    fault_at: int | None = None
+
+    @property
+    def stopped_at(self) -> int | None:
+        return self.diverged_at if self.diverged_at is not None else self.fault_at
 
 
 class _ShapeWatch:
@@ -223,7 +287,9 @@ def shape(kernel, profile: Profile, courant: float, velocity: float = 1.0, n: in
                  watch.new_extrema, watch.first_extremum,
                  watch.tv_steps, watch.tv_increase, watch.first_tv,
                  relative_drift(q0, run.q), run.diverged_at, run.q,
-                 profile.cell_averages(n, shift=velocity * run.steps * courant / abs(velocity) / n))
+                 profile.cell_averages(n, shift=math.fmod(velocity * run.steps * courant
+                                                          / abs(velocity) / n, 1.0)),
+                 run.fault_at)
 
 
 # ---- conservation ------------------------------------------------------------------
@@ -242,6 +308,7 @@ class Conservation:
     steps: int
     mass_drift: float
     diverged_at: int | None
+    fault_at: int | None = None
 
 
 def conservation(kernel, profile: Profile, courant: float, velocity: str = "varying",
@@ -253,22 +320,37 @@ def conservation(kernel, profile: Profile, courant: float, velocity: str = "vary
     q0 = profile.cell_averages(n)
     run = advance(kernel, q0, u_face, dt_dx, steps)
     return Conservation(velocity, profile.name, n, run.steps, relative_drift(q0, run.q),
-                        run.diverged_at)
+                        run.diverged_at, run.fault_at)
 
 
 # ---- symmetry under a change of velocity sign ---------------------------------------
 
-def mirror_mismatch(kernel, profile: Profile, courant: float, n: int = 64,
-                    steps: int = 40) -> float:
-    """Carry a profile right, and its mirror image left; the results should mirror.
+@dataclass(frozen=True)
+class Mirror:
+    mismatch: float            # largest difference relative to the profile's scale (nan: unknown)
+    diverged_at: int | None    # both runs stopped at this step (they diverged alike)
+    fault_at: int | None = None
 
-    Returns the largest difference relative to the profile's scale."""
+
+def mirror_run(kernel, profile: Profile, courant: float, n: int = 64, steps: int = 40) -> Mirror:
+    """Carry a profile right, and its mirror image left; the results should mirror."""
     q0 = profile.cell_averages(n)
     right = advance(kernel, q0, constant_velocity(n, 1.0), courant, steps)
     left = advance(kernel, q0[::-1].copy(), constant_velocity(n, -1.0), courant, steps)
+    fault = right.fault_at if right.fault_at is not None else left.fault_at
+    if fault is not None:
+        return Mirror(float("nan"), None, fault)
     if right.diverged_at is not None or left.diverged_at is not None:
-        return float("nan") if right.diverged_at != left.diverged_at else 0.0
-    return float(np.max(np.abs(right.q - left.q[::-1])) / max(np.max(np.abs(q0)), 1e-300))
+        alike = right.diverged_at == left.diverged_at
+        return Mirror(0.0 if alike else float("nan"), right.diverged_at or left.diverged_at)
+    scale = max(float(np.max(np.abs(q0))), 1e-300)
+    return Mirror(float(np.max(np.abs(right.q - left.q[::-1]))) / scale, None)
+
+
+def mirror_mismatch(kernel, profile: Profile, courant: float, n: int = 64,
+                    steps: int = 40) -> float:
+    """The largest difference between a run and its mirror image, relative to the scale."""
+    return mirror_run(kernel, profile, courant, n, steps).mismatch
 
 
 # ---- stability sweep ------------------------------------------------------------
@@ -279,22 +361,34 @@ class Probe:
     growth: float            # linear: max |G| over the grid's modes; else l2 growth, 2nd half
     diverged_at: int | None
     grows: bool
+    fault: bool = False      # the kernel made NaN/Inf from finite data here
 
 
 @dataclass(frozen=True)
 class Stability:
     method: str                  # "spectral" (linear schemes) or "growth" (nonlinear)
-    probes: tuple[Probe, ...]
-    measured_max: float | None   # edge of the stable interval nearest 0; None if none found
+    probes: tuple[Probe, ...]    # sorted by Courant number
+    measured: tuple[tuple[float, float], ...]  # runs of stable probes, edges bisected
+    measured_max: float | None   # upper edge of the stable run at the smallest c tried
     unstable_everywhere: bool    # grew at every Courant number tried
     stable_everywhere: bool      # grew at none of them
+    tried_min: float
     tried_max: float
     resolution: float
+
+    @property
+    def faults(self) -> tuple[Probe, ...]:
+        return tuple(p for p in self.probes if p.fault)
+
+    def probe_at(self, c: float) -> Probe | None:
+        return next((p for p in self.probes if p.courant == c), None)
 
 
 GROWTH_FACTOR = 2.0    # over the second half of a growth probe
 TOTAL_GROWTH = 100.0   # over the whole probe
 SPECTRAL_TOL = 1e4     # |G| above 1 by more than this many eps is growth, not round-off
+SPECTRAL_RESOLUTION = 0.001
+GROWTH_RESOLUTION = 0.005
 
 
 def spectral_probe(kernel, courant: float, velocity: float = 1.0, n: int = 256,
@@ -310,6 +404,8 @@ def spectral_probe(kernel, courant: float, velocity: float = 1.0, n: int = 256,
     noise -= noise.mean()
     q0 = centre + amplitude * noise
     run = advance(kernel, q0, constant_velocity(n, velocity), courant / abs(velocity), 1)
+    if run.fault_at is not None:
+        return Probe(courant, math.nan, None, False, True)
     if run.diverged_at is not None:
         return Probe(courant, math.inf, run.diverged_at, True)
     before = np.fft.rfft(q0 - centre)[1:]     # the mean is conserved, not amplified
@@ -333,9 +429,13 @@ def growth_probe(kernel, courant: float, velocity: float = 1.0, n: int = 64,
     u_face = constant_velocity(n, velocity)
     dt_dx = courant / abs(velocity)
     half = advance(kernel, q0, u_face, dt_dx, steps // 2)
+    if half.fault_at is not None:
+        return Probe(courant, math.nan, None, False, True)
     if half.diverged_at is not None:
         return Probe(courant, math.inf, half.diverged_at, True)
     rest = advance(kernel, half.q, u_face, dt_dx, steps - steps // 2)
+    if rest.fault_at is not None:
+        return Probe(courant, math.nan, None, False, True)
     if rest.diverged_at is not None:
         return Probe(courant, math.inf, half.steps + rest.diverged_at, True)
     start = float(np.linalg.norm(q0 - centre))
@@ -347,49 +447,74 @@ def growth_probe(kernel, courant: float, velocity: float = 1.0, n: int = 64,
     return Probe(courant, growth, None, growth > GROWTH_FACTOR or overall > TOTAL_GROWTH)
 
 
-def stability_sweep(kernel, velocity: float = 1.0, predicted_max: float | None = None,
-                    linear: bool = False, clip: tuple[float, float] | None = None,
-                    step: float = 0.25, amplitude: float | None = None) -> Stability:
-    """Walk up in Courant number until the scheme grows, then bisect the edge.
+def stability_sweep(kernel, courants, velocity: float = 1.0, linear: bool = False,
+                    clip: tuple[float, float] | None = None,
+                    amplitude: float | None = None) -> Stability:
+    """Probe every Courant number in `courants`, then bisect each change between
+    neighbouring ones (stable to growing or back) to locate the edges.
 
-    Linear schemes (`linear`, possibly under a `clip`) are probed spectrally, others
-    by growth over many steps. An unstable scheme is tried at every grid point, to
-    show it grows at each one. `amplitude` sets the size of the random data: a
-    nonlinear face linearised at a constant state acts as its linearisation on
-    data small enough (its weights at their ideal values), so it is probed there."""
+    The caller picks the Courant numbers (runtime/prediction.py covers the predicted
+    set, its complement and its islands). Linear schemes (`linear`, possibly under a
+    `clip`) are probed spectrally, others by growth over many steps. `amplitude` sets
+    the size of the random data: a nonlinear face linearised at a constant state acts
+    as its linearisation on data small enough (its weights at their ideal values), so
+    it is probed there."""
     # a clamped scheme is probed well inside its range, where the clamp stays idle
     centre, size = ((clip[0] + clip[1]) / 2, (clip[1] - clip[0]) * 1e-3) if clip else (0.0, 1.0)
     amplitude = size if amplitude is None else amplitude
     if linear:
         def measure(c):
             return spectral_probe(kernel, c, velocity, centre=centre, amplitude=amplitude)
-        method, resolution = "spectral", 0.001
+        method, resolution = "spectral", SPECTRAL_RESOLUTION
     else:
         def measure(c):
             return growth_probe(kernel, c, velocity, centre=centre, amplitude=amplitude)
-        method, resolution = "growth", 0.005
-    top = max(1.5, 1.25 * predicted_max + 0.25) if predicted_max else 1.5
-    grid = [step * k for k in range(1, int(round(top / step)) + 1)]
-    probes = []
-    stable_below = first_unstable = None
-    for c in grid:
-        result = measure(c)
-        probes.append(result)
-        if result.grows:
-            first_unstable = c
-            break
-        stable_below = c
-    if first_unstable is not None and stable_below is None:
-        probes += [measure(c) for c in grid[1:]]
-        everywhere = all(p.grows for p in probes)
-        return Stability(method, tuple(probes), None, everywhere, False, grid[-1], resolution)
-    if first_unstable is None:
-        return Stability(method, tuple(probes), None, False, True, grid[-1], resolution)
-    low, high = stable_below, first_unstable
-    while high - low > resolution:
-        mid = (low + high) / 2
-        result = measure(mid)
-        probes.append(result)
-        low, high = (low, mid) if result.grows else (mid, high)
-    return Stability(method, tuple(sorted(probes, key=lambda p: p.courant)), (low + high) / 2,
-                     False, False, grid[-1], resolution)
+        method, resolution = "growth", GROWTH_RESOLUTION
+    grid = sorted({float(c) for c in courants if c > 0})
+    if not grid:
+        raise ValueError("stability_sweep needs at least one positive Courant number")
+    probes = {c: measure(c) for c in grid}
+    # bisect every change between neighbours (faults are not a side of an edge)
+    for low, high in zip(grid, grid[1:]):
+        a, b = probes[low], probes[high]
+        if a.fault or b.fault or a.grows == b.grows:
+            continue
+        while high - low > resolution:
+            mid = (low + high) / 2
+            probes[mid] = result = measure(mid)
+            if result.fault:
+                break
+            if result.grows == a.grows:
+                low = mid
+            else:
+                high = mid
+    ordered = tuple(probes[c] for c in sorted(probes))
+    measured = _stable_runs(ordered, resolution)
+    first_stable = not ordered[0].grows and not ordered[0].fault
+    measured_max = measured[0][1] if measured and first_stable else None
+    judged = [p for p in ordered if not p.fault]
+    return Stability(method, ordered, measured, measured_max,
+                     bool(judged) and all(p.grows for p in judged),
+                     bool(judged) and not any(p.grows for p in judged),
+                     grid[0], grid[-1], resolution)
+
+
+def _stable_runs(probes, resolution: float) -> tuple[tuple[float, float], ...]:
+    """Runs of consecutive stable probes as (low, high); each end halfway to the
+    neighbouring growing probe when that is within the resolution (a bisected edge)."""
+    runs = []
+    start = None
+    for i, p in enumerate(probes):
+        stable = not p.grows and not p.fault
+        if stable and start is None:
+            start = i
+        if start is not None and (not stable or i == len(probes) - 1):
+            end = i if stable else i - 1
+            lo, hi = probes[start].courant, probes[end].courant
+            if start > 0 and lo - probes[start - 1].courant <= resolution:
+                lo = (lo + probes[start - 1].courant) / 2
+            if end < len(probes) - 1 and probes[end + 1].courant - hi <= resolution:
+                hi = (hi + probes[end + 1].courant) / 2
+            runs.append((0.0 if start == 0 else lo, hi))
+            start = None
+    return tuple(runs)

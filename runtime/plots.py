@@ -94,7 +94,8 @@ def profiles_figure(verification, path: Path) -> Path:
 
 
 def stability_figure(verification, path: Path) -> Path:
-    """Measured growth over Courant numbers, with the predicted and measured limits."""
+    """Measured growth over Courant numbers, with the predicted stable set (islands
+    included) and the measured one."""
     st = verification.stability
     pred = verification.prediction
     fig, ax = plt.subplots(figsize=(6.4, 4.0))
@@ -102,20 +103,29 @@ def stability_figure(verification, path: Path) -> Path:
     growth = np.array([p.growth if math.isfinite(p.growth) else np.nan for p in st.probes])
     diverged = np.array([not math.isfinite(p.growth) for p in st.probes])
     stable = ~np.array([p.grows for p in st.probes])
-    ax.scatter(cs[stable], growth[stable], color="tab:green", label="stable", zorder=3)
-    ax.scatter(cs[~stable & ~diverged], growth[~stable & ~diverged], color="tab:red",
+    ok = stable & ~diverged
+    ax.scatter(cs[ok], growth[ok], color="tab:green", s=12, label="stable", zorder=3)
+    ax.scatter(cs[~stable & ~diverged], growth[~stable & ~diverged], color="tab:red", s=12,
                label="grows", zorder=3)
     if diverged.any():
         top = np.nanmax(growth) if np.isfinite(growth).any() else 2.0
         ax.scatter(cs[diverged], np.full(diverged.sum(), top * 1.2), color="tab:red",
-                   marker="x", label="diverged", zorder=3)
-    if pred.stability_kind != "unstable" and pred.stable_max is not None:
-        ax.axvspan(pred.stable_min or 0.0, pred.stable_max, color="tab:green", alpha=0.08,
-                   label="predicted stable")
-        ax.axvline(pred.stable_max, color="tab:green", linestyle="--", linewidth=1)
-    if st.measured_max is not None:
-        ax.axvline(st.measured_max, color="k", linestyle=":", linewidth=1, label="measured limit")
+                   marker="x", label="diverged or fault", zorder=3)
+    right = float(cs.max()) * 1.02
+    first = True
+    for part in pred.stable_set.parts if pred.stability_decided else ():
+        hi = min(part.hi, right)
+        if part.is_point:
+            ax.axvline(part.lo, color="tab:green", linestyle="--", linewidth=1,
+                       label="predicted stable" if first else None)
+        else:
+            ax.axvspan(part.lo, hi, color="tab:green", alpha=0.1,
+                       label="predicted stable" if first else None)
+        first = False
+    for i, (lo, hi) in enumerate(st.measured):
+        ax.hlines(1.0, lo, hi, color="k", linewidth=2.5, label="measured stable" if i == 0 else None)
     ax.set_yscale("log")
+    ax.set_xlim(0, right)
     ax.set_xlabel("Courant number c")
     ax.set_ylabel("max |G| over modes" if st.method == "spectral" else "l2 growth, 2nd half")
     ax.set_title(f"{verification.scheme}: stability, predicted vs measured")

@@ -12,8 +12,12 @@ from pathlib import Path
 
 from fluxloom.compiler import LoomError
 
+import numpy as np
+
+from fluxloom.compiler.analysis.wording import set_text, stability_text
+
 from . import plots
-from .findings import AGREE, Verification, verification_json
+from .findings import AGREE, DISAGREE, FAULT, NO_CLAIM, Verification
 
 MARKER = "written by fluxloom"
 
@@ -118,7 +122,8 @@ def convergence_rows(v: Verification):
             rows.append([row.profile, row.n, row.steps,
                          e.l1 if e else None, e.l2 if e else None, e.linf if e else None,
                          orders["l1"][i], orders["l2"][i], orders["linf"][i],
-                         f"diverged at step {row.diverged_at}" if row.diverged_at else ""])
+                         f"diverged at step {row.diverged_at}" if row.diverged_at else
+                         f"kernel fault at step {row.fault_at}" if row.fault_at else ""])
         rows.append([conv.profile, "fit", "", None, None, None,
                      conv.fitted["l1"], conv.fitted["l2"], conv.fitted["linf"], ""])
     return rows
@@ -129,9 +134,11 @@ CONVERGENCE_HEADERS = ["profile", "N", "steps", "l1", "l2", "linf",
 FINDING_HEADERS = ["verdict", "check", "where", "predicted", "measured"]
 
 
+MARKS = {AGREE: "agree", DISAGREE: "DISAGREE", NO_CLAIM: "no claim", FAULT: "FAULT"}
+
+
 def finding_rows(v: Verification):
-    return [[f.verdict.upper() if f.verdict != AGREE else f.verdict, f.check, f.context,
-             f.predicted, f.measured] for f in v.findings]
+    return [[MARKS[f.verdict], f.check, f.context, f.predicted, f.measured] for f in v.findings]
 
 
 def _headline(v: Verification) -> str:
@@ -141,12 +148,27 @@ def _headline(v: Verification) -> str:
 
 
 def _summary(v: Verification) -> str:
-    bad = v.disagreements
     total = len(v.findings)
-    if not bad:
-        return f"all {total} findings agree with the analysis"
-    return (f"{len(bad)} of {total} findings DISAGREE with the analysis: "
-            + ", ".join(f"{f.check} ({f.context.split(',')[0]})" for f in bad))
+    unclaimed = sum(f.verdict == NO_CLAIM for f in v.findings)
+    faults = v.faults
+    wrong = [f for f in v.findings if f.verdict == DISAGREE]
+    if not wrong and not faults:
+        text = f"all {total} findings agree with the analysis"
+        if unclaimed:
+            text += f" ({unclaimed} of them where it claims nothing)"
+        return text
+    parts = []
+    if faults:
+        parts.append(f"{len(faults)} of {total} findings hit a KERNEL FAULT (NaN or Inf from "
+                     "finite data): " + ", ".join(_where(f) for f in faults))
+    if wrong:
+        parts.append(f"{len(wrong)} of {total} findings DISAGREE with the analysis: "
+                     + ", ".join(_where(f) for f in wrong))
+    return "; ".join(parts)
+
+
+def _where(f) -> str:
+    return f"{f.check} ({f.context.split(',')[0]})"
 
 
 def verification_text(v: Verification) -> str:
@@ -156,8 +178,7 @@ def verification_text(v: Verification) -> str:
              table(CONVERGENCE_HEADERS, convergence_rows(v)), "",
              "Findings (predicted by the analysis vs measured on the kernel)"]
     for f in v.findings:
-        mark = "agree   " if f.verdict == AGREE else "DISAGREE"
-        parts.append(f"  [{mark}] {f.check:<12} {f.context}")
+        parts.append(f"  [{MARKS[f.verdict]:<8}] {f.check:<12} {f.context}")
         parts.append(f"             predicted: {f.predicted}")
         parts.append(f"             measured:  {f.measured}")
     parts += ["", _summary(v)]
@@ -174,6 +195,68 @@ def verification_markdown(v: Verification, figures: dict[str, str]) -> str:
     for caption, name in figures.items():
         parts += [f"![{caption}]({name})", ""]
     return "\n".join(parts)
+
+
+# ---- the JSON document of `fluxloom verify --json` -------------------------------------
+
+def json_safe(x):
+    if isinstance(x, float) and not math.isfinite(x):
+        return None
+    if isinstance(x, dict):
+        return {k: json_safe(v) for k, v in x.items()}
+    if isinstance(x, (list, tuple)):
+        return [json_safe(v) for v in x]
+    if isinstance(x, np.generic):
+        return json_safe(x.item())
+    return x
+
+
+def verification_json(v: Verification) -> dict:
+    sine = v.convergence[0]
+    drifts = [c.mass_drift for c in v.conservation]
+    claims = v.prediction.claims
+    main = next((p for p in claims.stability.stable.parts if not p.is_point), None)
+    st = v.stability
+    doc = {
+        "scheme": v.scheme,
+        "backend": v.backend,
+        "precision": v.precision,
+        "courant": v.options.courant,
+        "velocity": v.options.velocity,
+        "convergence": [
+            {"profile": row.profile, "n": row.n, "steps": row.steps, "courant": row.courant,
+             "l1": row.errors.l1 if row.errors else None,
+             "l2": row.errors.l2 if row.errors else None,
+             "linf": row.errors.linf if row.errors else None,
+             "diverged_at": row.diverged_at, "fault_at": row.fault_at}
+            for conv in v.convergence for row in conv.rows],
+        "observed_order": dict(sine.finest_order),
+        "fitted_order": dict(sine.fitted),
+        "observed_order_by_profile": {conv.profile: dict(conv.finest_order) for conv in v.convergence},
+        "predicted_order": v.prediction.order,
+        "bounded": all(sh.bounded and sh.stopped_at is None for sh in v.shapes),
+        "new_extrema": max(sh.new_extrema for sh in v.shapes),
+        "tv_increase": max(sh.tv_increase for sh in v.shapes),
+        "mass_drift": max(drifts),
+        "mass_drift_by_velocity": {c.velocity: c.mass_drift for c in v.conservation},
+        "mirror_mismatch": v.mirror,
+        "stability": {
+            "predicted_kind": claims.stability.kind,
+            "predicted": stability_text(claims.stability),
+            "predicted_set": set_text(claims.stability.stable) if claims.stability.decided else None,
+            "predicted_min": main.lo if main else None,
+            "predicted_max": main.hi if main else None,
+            "measured_set": [list(r) for r in st.measured] if st else None,
+            "measured_max": st.measured_max if st else None,
+            "unstable_everywhere": st.unstable_everywhere if st else None,
+            "method": st.method if st else None,
+            "courants_tried": len(st.probes) if st else None,
+        },
+        "kernel_faults": [f.to_json() for f in v.faults],
+        "findings": [f.to_json() for f in v.findings],
+        "agree": v.agree,
+    }
+    return json_safe(doc)
 
 
 def write_verification(v: Verification, directory: Path, force: bool = False) -> list[Path]:

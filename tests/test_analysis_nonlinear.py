@@ -293,30 +293,38 @@ def test_level_dependent_face_claims_no_order():
 # ---- verify holds the linearised prediction, and catches wrong ones --------------------
 
 def test_verify_measures_the_linearisation_and_rejects_wrong_claims():
-    import dataclasses
+    import copy
 
     from fluxloom.runtime import harness, profiles
-    from fluxloom.runtime.findings import (AGREE, DISAGREE, SMALL_DATA, Prediction,
-                                           _convergence_finding, _stability_finding)
+    from fluxloom.runtime.findings import AGREE, DISAGREE, Prediction
     from fluxloom.runtime.kernel import load_kernel
+    from fluxloom.runtime.rules import convergence_finding, stability_finding
 
     scheme = load_scheme(EXAMPLES / "weno5_rk3.loom")
     kernel = load_kernel(scheme, "numpy")
-    right = Prediction.from_analysis(analyse(scheme).to_json(), scheme)
-    assert right.linearised_at == "a constant state" and right.order == 3
+    doc = analyse(scheme).to_json()
+    right = Prediction.from_document(doc)
+    assert right.linearised_at_constant_state and right.order == 3
+    assert right.spectral and right.probe_amplitude == 1e-30
     # stability: small random data about a constant state see the linearisation
-    sweep = harness.stability_sweep(kernel, 1.0, right.stable_max_any, linear=True,
-                                    amplitude=SMALL_DATA)
-    assert _stability_finding(sweep, right).verdict == AGREE
-    too_wide = dataclasses.replace(right, stable_max=right.stable_max + 0.1,
-                                   stable_max_any=right.stable_max + 0.1,
-                                   stable_spans=((0.0, right.stable_max + 0.1),))
-    assert _stability_finding(sweep, too_wide).verdict == DISAGREE
+    sweep = harness.stability_sweep(kernel, right.probe_courants(spectral=True), 1.0,
+                                    linear=True, amplitude=right.probe_amplitude)
+    assert stability_finding(sweep, right).verdict == AGREE
+    wide = copy.deepcopy(doc)
+    top = wide["stability"]["courant_max"] + 0.1
+    for part in [wide["stability"], *wide["stability"]["schemes"]]:
+        part.update(courant_max=top, courant_max_exact=None)
+    too_wide = Prediction.from_document(wide)
+    sweep = harness.stability_sweep(kernel, too_wide.probe_courants(spectral=True), 1.0,
+                                    linear=True, amplitude=too_wide.probe_amplitude)
+    assert stability_finding(sweep, too_wide).verdict == DISAGREE
     # order on the sine: third (SSP-RK3), not the fifth of the reconstruction alone
     conv = harness.convergence(kernel, profiles.SINE, 0.5, cells=(50, 100, 200))
-    assert _convergence_finding(conv, profiles.SINE, right, 0.5, 1e-16).verdict == AGREE
-    over = dataclasses.replace(right, order=4)
-    assert _convergence_finding(conv, profiles.SINE, over, 0.5, 1e-16).verdict == DISAGREE
+    assert convergence_finding(conv, profiles.SINE, right, 0.5, 1e-16).verdict == AGREE
+    over = copy.deepcopy(doc)
+    over["order"].update(overall=4, at_courant=4)
+    assert convergence_finding(conv, profiles.SINE, Prediction.from_document(over), 0.5,
+                               1e-16).verdict == DISAGREE
 
 
 def test_linearisation_reads_the_same_under_any_hash_seed(tmp_path):

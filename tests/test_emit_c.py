@@ -146,7 +146,7 @@ def test_header_carries_the_analysis_verdicts():
     document = analyse(scheme).to_json()
     header = c_files(scheme, "double")["lw_vanleer.h"]
     assert f" * order: {document['order']['overall']} " in header
-    assert " * tvd: yes" in header if document["tvd"]["holds"] else " * tvd: " in header
+    assert " * TVD: yes" in header if document["tvd"]["holds"] else " * TVD: " in header
     module = c_files(scheme, "double")["lw_vanleer_mod.f90"]
     assert f"! order: {document['order']['overall']} " in module
 

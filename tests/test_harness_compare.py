@@ -73,10 +73,10 @@ def test_plot_does_not_overwrite_a_users_file(capsys, tmp_path):
 
 
 def test_sort_rows_puts_missing_values_last():
-    rows = [compare_command.Row("a", None, None, "unstable", "no", None, None, None, None, 0,
-                                False, 0.0, 1.0),
-            compare_command.Row("b", 1, 1.0, "conditional", "no", 0.1, 0.1, 0.1, 0.2, 0, True,
-                                0.0, 2.0)]
+    rows = [compare_command.Row("a", None, None, "unstable", "unstable for every c > 0", "no",
+                                None, None, None, None, 0, False, 0.0, 1.0),
+            compare_command.Row("b", 1, 1.0, "conditional", "conditional, stable for [0, 1]",
+                                "no", 0.1, 0.1, 0.1, 0.2, 0, True, 0.0, 2.0)]
     assert [r.label for r in compare_command.sort_rows(rows, "l1")] == ["b", "a"]
     assert [r.label for r in compare_command.sort_rows(rows, "speed")] == ["b", "a"]
 

@@ -155,16 +155,31 @@ def test_divergence_is_reported_at_its_step():
     assert np.all(np.isfinite(shape.final))
 
 
-def test_nan_is_divergence():
-    class NaNKernel:
-        halo, dtype = 1, np.dtype(float)
+class NaNKernel:
+    """A broken kernel: NaN from finite data, whatever the Courant number."""
+    halo, dtype = 1, np.dtype(float)
 
-        def step(self, q, u_face, dt_dx, out=None):
-            out[1:-1] = np.nan
-            return out
+    def step(self, q, u_face, dt_dx, out=None):
+        out[1:-1] = np.nan
+        return out
 
+
+def test_nan_from_finite_data_is_a_kernel_fault_not_divergence():
+    # At c = 0.5 one step cannot overflow from values of size 1, so a NaN is the kernel's
+    # fault (IEEE 754 arithmetic: finite operands below the overflow bound stay finite).
     run = harness.advance(NaNKernel(), np.ones(8), np.ones(9), 0.5, 5)
-    assert run.diverged_at == 1 and run.steps == 0
+    assert run.fault_at == 1 and run.diverged_at is None and run.steps == 0
+    assert run.stopped_at == 1
+
+
+def test_overflow_at_a_huge_courant_number_is_divergence():
+    # At c = 1e300 one Lax-Wendroff step multiplies by about c^2 = 1e600: Inf, then NaN
+    # (IEEE 754 double overflows past 1.8e308), which is the instability, not a fault.
+    run = harness.advance(hand_kernel("lax_wendroff"), np.sin(np.arange(16.0)), np.ones(17),
+                          1e300, 3)
+    assert run.diverged_at == 1 and run.fault_at is None
+    assert harness.overflow_possible(1.0, 1e300, np.float64)
+    assert not harness.overflow_possible(1e6, 10.0, np.float64)
 
 
 # ---- monotone, TVD, and not -----------------------------------------------------------
@@ -269,7 +284,7 @@ def test_mirrored_run_mirrors(name):
 @pytest.mark.parametrize("linear", [True, False])
 def test_measured_stability_limit(name, limit, linear):
     # measured both ways: spectrally (one step, per-mode gain) and by growth over many steps
-    result = harness.stability_sweep(hand_kernel(name), 1.0, limit, linear=linear)
+    result = harness.stability_sweep(hand_kernel(name), np.arange(1, 13) / 4, 1.0, linear=linear)
     assert result.method == ("spectral" if linear else "growth")
     assert result.measured_max is not None
     assert abs(result.measured_max - limit) <= 0.02
@@ -278,7 +293,8 @@ def test_measured_stability_limit(name, limit, linear):
 @pytest.mark.parametrize("linear", [True, False])
 def test_ftcs_grows_at_every_courant_number_tried(linear):
     # von Neumann: |G|^2 = 1 + c^2 sin^2(theta) (common practice).
-    result = harness.stability_sweep(hand_kernel("ftcs"), -1.0, None, linear=linear)
+    result = harness.stability_sweep(hand_kernel("ftcs"), np.arange(1, 7) / 4, -1.0,
+                                     linear=linear)
     assert result.unstable_everywhere and result.measured_max is None
     assert len(result.probes) >= 6 and all(p.grows for p in result.probes)
 
@@ -296,5 +312,6 @@ def test_spectral_probe_measures_the_amplification_factor():
 def test_clamped_scheme_is_probed_underneath_the_clamp():
     # FTCS under a clamp to [0, 1] still has |G| > 1 (the clamp hides it at large amplitude).
     kernel = hand_kernel("ftcs_clip", clip=(0.0, 1.0))
-    result = harness.stability_sweep(kernel, 1.0, None, linear=True, clip=(0.0, 1.0))
+    result = harness.stability_sweep(kernel, np.arange(1, 7) / 4, 1.0, linear=True,
+                                     clip=(0.0, 1.0))
     assert result.unstable_everywhere

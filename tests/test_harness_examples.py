@@ -43,7 +43,7 @@ def test_exact_l2_table_on_generated_kernels(stem, backend):
 def test_every_example_agrees_with_its_analysis(stem):
     # c = 0.4: no example has an error term that vanishes there (Fromm's does at c = 1/2).
     scheme = load_scheme(EXAMPLES / f"{stem}.loom")
-    prediction = Prediction.from_analysis(analysis_document(scheme, 0.4), scheme)
+    prediction = Prediction.from_document(analysis_document(scheme, 0.4))
     options = Options(courant=0.4, cells=harness.CONVERGENCE_CELLS[:5])  # N = 25 .. 400
     result = verify_kernel(load_kernel(scheme, "numpy"), prediction, options)
     assert result.agree, [(f.check, f.context, f.predicted, f.measured)
@@ -79,7 +79,7 @@ def test_limiter_outside_sweby_region_grows_tv_at_c_08():
 @pytest.mark.parametrize("method", [True, False])
 def test_ftcs_grows_at_every_courant_number(method):
     # von Neumann: |G|^2 = 1 + c^2 sin^2(theta) > 1 (common practice, no source).
-    result = harness.stability_sweep(kernel("ftcs"), 1.0, None, linear=method)
+    result = harness.stability_sweep(kernel("ftcs"), np.arange(1, 7) / 4, 1.0, linear=method)
     assert result.unstable_everywhere and len(result.probes) >= 6
 
 
@@ -176,7 +176,7 @@ def test_low_order_flux_alone_is_monotone_by_its_coefficients(courant):
 def test_method_of_lines_limits_measured_on_the_kernels(stem, kappa, limit):
     overrides = {} if kappa is None else {"kappa": sympy.Integer(kappa)}
     k = load_kernel(load_scheme(EXAMPLES / f"{stem}.loom", overrides), "numpy")
-    result = harness.stability_sweep(k, 1.0, limit, linear=True)
+    result = harness.stability_sweep(k, np.arange(1, 13) / 4, 1.0, linear=True)
     assert result.method == "spectral"
     assert result.measured_max == pytest.approx(limit, abs=0.005)
 
@@ -187,7 +187,7 @@ def test_a_wide_clamp_is_judged_by_its_own_range():
     text = ("scheme lw_wide_clip {\n  time euler\n"
             "  flux = u * (q[0] + (1 - c) / 2 * (q[1] - q[0]))\n  clip -1, 2\n}\n")
     scheme = scheme_from_text(text)
-    prediction = Prediction.from_analysis(analysis_document(scheme, 0.5), scheme)
+    prediction = Prediction.from_document(analysis_document(scheme, 0.5))
     result = verify_kernel(load_kernel(scheme, "numpy"), prediction,
                            Options(cells=(25, 50, 100), stability=False))
     bounds = [f for f in result.findings if f.check == "bounds"]

@@ -36,20 +36,32 @@ class Dispersion:
     rows: tuple[DispersionRow, ...]
 
 
-def analyse_dispersion(scheme: LinearScheme, courant: float) -> Dispersion:
+def analyse_dispersion(scheme: LinearScheme, courant: float) -> Dispersion | None:
+    """The table at `courant`; None where |G| overflows a double there (a huge c)."""
     g = sympy.lambdify(sympy.Symbol("z"), scheme.amplification.subs(C, sympy.nsimplify(courant)),
                        modules="math")
     rows = []
     for n in CELLS_PER_WAVELENGTH:
         theta = 2 * math.pi / n
-        value = complex(g(cmath.exp(1j * theta)))
+        try:
+            value = complex(g(cmath.exp(1j * theta)))
+        except (OverflowError, ZeroDivisionError):
+            return None
+        if not (math.isfinite(value.real) and math.isfinite(value.imag)):
+            return None
         exact = -courant * theta
         phase = cmath.phase(value) if value != 0 else 0.0
         # The branch of arg G nearest the exact phase (c theta can exceed pi).
         phase += 2 * math.pi * round((exact - phase) / (2 * math.pi))
         steps = n / courant
         amplitude = abs(value)
+        try:
+            per_wavelength = amplitude ** steps
+        except OverflowError:
+            return None
+        if not math.isfinite(per_wavelength * (phase - exact) * steps):
+            return None
         rows.append(DispersionRow(n, theta, amplitude, phase - exact,
-                                  -phase / (courant * theta), amplitude ** steps,
+                                  -phase / (courant * theta), per_wavelength,
                                   (phase - exact) * steps))
     return Dispersion(scheme.label, courant, tuple(rows))

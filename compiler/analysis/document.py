@@ -11,6 +11,7 @@ import sympy
 
 from . import intervals
 from .intervals import CourantSet, Span
+from .wording import r_set_text
 from .timemethods import imaginary_axis_limit, method, stability_polynomial
 
 SCHEMA_VERSION = 1
@@ -41,6 +42,17 @@ def _set(cset: CourantSet | None) -> dict:
         return {**_span(None), "islands": [], "set": None, "method": None, "tolerance": None}
     return {**_span(cset.main), "islands": [_span(p) for p in cset.islands],
             "set": cset.text(), "method": cset.method, "tolerance": cset.tolerance}
+
+
+def _r_end(value):
+    return None if value in (sympy.oo, -sympy.oo) else float(sympy.N(value, 17))
+
+
+def _failure(failure) -> dict:
+    """A limiter failure: the property, the range of r where it fails (readable and numeric)."""
+    where = failure.where
+    return {"property": failure.property, "r": r_set_text(where),
+            "r_min": _r_end(where.inf), "r_max": _r_end(where.sup), "detail": failure.detail}
 
 
 def _terms(terms) -> list[dict]:
@@ -206,7 +218,8 @@ def analysis_document(a) -> dict:
             "symmetric": lim.symmetric, "sup_psi": _num(lim.sup_psi),
             "sup_psi_exact": _exact(lim.sup_psi), "sup_psi_over_r": _num(lim.sup_psi_over_r),
             "sup_psi_over_r_exact": _exact(lim.sup_psi_over_r),
-            "method": lim.method, "why_not": list(lim.why)}
+            "method": lim.method, "why_not": list(lim.why),
+            "failures": [_failure(f) for f in lim.failures]}
 
     # TVD
     t = a.tvd

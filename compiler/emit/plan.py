@@ -222,50 +222,12 @@ def plan_kernel(scheme: Scheme) -> KernelPlan:
 
 # ---- the descriptive comment every generated file starts with -------------
 
-ANALYSIS_KEYS = ("order", "stability", "conservative", "tvd", "monotone", "bounded")
-_WORDS = {True: "yes", False: "no", None: "undecided"}
-
-
 def fluxloom_version() -> str:
     from importlib.metadata import PackageNotFoundError, version
     try:
         return version("fluxloom")
     except PackageNotFoundError:
         return "unknown"
-
-
-def _courant_bound(verdict: dict, side: str):
-    """The exact bound where it is short (1, sqrt(3)), else the float to 4 digits."""
-    exact, value = verdict.get(f"courant_{side}_exact"), verdict.get(f"courant_{side}")
-    if exact is not None and len(str(exact)) <= 24:
-        return exact
-    return None if value is None else f"{value:.4g}"
-
-
-def _courant_range(verdict: dict) -> str:
-    low, high = _courant_bound(verdict, "min"), _courant_bound(verdict, "max")
-    if low is None and high is None:
-        return ""
-    if high is None:
-        return f" for c >= {low}"
-    return f" for {low} <= c <= {high}"
-
-
-def _summary(key: str, value) -> str:
-    """One line for one analysis verdict of `check --json`."""
-    import json
-
-    if isinstance(value, dict):
-        if key == "order" and "overall" in value:
-            return f"{value['overall']} (space {value.get('space')}, time {value.get('time')})"
-        if "holds" in value:
-            return _WORDS.get(value["holds"], str(value["holds"])) + _courant_range(value)
-        if "kind" in value:
-            return f"{value['kind']}{_courant_range(value)}"
-    if isinstance(value, bool) or value is None:
-        return _WORDS[value]
-    text = value if isinstance(value, str) else json.dumps(value, sort_keys=True)
-    return text if len(text) <= 100 else text[:97] + "..."
 
 
 _ANALYSIS_LINES: dict[str, tuple[str, ...]] = {}
@@ -280,16 +242,18 @@ def analysis_lines(scheme: Scheme) -> tuple[str, ...]:
 
 
 def _analysis_lines(scheme: Scheme) -> tuple[str, ...]:
+    """The verdicts worded as in `check` and every report (compiler/analysis/wording.py)."""
     try:
         from ..analysis import analyse
+        from ..analysis.claims import read_claims
+        from ..analysis.wording import verdict_lines
     except ImportError:
         return ("analysis: not available in this installation",)
     try:
-        document = analyse(scheme).to_json()
+        claims = read_claims(analyse(scheme).to_json())
     except Exception as err:  # the kernel is still correct; say what happened
         return (f"analysis: failed ({type(err).__name__})",)
-    lines = [f"{key}: {_summary(key, document[key])}" for key in ANALYSIS_KEYS if key in document]
-    return tuple(lines) or ("analysis: no verdicts",)
+    return verdict_lines(claims)
 
 
 def banner_lines(scheme: Scheme, precision: str, verdicts: bool = True) -> tuple[str, ...]:

@@ -13,7 +13,13 @@ from fluxloom.compiler import LoomError
 from fluxloom.compiler.analysis import analyse
 from fluxloom.compiler.analysis.budget import DEFAULT_SECONDS
 
-from .common import add_set_option, add_spec_argument, scheme_from_args
+from fluxloom.compiler.analysis.claims import read_claims
+from fluxloom.compiler.analysis.wording import (bounded_text, failure_text, limiter_text,
+                                                order_text, stability_text, value_text,
+                                                verdict_text, yes_no)
+
+from .common import add_courant_option, add_set_option, add_spec_argument, parse_courant, \
+    scheme_from_args
 
 
 def register(sub) -> None:
@@ -24,8 +30,8 @@ def register(sub) -> None:
     add_spec_argument(parser)
     add_set_option(parser)
     parser.add_argument("--json", action="store_true", help="print the analysis as JSON")
-    parser.add_argument("--courant", default="0.5", metavar="C",
-                        help="Courant number for the dispersion table (default 0.5)")
+    add_courant_option(parser, "Courant number for the dispersion table and the order there, "
+                               "e.g. 0.5 or 3/5 (default 0.5)")
     parser.add_argument("--plots", metavar="DIR",
                         help="write PNG figures (|G|, stability map, phase speed, limiters) to DIR")
     parser.add_argument("--force", action="store_true",
@@ -34,16 +40,6 @@ def register(sub) -> None:
                         help="CPU seconds each analysis pass may take before it falls back to "
                              f"a numeric method or says undecided (default {DEFAULT_SECONDS:g})")
     parser.set_defaults(run=run)
-
-
-def parse_courant(text: str) -> float:
-    try:
-        value = float(text)
-    except ValueError:
-        raise LoomError(f"--courant expects a number, given '{text}'", file="--courant") from None
-    if not math.isfinite(value) or value <= 0:
-        raise LoomError(f"--courant must be a positive number, given '{text}'", file="--courant")
-    return value
 
 
 def parse_budget(text: str) -> float:
@@ -65,10 +61,9 @@ def run(args) -> int:
     analysis = analyse(scheme, courant, seconds)
     doc = analysis.to_json()
     if args.plots:
-        from fluxloom.runtime.analysis_plots import write_plots
-
-        written = write_plots(analysis, Path(args.plots), force=args.force)
+        written, skipped = write_figures(analysis, Path(args.plots), args.force)
         doc["plots"] = [str(p) for p in written]
+        doc["plots_not_written"] = skipped
     if args.json:
         print(json.dumps(doc, indent=2))
     else:
@@ -76,44 +71,25 @@ def run(args) -> int:
     return 0
 
 
+def write_figures(analysis, directory: Path, force: bool) -> tuple[list[Path], list[str]]:
+    """The figures --plots writes, and a sentence for each kind it cannot write."""
+    try:
+        from fluxloom.runtime.analysis_plots import write_plots
+    except ImportError as err:  # matplotlib missing from this installation
+        raise LoomError(f"--plots needs matplotlib, which cannot be imported ({err}); "
+                        "install it (pip install matplotlib) or leave out --plots",
+                        file="--plots") from None
+    skipped = []
+    lin = analysis.linearisation
+    if not lin.smooth:
+        skipped.append(f"no amplification, stability-map or phase-speed figures: no linear "
+                       f"scheme stands for this one ({lin.note})")
+    if not analysis.scheme.limiters:
+        skipped.append("no limiter figure: the scheme has no limiter statement")
+    return write_plots(analysis, directory, force=force), skipped
+
+
 # ---- terminal report ------------------------------------------------------------
-
-def _yes(value) -> str:
-    return {True: "yes", False: "no", None: "undecided"}[value]
-
-
-def _c(value, exact) -> str:
-    if value is None and exact in (None, "oo"):
-        return "oo" if exact == "oo" else "-"
-    if exact is not None and len(exact) <= 24 and exact != _short(value):
-        return f"{exact} ({_short(value)})"
-    return _short(value)
-
-
-def _short(value) -> str:
-    if value is None:
-        return "-"
-    return f"{value:.6g}"
-
-
-def _interval(d: dict) -> str:
-    if d.get("courant_min") is None and d.get("courant_max") is None \
-            and d.get("courant_max_exact") is None:
-        return "no interval"
-    lo = _c(d.get("courant_min"), d.get("courant_min_exact"))
-    hi = _c(d.get("courant_max"), d.get("courant_max_exact"))
-    closing = ")" if d.get("courant_max_exact") == "oo" else "]"
-    return f"[{lo}, {hi}{closing}"
-
-
-def _islands(d: dict) -> str:
-    isl = d.get("islands") or []
-    if not isl:
-        return ""
-    return "; also " + ", ".join(
-        f"c = {_c(i['courant_min'], i['courant_min_exact'])}" if i["courant_min"] == i["courant_max"]
-        else _interval(i) for i in isl)
-
 
 def _ssp(time_method: dict) -> str:
     exact = time_method["ssp_coefficient_exact"]
@@ -121,6 +97,8 @@ def _ssp(time_method: dict) -> str:
 
 
 def render(doc: dict) -> str:
+    """The analysis for reading; every verdict is worded by compiler/analysis/wording.py."""
+    claims = read_claims(doc)
     out = []
     head = f"{doc['scheme']}" + (f"  -  {doc['about']}" if doc.get("about") else "")
     out.append(head)
@@ -137,11 +115,9 @@ def render(doc: dict) -> str:
 
     order = doc["order"]
     out.append("")
-    if order["overall"] is None:
-        out.append(f"consistency   {_yes(doc['consistent'])}; no order")
-    else:
-        out.append(f"consistency   {_yes(doc['consistent'])}; order {order['overall']} overall "
-                   f"(space {order['space']}, time {order['time']}) at fixed Courant number")
+    out.append(f"consistency   {yes_no(claims.consistent)}; order "
+               f"{order_text(claims.order, claims.courant)}"
+               + (" at fixed Courant number" if claims.order.overall is not None else ""))
     for term in doc["modified_equation"]:
         out.append(f"  {term['coefficient']} * {term['derivative']}")
     if doc["modified_equation"]:
@@ -154,11 +130,10 @@ def render(doc: dict) -> str:
 
     st = doc["stability"]
     out.append("")
-    out.append(f"stability     {st['kind'] or 'undecided'}" + (f" for c in {_interval(st)}" if st["kind"] == "conditional" else "")
-               + _islands(st))
-    for sch in st["schemes"]:
-        if len(st["schemes"]) > 1 or sch.get("islands"):
-            out.append(f"  {sch['label']}: {sch['kind']}, stable for {sch['set']}")
+    out.append(f"stability     {stability_text(claims.stability)}")
+    for standin in claims.stability.standins:
+        if len(claims.stability.standins) > 1:
+            out.append(f"  {standin.label}: {stability_text_of(standin)}")
     if len(st["schemes"]) == 1:
         only = st["schemes"][0]
         if only.get("semi_discrete_z"):
@@ -169,26 +144,24 @@ def render(doc: dict) -> str:
             out.append(f"  |G|^2 = {only['abs_squared_s']}, s = sin^2(theta/2)")
     if "time_method" in st:
         tm = st["time_method"]
-        limit = _c(tm["imaginary_axis_limit"], tm["imaginary_axis_limit_exact"])
+        limit = value_text(tm["imaginary_axis_limit"], tm["imaginary_axis_limit_exact"])
         out.append(f"  R(z) = {tm['stability_polynomial']}; imaginary-axis limit {limit}; "
                    f"SSP coefficient {_ssp(tm)}")
     out.append(f"  method: {st['method']}" + (f", tolerance {st['tolerance']:g}" if st["tolerance"] else ""))
 
     out.append("")
-    out.append(f"conservation  {_yes(doc['conservative'])}: {doc['conservation']['reason']}")
+    out.append(f"conservation  {yes_no(claims.conservative)}: {claims.conservation_reason}")
 
-    conv = doc["convergent"]
     out.append("")
-    out.append(f"convergence   {_yes(conv['holds'])}: {conv['reason']}")
+    out.append(f"convergence   {verdict_text(claims.convergent)}: {claims.convergent.reason}")
 
     mono = doc["monotone"]
     out.append("")
-    out.append(f"monotone      {_yes(mono['holds'])}" + (f" for c in {_interval(mono)}" if mono["holds"] else "")
-               + f": {mono['reason']}")
+    out.append(f"monotone      {verdict_text(claims.monotone)}: {claims.monotone.reason}")
     if mono["coefficients"]:
         out.append("  update coefficients: " + ", ".join(
             f"q[j{int(k):+d}] {v}" for k, v in mono["coefficients"].items()))
-    for bnd in mono.get("bounding", []):
+    for bnd in mono["bounding"]:
         out.append(f"  {bnd['label']}: monotone for {bnd['set']}")
 
     if doc["limiters"]:
@@ -201,30 +174,26 @@ def render(doc: dict) -> str:
             out.append(f"  {name}(r) = {lim['psi']}")
             out.append(f"    psi(1) = {lim['psi_at_1_exact']}, slope at 1 = {slopes}, "
                        f"max psi = {lim['sup_psi_exact']}")
-            out.append(f"    Sweby TVD region {_yes(lim['sweby_tvd'])}; second-order region "
-                       f"{_yes(lim['second_order_region'])}; symmetric {_yes(lim['symmetric'])}")
-            for why in lim["why_not"]:
-                out.append(f"    because {why}")
+            facts = next(f for f in claims.limiters if f.name == name)
+            out.append(f"    {limiter_text(facts)}")
+            for failure in facts.failures:
+                out.append(f"    {failure_text(failure)}")
             out.append(f"    method: {lim['method']}")
 
     tvd = doc["tvd"]
     out.append("")
-    if tvd["holds"] is None:
-        out.append(f"TVD           undecided: {tvd['reason']}")
+    if claims.tvd.holds is None:
+        out.append(f"TVD           undecided: {claims.tvd.reason}")
     else:
-        where = tvd["set"] if tvd.get("set") else "no Courant number"
-        out.append(f"TVD           {_yes(tvd['holds'])}" + (f" for {where}" if tvd["holds"] else ""))
+        out.append(f"TVD           {verdict_text(claims.tvd)}")
         out.append(f"  method: {tvd['method']}")
-        if tvd["reason"]:
-            out.append(f"  {tvd['reason']}")
+        if claims.tvd.reason:
+            out.append(f"  {claims.tvd.reason}")
 
-    bounded = doc["bounded"]
     if doc["bounds"] is not None:
         b = doc["bounds"]
         out.append("")
-        extra = f" for c in {_interval(bounded)}" if b["kind"] == "fct" and bounded["holds"] else \
-            (f" within [{b['low_exact']}, {b['high_exact']}]" if b["kind"] == "clip" else "")
-        out.append(f"bounds ({b['kind']})  bounded {_yes(b['bounded'])}{extra}")
+        out.append(f"bounds        bounded {bounded_text(claims)}")
         out.append(f"  new extrema: {b['new_extrema']}")
         out.append(f"  accuracy: {b['order']}")
         out.append(f"  {b['reason']}")
@@ -250,7 +219,16 @@ def render(doc: dict) -> str:
                    "(--budget); past it:")
         for item in over:
             out.append(f"  {item['pass']}: {item['note']}")
-    if doc.get("plots"):
+    if "plots" in doc:
         out.append("")
-        out.append("plots         " + ", ".join(doc["plots"]))
+        out.append("plots         " + (", ".join(doc["plots"]) or "none written"))
+        for why in doc["plots_not_written"]:
+            out.append(f"  {why}")
     return "\n".join(out)
+
+
+def stability_text_of(standin) -> str:
+    """One linear stand-in's stability, worded like the scheme's."""
+    from fluxloom.compiler.analysis.claims import Stability
+
+    return stability_text(Stability(standin.kind, standin.stable, (), None, None, ""))

@@ -2,8 +2,14 @@
 from __future__ import annotations
 
 import argparse
+import math
+import re
 
-from fluxloom.compiler import Scheme, load_scheme, parse_overrides
+from fluxloom.compiler import LoomError, Scheme, load_scheme, parse_overrides
+
+_DECIMAL = r"[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?"
+_COURANT = re.compile(rf"\s*({_DECIMAL})\s*(?:/\s*({_DECIMAL})\s*)?")
+MAX_COURANT_TEXT = 64
 
 
 def add_spec_argument(parser: argparse.ArgumentParser) -> None:
@@ -18,3 +24,30 @@ def add_set_option(parser: argparse.ArgumentParser) -> None:
 
 def scheme_from_args(args: argparse.Namespace, path: str | None = None) -> Scheme:
     return load_scheme(path or args.file, parse_overrides(args.overrides))
+
+
+def parse_courant(text: str, option: str = "--courant") -> float:
+    """A Courant number as the user writes it: 0.5, 1e-3 or a rational such as 3/5.
+
+    Positive and finite, or a LoomError naming the option (exit status 2). Parsed
+    as floats, never as exact integers, so `1e999999999` costs nothing."""
+    match = _COURANT.fullmatch(text) if len(text) <= MAX_COURANT_TEXT else None
+    if match is None:
+        raise LoomError(f"{option} expects a number such as 0.5, 1e-3 or 3/5, given '{text}'",
+                        file=option)
+    top = float(match.group(1))
+    bottom = float(match.group(2)) if match.group(2) is not None else 1.0
+    if bottom == 0:
+        raise LoomError(f"{option} {text}: division by zero", file=option)
+    value = top / bottom if math.isfinite(top) and math.isfinite(bottom) else math.inf
+    if not math.isfinite(value):
+        raise LoomError(f"{option} {text} is not a finite number", file=option)
+    if value <= 0:
+        raise LoomError(f"{option} must be a positive number, given '{text}'", file=option)
+    return value
+
+
+def add_courant_option(parser: argparse.ArgumentParser, help_text: str,
+                       default: str = "0.5") -> None:
+    """--courant C, kept as text and read with parse_courant (rationals allowed)."""
+    parser.add_argument("--courant", default=default, metavar="C", help=help_text)

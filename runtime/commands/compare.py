@@ -16,11 +16,14 @@ import sympy
 from fluxloom.compiler import LoomError, load_scheme
 from fluxloom.compiler.ir import parse_override
 
+from fluxloom.compiler.analysis.wording import stability_text, verdict_text
+
 from .. import harness, plots
-from ..findings import Prediction, in_clip_range, json_safe
+from ..measurements import in_clip_range
 from ..profiles import BELL, MIXED, SQUARE
-from ..report import check_writable, table
-from .verify import add_kernel_options, analysis_document, load_for_measuring, progress_printer
+from ..report import check_writable, json_safe, table
+from .common import parse_courant
+from .verify import add_kernel_options, load_for_measuring, predict, progress_printer
 
 
 def register(sub) -> None:
@@ -85,9 +88,10 @@ def expand_variants(paths, override_texts) -> list[Variant]:
 class Row:
     label: str
     order: int | None
-    stable_max: float | None
-    stability_kind: str
-    tvd: str
+    stable_max: float | None     # upper end of the stable interval nearest 0 (sorting)
+    stability_kind: str | None
+    stability: str               # the stable set in words, islands included
+    tvd: str                     # the TVD verdict in words, islands included
     l1: float | None             # smooth bell, one revolution
     l2: float | None
     linf: float | None
@@ -102,9 +106,9 @@ class Row:
         return json_safe({k: getattr(self, k) for k in COLUMNS})
 
 
-COLUMNS = ("label", "order", "stable_max", "tvd", "l1", "l2", "linf", "square_l1",
+COLUMNS = ("label", "order", "stable_max", "stability", "tvd", "l1", "l2", "linf", "square_l1",
            "new_extrema", "bounded", "mass_drift", "speed")
-HEADERS = ("scheme", "order", "stable c <=", "TVD for c in", "l1", "l2", "linf", "l1 square",
+HEADERS = ("scheme", "order", "stability", "TVD", "l1", "l2", "linf", "l1 square",
            "new extrema", "bounded", "mass drift", "Mcell/s")
 # column -> (key, descending): errors ascending, speed descending
 SORT_KEYS = {"name": ("label", False), "order": ("order", True),
@@ -112,13 +116,6 @@ SORT_KEYS = {"name": ("label", False), "order": ("order", True),
              "linf": ("linf", False), "square": ("square_l1", False),
              "extrema": ("new_extrema", False), "drift": ("mass_drift", False),
              "speed": ("speed", True)}
-
-
-def _interval_text(tvd, undecided: bool = False) -> str:
-    if tvd is None:
-        return "undecided" if undecided else "no"
-    low, high = tvd
-    return f"[{low or 0:g}, {high:g}]" if high is not None else f"[{low or 0:g}, inf)"
 
 
 def kernel_speed(kernel, courant: float, cells: int = 100_000, seconds: float = 0.15) -> float:
@@ -145,7 +142,9 @@ def kernel_speed(kernel, courant: float, cells: int = 100_000, seconds: float = 
 def measure_variant(variant: Variant, backend: str, precision: str, courant: float,
                     cells: int, speed_cells: int = 100_000) -> Row:
     scheme = variant.scheme
-    pred = Prediction.from_analysis(analysis_document(scheme, courant), scheme)
+    pred = predict(scheme, courant)
+    claims = pred.claims
+    main = next((p for p in claims.stability.stable.parts if not p.is_point), None)
     kernel = load_for_measuring(scheme, backend, precision)
     clip = pred.clip
 
@@ -159,13 +158,13 @@ def measure_variant(variant: Variant, backend: str, precision: str, courant: flo
               for v in ("+1", "varying")]
     e = smooth.errors
     return Row(
-        label=variant.label, order=pred.order, stable_max=pred.stable_max,
-        stability_kind=pred.stability_kind,
-        tvd=_interval_text(pred.tvd, (pred.source.get("tvd") or {}).get("holds") is None),
+        label=variant.label, order=pred.order, stable_max=main.hi if main else None,
+        stability_kind=claims.stability.kind, stability=stability_text(claims.stability),
+        tvd=verdict_text(claims.tvd),
         l1=e.l1 if e else None, l2=e.l2 if e else None, linf=e.linf if e else None,
         square_l1=square.errors.l1 if square.errors else None,
         new_extrema=max(s.new_extrema for s in shapes),
-        bounded=all(s.bounded and s.diverged_at is None for s in shapes),
+        bounded=all(s.bounded and s.stopped_at is None for s in shapes),
         mass_drift=max(drifts),
         speed=kernel_speed(kernel, min(courant, 1.0), speed_cells),
         finals={"bell": (smooth.final, smooth.exact), "square": (square.final, square.exact),
@@ -191,14 +190,8 @@ def sort_rows(rows, column):
     return sorted(present, key=lambda r: getattr(r, key), reverse=descending) + missing
 
 
-def stability_text(row: Row) -> str:
-    if row.stability_kind == "unstable":
-        return "never"
-    return "-" if row.stable_max is None else f"{row.stable_max:.4g}"
-
-
 def table_rows(rows):
-    return [[r.label, "-" if r.order is None else str(r.order), stability_text(r), r.tvd,
+    return [[r.label, "undecided" if r.order is None else str(r.order), r.stability, r.tvd,
              r.l1, r.l2, r.linf, r.square_l1, r.new_extrema, "yes" if r.bounded else "no",
              r.mass_drift, r.speed] for r in rows]
 
@@ -216,21 +209,22 @@ def overlay(rows, path: Path, courant: float, cells: int) -> Path:
 def run(args) -> int:
     if args.cells < 8:
         raise LoomError(f"--cells must be at least 8, given {args.cells}", file="--cells")
+    courant = parse_courant(args.courant)
+    harness.check_run_size(args.cells, courant)
     variants = expand_variants(args.files, args.overrides)
     if args.plot:
         check_writable(Path(args.plot), args.force)
     say = progress_printer(sys.stderr.isatty() and not args.json, "compare")
-    rows = compare(variants, args.backend, args.precision, args.courant, args.cells, args.sort,
-                   say)
+    rows = compare(variants, args.backend, args.precision, courant, args.cells, args.sort, say)
     if args.json:
-        print(json.dumps({"courant": args.courant, "cells": args.cells, "backend": args.backend,
+        print(json.dumps({"courant": courant, "cells": args.cells, "backend": args.backend,
                           "precision": args.precision,
                           "rows": [r.to_json() for r in rows]}, indent=2))
     else:
-        print(f"compare at c = {args.courant:g}, N = {args.cells} (errors after one revolution: "
+        print(f"compare at c = {courant:g}, N = {args.cells} (errors after one revolution: "
               f"l1/l2/linf on the smooth bell, l1 on the square wave; mass drift: the larger of "
               f"a steady and a sign-changing flow; speed on {args.backend} {args.precision})")
         print(compare_table(rows))
     if args.plot:
-        overlay(rows, Path(args.plot), args.courant, args.cells)
+        overlay(rows, Path(args.plot), courant, args.cells)
     return 0

@@ -13,11 +13,16 @@ from pathlib import Path
 from fluxloom.compiler import LoomError, load_scheme
 from fluxloom.compiler.ir import parse_override
 
-from ..findings import Options, Prediction, verify_kernel
+from fluxloom.compiler.analysis.claims import read_claims
+from fluxloom.compiler.analysis.wording import (bounded_text, order_text, stability_text,
+                                                verdict_text, yes_no)
+
+from ..findings import NO_CLAIM, Options, verify_kernel
 from ..report import MARKER, check_writable, prepare_directory, table, write_text, write_verification
+from ..rules import AGREE, measured_set_text
 from .build import generated_files, plan_writes
 from .compare import Variant, compare, compare_table, expand_variants, overlay
-from .verify import analysis_document, load_for_measuring
+from .verify import analysis_document, load_for_measuring, predict
 
 DEFAULT_DIRECTORY = "fluxloom-demo"
 COURANT = 0.5
@@ -92,20 +97,6 @@ class Progress:
 
 # ---- the parts ---------------------------------------------------------------------
 
-def _yes(holds) -> str:
-    return "yes" if holds is True else "no" if holds is False else "-"
-
-
-def _span(d: dict) -> str:
-    if not d or not d.get("holds"):
-        islands = [i for i in (d or {}).get("islands") or ()]
-        if islands:
-            return "only c = " + ", ".join(f"{i['courant_min']:g}" for i in islands)
-        return "no"
-    low, high = d.get("courant_min"), d.get("courant_max")
-    return f"[{low or 0:g}, {high:g}]" if high is not None else f"[{low or 0:g}, inf)"
-
-
 def check_part(examples, directory: Path, say, force: bool):
     rows, docs = [], {}
     for i, path in enumerate(examples, 1):
@@ -113,13 +104,11 @@ def check_part(examples, directory: Path, say, force: bool):
         say("check", f"{scheme.name} ({i}/{len(examples)})")
         doc = analysis_document(scheme, COURANT)
         docs[scheme.name] = (scheme, doc)
-        stability = doc.get("stability") or {}
-        stable = ("never" if stability.get("kind") == "unstable"
-                  else _span({**stability, "holds": True}))
-        rows.append([scheme.name, scheme.time, str((doc.get("order") or {}).get("overall", "-")),
-                     stable, _span(doc.get("monotone") or {}), _span(doc.get("tvd") or {}),
-                     _yes(doc.get("conservative")),
-                     _yes((doc.get("bounded") or {}).get("holds"))])
+        claims = read_claims(doc)
+        rows.append([scheme.name, scheme.time, order_text(claims.order, claims.courant),
+                     stability_text(claims.stability), verdict_text(claims.monotone),
+                     verdict_text(claims.tvd), yes_no(claims.conservative),
+                     bounded_text(claims) if claims.bounds is not None else "-"])
     figures = []
     from ..analysis_plots import write_plots
     from fluxloom.compiler.analysis import analyse
@@ -128,8 +117,8 @@ def check_part(examples, directory: Path, say, force: bool):
         if name in docs:
             say("check", f"figures for {name}")
             figures += write_plots(analyse(docs[name][0], COURANT), figure_dir, force=force)
-    headers = ["scheme", "time", "order", "stable for c in", "monotone for c in",
-               "TVD for c in", "conservative", "bounded"]
+    headers = ["scheme", "time", "order", "stability", "monotone", "TVD", "conservative",
+               "bounded (clip, fct)"]
     return table(headers, rows, markdown=True), figures, docs
 
 
@@ -152,7 +141,7 @@ def verify_part(examples_dir: Path, directory: Path, say, backend: str, force: b
     for i, (name, courant) in enumerate(VERIFY_SELECTION, 1):
         scheme = load_scheme(examples_dir / f"{name}.loom")
         say("verify", f"{name} at c = {courant:g} ({i}/{len(VERIFY_SELECTION)})")
-        prediction = Prediction.from_analysis(analysis_document(scheme, courant), scheme)
+        prediction = predict(scheme, courant)
         kernel = load_for_measuring(scheme, backend, "double")
         result = verify_kernel(kernel, prediction, Options(courant=courant))
         write_verification(result, directory / "verify", force)
@@ -165,19 +154,20 @@ def _verify_summary(results) -> str:
     for v in results:
         sine = v.convergence[0]
         st = v.stability
-        agree = sum(f.verdict == "agree" for f in v.findings)
+        agree = sum(f.verdict == AGREE for f in v.findings)
+        unclaimed = sum(f.verdict == NO_CLAIM for f in v.findings)
         rows.append([f"[{v.scheme}](verify/{v.scheme}-verify.md)", f"{v.options.courant:g}",
-                     f"{agree}/{len(v.findings)}",
-                     "-" if v.prediction.order is None else str(v.prediction.order),
+                     f"{agree} agree, {unclaimed} no claim, {len(v.disagreements)} disagree",
+                     "undecided" if v.prediction.order is None else str(v.prediction.order),
                      sine.finest_order["l1"],
-                     "never" if v.prediction.stability_kind == "unstable" else v.prediction.stable_max,
-                     ("grows everywhere" if st and st.unstable_everywhere else
-                      st.measured_max if st else None),
-                     "yes" if all(s.bounded and s.diverged_at is None for s in v.shapes) else "no",
+                     stability_text(v.prediction.claims.stability),
+                     ("grew at every c tried" if st and st.unstable_everywhere else
+                      measured_set_text(st) if st else "not measured"),
+                     "yes" if all(s.bounded and s.stopped_at is None for s in v.shapes) else "no",
                      max(s.new_extrema for s in v.shapes),
                      max(c.mass_drift for c in v.conservation)])
-    headers = ["scheme", "c", "findings agreeing", "predicted order", "measured l1 order",
-               "predicted stable c <=", "measured stable c <=", "bounded", "new extrema",
+    headers = ["scheme", "c", "findings", "predicted order", "measured l1 order",
+               "predicted stability", "measured stable for", "bounded", "new extrema",
                "mass drift"]
     return table(headers, rows, markdown=True)
 

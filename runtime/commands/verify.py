@@ -5,15 +5,14 @@ Exit status 0 when every finding agrees with the analysis, 1 when any disagrees,
 """
 from __future__ import annotations
 
-import argparse
 import json
-import math
 import sys
 from pathlib import Path
 
-from ..findings import Options, Prediction, verification_json, verify_kernel
-from ..report import verification_text, write_verification
-from .common import add_set_option, add_spec_argument, scheme_from_args
+from ..findings import Options, Prediction, verify_kernel
+from ..report import verification_json, verification_text, write_verification
+from .common import (add_courant_option, add_set_option, add_spec_argument, parse_courant,
+                     scheme_from_args)
 
 VELOCITIES = ("+1", "-1", "varying")
 
@@ -43,26 +42,20 @@ def add_kernel_options(parser) -> None:
     parser.add_argument("--backend", choices=("numpy", "c"), default="numpy",
                         help="which generated kernel to measure (default numpy)")
     parser.add_argument("--precision", choices=("double", "float"), default="double")
-    parser.add_argument("--courant", type=courant_number, default=0.5, metavar="C",
-                        help="Courant number |u| dt/dx of the runs (default 0.5)")
-
-
-def courant_number(text: str) -> float:
-    try:
-        value = float(text)
-    except ValueError:
-        value = math.nan
-    if not (math.isfinite(value) and value > 0):
-        raise argparse.ArgumentTypeError(f"expects a positive number, given '{text}'")
-    return value
+    add_courant_option(parser, "Courant number |u| dt/dx of the runs, e.g. 0.5 or 3/5 "
+                               "(default 0.5)")
 
 
 def analysis_document(scheme, courant: float) -> dict:
-    """The analysis JSON (`fluxloom check --json`) that findings are judged against."""
+    """The analysis document (`fluxloom check --json`) that findings are judged against."""
     from fluxloom.compiler.analysis import analyse
 
-    doc = analyse(scheme, courant).to_json()
-    return json.loads(doc) if isinstance(doc, str) else doc
+    return analyse(scheme, courant).to_json()
+
+
+def predict(scheme, courant: float) -> Prediction:
+    """The prediction verify holds a kernel against, read strictly from the analysis."""
+    return Prediction.from_document(analysis_document(scheme, courant))
 
 
 def load_for_measuring(scheme, backend: str, precision: str):
@@ -81,9 +74,11 @@ def progress_printer(enabled: bool, prefix: str):
 
 
 def run(args) -> int:
+    courant = parse_courant(args.courant)
+    options = Options(courant=courant, velocity=args.velocity)
+    options.check_size()            # before any work: tiny Courant numbers are refused
     scheme = scheme_from_args(args)
-    options = Options(courant=args.courant, velocity=args.velocity)
-    prediction = Prediction.from_analysis(analysis_document(scheme, args.courant), scheme)
+    prediction = predict(scheme, courant)
     kernel = load_for_measuring(scheme, args.backend, args.precision)
     say = progress_printer(sys.stderr.isatty() and not args.json, f"verify {scheme.name}")
     verification = verify_kernel(kernel, prediction, options, progress=say)
