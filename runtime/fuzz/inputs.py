@@ -161,8 +161,7 @@ class SpecWriter:
             self.lets.append(name)
         lines.append(self.flux("flux"))
         if rng.random() < 0.15:
-            lines.append(self.flux("low_flux").replace("u * (", "u * (q[0] + 0 * (", 1) + ")"
-                         if rng.random() < 0.3 else "  low_flux = u * q[0]")
+            lines.append("  low_flux = u * q[0]" if rng.random() < 0.7 else self.flux("low_flux"))
             if rng.random() < 0.7:
                 lines.append("  correct fct")
         if rng.random() < 0.1:
