@@ -40,6 +40,8 @@ class Summary:
     stage: str
     seed: int
     start: int
+    timeout: float = 10.0  # CPU seconds allowed per input
+    memory_mb: int = 1024  # address-space cap of a worker
     tried: int = 0
     outcomes: Counter = field(default_factory=Counter)
     kinds: Counter = field(default_factory=Counter)
@@ -54,6 +56,7 @@ class Summary:
 
     def to_json(self) -> dict:
         return {"stage": self.stage, "seed": self.seed, "start": self.start, "tried": self.tried,
+                "timeout_cpu_seconds": self.timeout, "memory_mb": self.memory_mb,
                 "escapes": self.escaped, "outcomes": dict(self.outcomes), "kinds": dict(self.kinds),
                 "slowest": [{"index": i, "seconds": s} for s, i in self.slowest],
                 "peak_rss_mb": self.peak_rss_mb, "seconds": round(self.seconds, 1),
@@ -127,7 +130,7 @@ def run(stage: str = "front", count: int = 1000, seed: int = 1, start: int = 0, 
         pending = ((start + i, *make_input(seed, start + i, corpus)) for i in range(count))
     else:
         pending = ((start + i, kind, data) for i, (kind, data) in enumerate(inputs))
-    summary = Summary(stage, seed, start)
+    summary = Summary(stage, seed, start, timeout, memory_mb)
     wall = wall or max(60.0, 10 * timeout)  # a safety net: the CPU limit is the real one
     began = time.monotonic()
     rundir = Path(tempfile.mkdtemp(prefix="fluxloom-fuzz-"))
@@ -195,7 +198,9 @@ def _record(summary: Summary, worker: Worker, status, stderr: str, seconds: floa
         return
     index, kind, data = worker.job
     outcome, why = classify(status, stderr, worker.path, data)
-    if crashed and status == 128 + signal.SIGXCPU:
+    if not crashed and status is not None and seconds > summary.timeout:
+        outcome, why = "timeout", f"answered after {seconds:.2f} CPU seconds"
+    elif crashed and status == 128 + signal.SIGXCPU:
         outcome, why = "timeout", "past the CPU time limit (SIGXCPU)"
     elif crashed:
         outcome, why = "crash", f"the worker died (exit status {status})"
