@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import sympy
 
+from ..emit.exchange import exchange_schedule
 from . import intervals
 from .intervals import CourantSet, Span
 from .wording import r_set_text
@@ -79,6 +80,7 @@ def analysis_document(a) -> dict:
                  "courant": a.courant, "linear": lin.exact, "linearisation": lin.note,
                  "linearised_at": lin.where or None}
     doc["time_method"] = time_method_document(s.time)
+    doc["exchange"] = exchange_schedule(s).to_json()  # the kernel's, for decomposed hosts
     undecided: list[str] = []
 
     # consistency and order

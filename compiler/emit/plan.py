@@ -30,6 +30,7 @@ import sympy
 from ..ir import Scheme
 from ..symbols import C, R, Ratio, limiter_calls, offsets_in
 from ..time_methods.low_storage import StageUpdate, low_storage_form
+from .exchange import ExchangeSchedule
 
 FCT_EXTRA_FACES = 2
 """Extra face velocities (and faces) per side an FCT step evaluates."""
@@ -69,6 +70,7 @@ class KernelPlan:
     stage_updates: tuple[StageUpdate, ...]   # derived from the time method's table
     registers: int      # arrays of n values kept in workspace from stage to stage
     uses_start: bool    # whether a stage reads q_start
+    exchange: ExchangeSchedule  # what a decomposed host refreshes, how wide, when
 
     @property
     def offsets(self) -> tuple[int, ...]:
@@ -217,6 +219,8 @@ def plan_kernel(scheme: Scheme) -> KernelPlan:
         stage_updates=stepping.updates,
         registers=stepping.registers,
         uses_start=stepping.uses_start,
+        exchange=ExchangeSchedule(kernel_halo(scheme), face_halo(scheme), len(stepping.updates),
+                                  fct),
     )
 
 

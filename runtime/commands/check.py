@@ -96,6 +96,15 @@ def _ssp(time_method: dict) -> str:
     return f"{exact} (not SSP)" if time_method["ssp_coefficient"] == 0 else exact
 
 
+def exchange_text(exchange: dict) -> str:
+    """The kernel's exchange schedule in one line (the `exchange` object of the JSON)."""
+    per_step = exchange["per_step"]
+    faces = (f", {exchange['face_halo']} face velocities per side" if exchange["face_halo"]
+             else "")
+    return (f"decomposed: kernel halo {exchange['halo']} cells per side{faces}, {per_step} "
+            f"exchange{'s' if per_step != 1 else ''} per step")
+
+
 def render(doc: dict) -> str:
     """The analysis for reading; every verdict is worded by compiler/analysis/wording.py."""
     claims = read_claims(doc)
@@ -110,6 +119,8 @@ def render(doc: dict) -> str:
                + (f" ({tm['linear_order']} on linear problems)"
                   if tm["linear_order"] != tm["order"] else "")
                + f", SSP coefficient {_ssp(tm)}")
+    if "exchange" in doc:
+        out.append("  " + exchange_text(doc["exchange"]))
     if not doc["linear"]:
         out.append(f"  nonlinear: {doc['linearisation']}")
 

@@ -35,7 +35,18 @@ def register(sub) -> None:
                         help="also write a Markdown report, JSON and PNG figures into DIR")
     parser.add_argument("--force", action="store_true",
                         help="let --report replace files fluxloom did not write")
+    add_decomposed_options(parser)
     parser.set_defaults(run=run)
+
+
+def add_decomposed_options(parser) -> None:
+    parser.add_argument("--ranks", type=int, metavar="N",
+                        help="also run the scheme decomposed over N MPI processes (launched with "
+                             "mpiexec; needs fluxloom[mpi]) and compare it with the single-domain "
+                             "run bit for bit")
+    parser.add_argument("--dims", type=int, default=1, metavar="D",
+                        help="dimensions of the domain (1; multi-dimensional sweeps are not "
+                             "built yet)")
 
 
 def add_kernel_options(parser) -> None:
@@ -77,17 +88,31 @@ def run(args) -> int:
     courant = parse_courant(args.courant)
     options = Options(courant=courant, velocity=args.velocity)
     options.check_size()            # before any work: tiny Courant numbers are refused
+    if args.ranks is not None or args.dims != 1:  # bad options before any work
+        from ..decomposed.finding import check_options
+        check_options(args.ranks, args.dims)
     scheme = scheme_from_args(args)
     prediction = predict(scheme, courant)
     kernel = load_for_measuring(scheme, args.backend, args.precision)
     say = progress_printer(sys.stderr.isatty() and not args.json, f"verify {scheme.name}")
     verification = verify_kernel(kernel, prediction, options, progress=say)
+    decomposed = None
+    if args.ranks is not None:
+        from ..decomposed.finding import verify_decomposed, with_decomposed
+        if say:
+            say(f"decomposed run on {args.ranks} processes")
+        decomposed = verify_decomposed(scheme, args.backend, args.precision, args.ranks,
+                                       args.dims, options.courant, args.velocity)
+        verification = with_decomposed(verification, decomposed)
     if args.report:
         written = write_verification(verification, Path(args.report), args.force)
         if not args.json:
             print(f"report: {', '.join(str(p) for p in written)}", file=sys.stderr)
     if args.json:
-        print(json.dumps(verification_json(verification), indent=2))
+        document = verification_json(verification)
+        if decomposed is not None:
+            document["decomposed"] = decomposed.to_json()
+        print(json.dumps(document, indent=2))
     else:
         print(verification_text(verification), end="")
     return 0 if verification.agree else 1

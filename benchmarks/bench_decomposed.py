@@ -1,0 +1,167 @@
+"""Decomposed runs: weak scaling measured on this machine, and the communication share
+of a step projected for 3-D subdomains of 32^3 to 256^3 cells per process.
+
+Weak scaling: every process holds the same number of cells (a 1-D periodic block,
+the generated C kernel at -O2, the driver of fluxloom.runtime.decomposed), run on
+1, 2 and 4 processes (4 oversubscribes a 2-core machine). Each process reports the
+wall time of its steps and the part spent in halo exchanges; the slowest process
+is shown. Efficiency is the 1-process step time over the P-process one.
+
+Projection: per step of a 3-D domain advanced by three directional sweeps of the
+1-D kernel, each with the kernel's exchange schedule (compiler/emit/exchange.py):
+bytes sent per process for the halos against the bytes the kernel streams (each
+stage reads its input and the face velocities and writes its output once), and
+a time share under stated machine assumptions (--memory-gbs, --network-gbs,
+--latency-us), communication not overlapped with computation.
+
+Not a test: run it by hand, `python benchmarks/bench_decomposed.py` (needs
+fluxloom[mpi]); `--project-only` prints the projection without running MPI.
+"""
+from __future__ import annotations
+
+import argparse
+import json
+import os
+import subprocess
+import sys
+import time
+from pathlib import Path
+
+ROOT = Path(__file__).resolve().parents[1]
+SCHEMES = ("lw_vanleer", "kappa_rk3", "lw_fct", "centred4_ssp10")
+SIDES = (32, 64, 128, 256)
+REAL_BYTES = 8  # double
+
+
+# ---- the MPI program: one weak-scaling run ---------------------------------------------
+
+def rank_program(spec: str, backend: str, cells: int, steps: int) -> None:
+    import numpy as np
+    from mpi4py import MPI
+
+    from fluxloom.compiler import load_scheme
+    from fluxloom.runtime.decomposed.blocks import Layout
+    from fluxloom.runtime.decomposed.driver import DecomposedDomain
+    from fluxloom.runtime.decomposed.stages import load_stage_kernel
+
+    comm = MPI.COMM_WORLD
+    size = comm.Get_size()
+    kernel = load_stage_kernel(load_scheme(spec), backend)
+    domain = DecomposedDomain(kernel, Layout(((cells,) * size,), (True,)), comm)
+    exchange_time = [0.0]
+    for name in ("cells", "faces"):
+        original = getattr(domain.exchange, name)
+
+        def timed(*args, _original=original):
+            start = time.perf_counter()
+            _original(*args)
+            exchange_time[0] += time.perf_counter() - start
+        setattr(domain.exchange, name, timed)
+    x = (domain.block.start[0] + np.arange(cells) + 0.5) / (cells * size)
+    q = domain.local_cells(np.zeros(cells * size))
+    q[kernel.halo:kernel.halo + cells] = np.sin(2 * np.pi * x)
+    faces = np.zeros(cells + 1 + 2 * kernel.face_halo)
+    faces[kernel.face_halo:kernel.face_halo + cells + 1] = 0.5 + 0.4 * np.sin(
+        2 * np.pi * (domain.block.start[0] + np.arange(cells + 1)) / (cells * size))
+    dt_dx = 0.5 / 0.9
+    for _ in range(2):  # warm up (first touch, caches)
+        q = domain.step(q, faces, dt_dx)
+    comm.Barrier()
+    exchange_time[0] = 0.0
+    start = time.perf_counter()
+    for _ in range(steps):
+        q = domain.step(q, faces, dt_dx)
+    elapsed = time.perf_counter() - start
+    rows = comm.gather((elapsed, exchange_time[0]), root=0)
+    if comm.Get_rank() == 0:
+        slowest = max(rows)
+        print(json.dumps({"seconds_per_step": slowest[0] / steps,
+                          "exchange_seconds_per_step": slowest[1] / steps}))
+
+
+def measure(spec: Path, backend: str, cells: int, steps: int, ranks: int) -> dict:
+    from fluxloom.runtime.decomposed.launch import require_mpi
+
+    mpiexec = require_mpi(ranks)
+    done = subprocess.run([mpiexec, "-n", str(ranks), sys.executable, __file__, "--rank-program",
+                           str(spec), backend, str(cells), str(steps)],
+                          capture_output=True, text=True, stdin=subprocess.DEVNULL, check=False)
+    if done.returncode != 0:
+        raise SystemExit(f"mpiexec failed:\n{done.stderr[-2000:]}")
+    return json.loads(done.stdout.strip().splitlines()[-1])
+
+
+# ---- the projection ----------------------------------------------------------------------
+
+def projection(schedule, side: int, memory_gbs: float, network_gbs: float,
+               latency_us: float) -> dict:
+    """One process's step on a side^3 block: three sweeps, each with the schedule's exchanges."""
+    sweeps = 3
+    face = side * side
+    exchanged = sweeps * 2 * face * REAL_BYTES * (schedule.q_exchanges * schedule.halo
+                                                  + schedule.face_exchanges * schedule.face_halo)
+    streamed = sweeps * schedule.stages * 3 * side ** 3 * REAL_BYTES
+    messages = sweeps * 2 * schedule.per_step
+    t_comm = messages * latency_us * 1e-6 + exchanged / (network_gbs * 1e9)
+    t_kernel = streamed / (memory_gbs * 1e9)
+    return {"side": side, "exchanged": exchanged, "streamed": streamed,
+            "bytes_ratio": exchanged / streamed, "time_share": t_comm / (t_comm + t_kernel)}
+
+
+def main() -> int:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--rank-program", nargs=4, metavar=("SPEC", "BACKEND", "CELLS", "STEPS"),
+                        help=argparse.SUPPRESS)
+    parser.add_argument("--cells", type=int, default=1_000_000, help="cells per process")
+    parser.add_argument("--steps", type=int, default=20)
+    parser.add_argument("--ranks", type=int, nargs="+", default=[1, 2, 4])
+    parser.add_argument("--backend", choices=("c", "numpy"), default="c")
+    parser.add_argument("--memory-gbs", type=float, default=5.0,
+                        help="memory bandwidth per process, GB/s (projection)")
+    parser.add_argument("--network-gbs", type=float, default=0.5,
+                        help="network bandwidth per process, GB/s (projection)")
+    parser.add_argument("--latency-us", type=float, default=2.0,
+                        help="latency per message, microseconds (projection)")
+    parser.add_argument("--project-only", action="store_true")
+    args = parser.parse_args()
+    if args.rank_program:
+        spec, backend, cells, steps = args.rank_program
+        rank_program(spec, backend, int(cells), int(steps))
+        return 0
+
+    from fluxloom.compiler import load_scheme
+    from fluxloom.compiler.emit.exchange import exchange_schedule
+
+    if not args.project_only:
+        print(f"Weak scaling: {args.cells} cells per process, {args.backend} kernel, "
+              f"{args.steps} steps; load average {os.getloadavg()[0]:.2f} on "
+              f"{os.cpu_count()} cores")
+        print(f"{'scheme':<16} {'P':>2} {'ms/step':>9} {'exchange ms':>12} {'share':>6} "
+              f"{'Mcells/s/P':>11} {'efficiency':>10}")
+        for name in SCHEMES:
+            base = None
+            for ranks in args.ranks:
+                m = measure(ROOT / "examples" / f"{name}.loom", args.backend, args.cells,
+                            args.steps, ranks)
+                t, te = m["seconds_per_step"], m["exchange_seconds_per_step"]
+                base = t if base is None else base
+                print(f"{name:<16} {ranks:>2} {1e3 * t:>9.2f} {1e3 * te:>12.3f} {te / t:>6.1%} "
+                      f"{args.cells / t / 1e6:>11.0f} {base / t:>10.2f}")
+
+    print(f"\nProjection for 3-D blocks of side^3 cells per process (three sweeps per step), "
+          f"memory {args.memory_gbs:g} GB/s, network {args.network_gbs:g} GB/s per process, "
+          f"latency {args.latency_us:g} us per message, no overlap:")
+    print(f"{'scheme':<16} {'halo':>4} {'exch/step':>9} {'side':>5} {'sent MB':>9} "
+          f"{'streamed MB':>12} {'bytes ratio':>11} {'time share':>10}")
+    for name in SCHEMES:
+        schedule = exchange_schedule(load_scheme(ROOT / "examples" / f"{name}.loom"))
+        for side in SIDES:
+            p = projection(schedule, side, args.memory_gbs, args.network_gbs, args.latency_us)
+            print(f"{name:<16} {schedule.halo:>4} {3 * schedule.per_step:>9} {side:>5} "
+                  f"{p['exchanged'] / 1e6:>9.3f} {p['streamed'] / 1e6:>12.1f} "
+                  f"{p['bytes_ratio']:>11.2%} {p['time_share']:>10.1%}")
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())

@@ -1,0 +1,113 @@
+"""A kernel's stage entry point (`NAME_stage`), for either back end.
+
+A host with its own halo exchange calls the kernel stage by stage and refreshes
+the halo of each stage's output in between; `StageKernel.stage` is that call for
+the generated numpy module and the compiled C kernel alike.
+
+The kernel travels as its generated source (`kernel_sources`, plain JSON): the
+ranks of a decomposed run load it from there without generating it again (the
+numpy module is executed, the C unit found in the build cache by its hash).
+Arguments are checked by the driver that owns the arrays, not here: this sits
+in its innermost loop.
+"""
+from __future__ import annotations
+
+import types
+from dataclasses import dataclass
+from typing import Callable
+
+import numpy as np
+
+BACKENDS = ("numpy", "c")
+DTYPES = {"double": np.dtype(np.float64), "float": np.dtype(np.float32)}
+C_TYPES = {"double": "double[]", "float": "float[]"}
+# (as in runtime/kernel.py, which the ranks' program does not import: it loads the compiler)
+
+
+@dataclass(frozen=True)
+class StageKernel:
+    name: str
+    backend: str
+    precision: str
+    halo: int          # ghost cells per side of every q array
+    face_halo: int     # face velocities per side beyond the n + 1 interior faces
+    stages: int
+    workspace_size: Callable[[int], int]
+    run_stage: Callable  # (stage, n, q_start, q_stage, q_out, u_face, dt_dx, work)
+
+    @property
+    def dtype(self) -> np.dtype:
+        return DTYPES[self.precision]
+
+    def workspace(self, n: int) -> np.ndarray:
+        """Workspace for stages of n cells (at least one value, so it can be passed)."""
+        return np.zeros(max(int(self.workspace_size(int(n))), 1), self.dtype)
+
+    def stage(self, stage: int, n: int, q_start, q_stage, q_out, u_face, dt_dx: float,
+              work) -> None:
+        self.run_stage(stage, n, q_start, q_stage, q_out, u_face, dt_dx, work)
+
+
+def kernel_sources(scheme, backend: str = "numpy", precision: str = "double",
+                   opt: str | None = None) -> dict:
+    """What a process needs to load scheme's kernel without generating it: JSON-able."""
+    from ..kernel import KernelError
+
+    if backend not in BACKENDS:
+        raise KernelError(f"unknown back end '{backend}'; choose one of {', '.join(BACKENDS)}")
+    if precision not in DTYPES:
+        raise KernelError(f"unknown precision '{precision}'; choose double or float")
+    found = {"name": scheme.name, "backend": backend, "precision": precision,
+             "fingerprint": scheme.fingerprint}
+    if backend == "numpy":
+        from fluxloom.compiler.emit.numpy_ import numpy_source
+        from fluxloom.compiler.emit.plan import banner_lines
+
+        banner = banner_lines(scheme, precision, verdicts=False)
+        return {**found, "source": numpy_source(scheme, precision, banner)}
+    from fluxloom.compiler.emit.c import c_declarations, c_sources
+
+    files = c_sources(scheme, precision, verdicts=False)
+    header, kernel = files[f"{scheme.name}.h"], files[f"{scheme.name}.c"]
+    # one translation unit, the header text standing in for its #include (as compile_c does)
+    unit = kernel.replace(f'#include "{scheme.name}.h"', header, 1)
+    return {**found, "source": unit, "declarations": c_declarations(scheme, precision),
+            "opt": opt or "-O2"}
+
+
+def stage_kernel(sources: dict) -> StageKernel:
+    """The stage entry point of the kernel `kernel_sources` described."""
+    name, precision = sources["name"], sources["precision"]
+    if sources["backend"] == "numpy":
+        module = types.ModuleType(f"fluxloom_stages_{name}_{precision}")
+        filename = f"<fluxloom {name} {precision} {sources['fingerprint']}>"
+        exec(compile(sources["source"], filename, "exec"), module.__dict__)
+        real = DTYPES[precision].type
+
+        def run_stage(stage, n, q_start, q_stage, q_out, u_face, dt_dx, work):
+            module.stage(stage, n, q_start, q_stage, q_out, u_face, real(dt_dx), work)
+
+        return StageKernel(name, "numpy", precision, module.HALO, module.FACE_HALO,
+                           module.STAGES, module.workspace_size, run_stage)
+
+    from ..build import compile_source
+
+    ffi, lib = compile_source(name, sources["source"], sources["declarations"], sources["opt"])
+    c_stage = getattr(lib, f"{name}_stage")
+    ctype = C_TYPES[precision]
+
+    def run_c_stage(stage, n, q_start, q_stage, q_out, u_face, dt_dx, work):
+        c_stage(stage, n, ffi.from_buffer(ctype, q_start), ffi.from_buffer(ctype, q_stage),
+                ffi.from_buffer(ctype, q_out, require_writable=True),
+                ffi.from_buffer(ctype, u_face), dt_dx,
+                ffi.from_buffer(ctype, work, require_writable=True))
+
+    return StageKernel(name, "c", precision, int(getattr(lib, f"{name}_HALO")),
+                       int(getattr(lib, f"{name}_FACE_HALO")), int(getattr(lib, f"{name}_STAGES")),
+                       getattr(lib, f"{name}_workspace_size"), run_c_stage)
+
+
+def load_stage_kernel(scheme, backend: str = "numpy", precision: str = "double",
+                      opt: str | None = None) -> StageKernel:
+    """The stage entry point of scheme's kernel (generated, and for C compiled, once)."""
+    return stage_kernel(kernel_sources(scheme, backend, precision, opt))
