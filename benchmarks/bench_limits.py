@@ -3,7 +3,9 @@
 Each spec sits at a limit of compiler/limits.py (the largest file, the widest stencil
 with every time method, the deepest nesting, the most nodes, the largest exponent)
 and runs in a fresh process, as a user would run it. Shown: exit status, wall and
-CPU seconds, and the child's peak resident memory. Plus one line per front-end
+CPU seconds, and the child's peak resident memory. The target is judged on CPU
+seconds (start-up included): on a shared machine the wall clock mostly measures
+the neighbours. Plus one line per front-end
 scaling run (lets: 1,000 to 4,000 lines) to show the cost grows linearly.
 Not a test: run it by hand, `python benchmarks/bench_limits.py`.
 """
@@ -153,14 +155,14 @@ def main() -> int:
             path = Path(folder) / "limit.loom"
             path.write_text(text)
             code, wall, cpu, mb, err = run_check(path)
-            ok = code == 0 and wall < TARGET_SECONDS and mb < TARGET_MB
+            ok = code == 0 and cpu < TARGET_SECONDS and mb < TARGET_MB
             worst_ok &= ok
             print(f"{name:36} {code:>4} {wall:7.2f} {cpu:7.2f} {mb:8.0f}  {len(text.encode())}"
                   + ("" if code == 0 else f"  {err}"), flush=True)
     print("\nfront end (parse, check, lower) on n let lines:")
     for lets, seconds in front_end_scaling():
         print(f"  {lets:6d} lets: {seconds:6.2f} s ({seconds / lets * 1e6:6.0f} us per let)")
-    print(f"\ntarget: every case exits 0 in < {TARGET_SECONDS:g} s and < {TARGET_MB:g} MB: "
+    print(f"\ntarget: every case exits 0 in < {TARGET_SECONDS:g} CPU s and < {TARGET_MB:g} MB: "
           f"{'met' if worst_ok else 'MISSED'}")
     return 0 if worst_ok else 1
 
