@@ -39,16 +39,18 @@ class Measurer:
 
     def __init__(self):
         self.lets: dict[str, Measure] = {}
-        self.limiters: dict[str, tuple[Measure, int]] = {}  # body (argument of degree 1), uses
+        # each limiter's body (its arguments of degree 1) and how often it uses each argument
+        self.limiters: dict[str, tuple[Measure, tuple[int, ...]]] = {}
 
     def let(self, name: str, value: ast.Expr) -> None:
         self.lets[name] = self.check(value, f"let '{name}'")
 
-    def limiter(self, name: str, arg: str, body: ast.Expr) -> None:
-        self.limiters[name] = (self.check(body, f"limiter '{name}'", arg), _uses(body, arg))
+    def limiter(self, name: str, args: list[str], body: ast.Expr) -> None:
+        self.limiters[name] = (self.check(body, f"limiter '{name}'", tuple(args)),
+                               tuple(_uses(body, a) for a in args))
 
-    def check(self, expr: ast.Expr, what: str, arg: str | None = None) -> Measure:
-        m = self.measure(expr, arg)
+    def check(self, expr: ast.Expr, what: str, args: tuple[str, ...] = ()) -> Measure:
+        m = self.measure(expr, args)
         if m.nodes > MAX_EXPRESSION_NODES:
             raise LoomError(f"{what} is too large: {m.nodes} operators and operands once the "
                             f"lets and limiters it uses are written out (at most "
@@ -63,35 +65,37 @@ class Measurer:
                             "multiply it, a quotient adds its parts)", expr.span)
         return m
 
-    def measure(self, expr: ast.Expr, arg: str | None = None) -> Measure:
+    def measure(self, expr: ast.Expr, args: tuple[str, ...] = ()) -> Measure:
         if isinstance(expr, ast.Number):
             return CONSTANT
         if isinstance(expr, ast.Name):
-            if expr.id == arg or expr.id == "c":
+            if expr.id in args or expr.id == "c":
                 return VARIABLE
             return self.lets.get(expr.id, CONSTANT)  # params, u and unknown names
         if isinstance(expr, ast.Index):
             return Measure(1, 1, 1, 0)
         if isinstance(expr, ast.Unary):
-            m = self.measure(expr.operand, arg)
+            m = self.measure(expr.operand, args)
             return Measure(m.nodes + 1, m.depth + 1, m.num, m.den)
         if isinstance(expr, ast.Binary):
-            return _binary(expr, self.measure(expr.left, arg), self.measure(expr.right, arg))
+            return _binary(expr, self.measure(expr.left, args), self.measure(expr.right, args))
         if isinstance(expr, ast.Call):
-            return self._call(expr, [self.measure(a, arg) for a in expr.args])
+            return self._call(expr, [self.measure(a, args) for a in expr.args])
         raise AssertionError(f"unhandled node {type(expr).__name__}")  # a fluxloom bug
 
     def _call(self, expr: ast.Call, args: list[Measure]) -> Measure:
         nodes = 1 + sum(a.nodes for a in args)
         depth = 1 + max((a.depth for a in args), default=0)
         name = expr.func.id
-        if name in self.limiters and len(args) == 1:
-            (body, uses), a = self.limiters[name], args[0]
-            # psi(N/D) with psi = P/Q of degrees p, q: numerator P(N/D) D^p Q... cleared
-            widest = max(a.num, a.den)
-            return Measure(1 + body.nodes + uses * (a.nodes - 1), 1 + body.depth + a.depth,
-                           body.num * widest + body.den * a.den,
-                           body.den * widest + body.num * a.den)
+        if name in self.limiters and len(args) == len(self.limiters[name][1]):
+            body, uses = self.limiters[name]
+            # psi = P/Q of degrees p, q with each argument N/D of degree at most `widest`
+            # (denominators at most `den`): cleared, P(N/D) D^p has degree p widest.
+            widest = max(max(a.num, a.den) for a in args)
+            den = max(a.den for a in args)
+            return Measure(1 + body.nodes + sum(k * (a.nodes - 1) for k, a in zip(uses, args)),
+                           1 + body.depth + max(a.depth for a in args),
+                           body.num * widest + body.den * den, body.den * widest + body.num * den)
         if name == "ratio" and len(args) == 2:
             return Measure(nodes, depth, args[0].num + args[1].den, args[0].den + args[1].num)
         if name == "sign":

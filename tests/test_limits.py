@@ -258,3 +258,12 @@ def test_a_param_used_as_an_exponent_is_bounded_like_a_number():
         scheme_from_text(text, "p.loom", {"k": sympy.Integer(65)})
     err = _error(text.replace("k = 2", "k = 65"))
     assert "exponent k = 65 is too large" in err.message and (err.span.line, err.span.col) == (3, 36)
+
+
+def test_courant_limiters_are_measured_with_both_arguments():
+    # f(r, c) = r^2 * c has degree 3: each nesting multiplies the degree by 3 (3^9 > 256)
+    calls = "f(" * 9 + "q[1] - q[0]" + ", c)" * 9
+    text = f"scheme n {{\n  limiter f(r, c) = r^2 * c\n  flux = u * (q[0] + {calls})\n}}\n"
+    err = _error(text)
+    assert "the flux has degree up to" in err.message and err.span.line == 3
+    assert scheme_from_text(text.replace("f(" * 9, "f(" * 2).replace(", c)" * 9, ", c)" * 2))
