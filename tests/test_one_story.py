@@ -14,7 +14,7 @@ import pytest
 
 from fluxloom.compiler import load_scheme
 from fluxloom.runtime.cli import main
-from fluxloom.runtime.commands import demo
+from fluxloom.runtime import demo
 from fluxloom.runtime.commands.build import generated_files
 from fluxloom.runtime.commands.verify import predict
 from fluxloom.runtime.findings import Options, verify_kernel
@@ -77,7 +77,8 @@ def test_every_output_tells_the_same_story(stem, capsys, tmp_path):
     facts = FACTS[stem]
     outputs = {}
     outputs["check"] = _check_text(capsys, path)
-    assert main(["compare", str(path), "--cells", "16"]) == 0
+    assert main(["compare", str(path), "--cells", "16", "--grids", "16,32", "--repeats", "1",
+                 "--timing-cells", "1000"]) == 0
     outputs["compare"] = capsys.readouterr().out
     table, _, _ = demo.check_part([path], tmp_path, lambda *a: None, True)
     outputs["demo"] = table
