@@ -267,4 +267,4 @@ def stability_text_of(standin) -> str:
     """One linear stand-in's stability, worded like the scheme's."""
     from fluxloom.compiler.analysis.claims import Stability
 
-    return stability_text(Stability(standin.kind, standin.stable, (), None, None, ""))
+    return stability_text(Stability(standin.kind, standin.stable, (), None, None, "", "unstable"))
