@@ -11,6 +11,8 @@ import sys
 
 from . import syntax as ast
 from .diagnostics import LoomError, Span, did_you_mean
+from .limits import MAX_OFFSET
+from .measure import Measurer
 from .time_methods import NAMES as TIME_METHODS
 CORRECTIONS = ("fct",)
 
@@ -63,11 +65,17 @@ class _Scope:
         self.params: dict[str, ast.Param] = {}
         self.lets: dict[str, ast.Let] = {}
         self.limiters: dict[str, ast.LimiterDef] = {}
+        self.names: dict[str, Span] = {}  # params, lets and limiters defined so far
+        self.measure = Measurer()  # sizes once lets are written out (compiler/limits.py)
 
     def defined(self) -> dict[str, Span]:
-        return {**{k: v.name.span for k, v in self.params.items()},
-                **{k: v.name.span for k, v in self.lets.items()},
-                **{k: v.name.span for k, v in self.limiters.items()}}
+        """Every param, let and limiter defined so far -> where (kept, not rebuilt: a
+        spec of n statements is checked in time linear in n)."""
+        return self.names
+
+    def add(self, table: dict, stmt) -> None:
+        table[stmt.name.id] = stmt
+        self.names[stmt.name.id] = stmt.name.span
 
 
 def check(spec: ast.Spec) -> None:
@@ -121,10 +129,11 @@ def check(spec: ast.Spec) -> None:
         if isinstance(stmt, ast.Param):
             _check_param_name(spec.name, stmt, scope.params)
             _check_expr(stmt.value, scope, "param", time_method)
-            scope.params[stmt.name.id] = stmt
+            scope.add(scope.params, stmt)
         elif isinstance(stmt, ast.Let):
             _check_expr(stmt.value, scope, "let", time_method)
-            scope.lets[stmt.name.id] = stmt
+            scope.measure.let(stmt.name.id, stmt.value)
+            scope.add(scope.lets, stmt)
         elif isinstance(stmt, ast.LimiterDef):
             _check_limiter_arguments(stmt, time_method)
             arg = stmt.args[0]
@@ -134,9 +143,11 @@ def check(spec: ast.Spec) -> None:
                                 "that param: rename one of them", arg.span)
             _check_expr(stmt.body, scope, "limiter", time_method, arg=arg.id,
                         courant=len(stmt.args) == 2)
-            scope.limiters[stmt.name.id] = stmt
+            scope.measure.limiter(stmt.name.id, [a.id for a in stmt.args], stmt.body)
+            scope.add(scope.limiters, stmt)
         elif isinstance(stmt, ast.Flux):
             _check_expr(stmt.value, scope, stmt.kind, time_method)
+            scope.measure.check(stmt.value, f"the {stmt.kind}")
         elif isinstance(stmt, ast.Clip):
             _check_expr(stmt.low, scope, "clip", time_method)
             _check_expr(stmt.high, scope, "clip", time_method)
@@ -225,8 +236,13 @@ def _check_expr(expr: ast.Expr, scope: _Scope, where: str, time_method: str,
             raise LoomError(f"only 'q' can be indexed; '{base.id}[...]' is not allowed", base.span)
         if constant or where == "limiter":
             raise LoomError(f"'q[...]' is not allowed in a {where}", expr.span)
-        if integer_offset(expr.offset) is None:
+        offset = integer_offset(expr.offset)
+        if offset is None:
             raise LoomError("the offset in q[...] must be an integer such as 0, 1 or -1",
+                            expr.offset.span)
+        if abs(offset) > MAX_OFFSET:
+            raise LoomError(f"stencil offset too wide: q[k] needs -{MAX_OFFSET} <= k <= "
+                            f"{MAX_OFFSET} (the widest stencil fluxloom analyses)",
                             expr.offset.span)
         return
     if isinstance(expr, ast.Name):
@@ -311,11 +327,16 @@ def _check_name(expr: ast.Name, scope: _Scope, where: str, time_method: str,
 
 
 def integer_offset(expr: ast.Expr) -> int | None:
-    """The integer value of a q[...] offset, or None if it is not an integer literal."""
+    """The integer value of a q[...] offset, or None if it is not an integer literal.
+
+    Offsets of more than six digits come back as +-10**6 (far past MAX_OFFSET, which
+    check refuses) rather than being converted digit by digit.
+    """
     sign = 1
     while isinstance(expr, ast.Unary):
         sign = -sign if expr.op == "-" else sign
         expr = expr.operand
     if isinstance(expr, ast.Number) and re.fullmatch(r"\d+", expr.text):
-        return sign * int(expr.text)
+        digits = expr.text.lstrip("0") or "0"
+        return sign * (int(digits) if len(digits) <= 6 else 10 ** 6)
     return None

@@ -29,7 +29,7 @@ from .diagnostics import LoomError, Span
 MAX_LITERAL_DIGITS = 100
 MAX_DECIMAL_EXPONENT = 400
 MAX_CONSTANT_BITS = 10_000
-MAX_EXPONENT = 64
+from .limits import MAX_EXPONENT  # one limit, written once
 """The largest power of a constant (q[0]^k needs |k| <= 64 as well)."""
 
 REAL_MAX = Fraction(int(np.finfo(np.float32).max))

@@ -1,6 +1,7 @@
 """Located errors: every problem in a spec is reported as file:line:col with a caret."""
 from __future__ import annotations
 
+import re
 from dataclasses import dataclass
 
 
@@ -12,6 +13,9 @@ class Span:
     col: int
     end_line: int | None = None
     end_col: int | None = None
+
+
+SHOWN_WIDTH = 160  # characters of a source line shown under an error
 
 
 class LoomError(Exception):
@@ -36,28 +40,65 @@ class LoomError(Exception):
         return self
 
     def render(self) -> str:
+        file, message = printable(self.file), _shorten(printable(self.message, keep="\n\t"))
         if self.span is None:
-            return f"{self.file}: error: {self.message}"
-        head = f"{self.file}:{self.span.line}:{self.span.col}: error: {self.message}"
+            return f"{file}: error: {message}"
+        head = f"{file}:{self.span.line}:{self.span.col}: error: {message}"
         line = source_line(self.source, self.span.line)
         if line is None:
             return head
         width = 1
         if self.span.end_line == self.span.line and self.span.end_col:
             width = max(1, self.span.end_col - self.span.col)
-        caret = " " * (self.span.col - 1) + "^" + "~" * (width - 1)
+        col = self.span.col
+        if len(line) > SHOWN_WIDTH:  # a window of a long line around the column
+            start = max(0, min(col - 1 - SHOWN_WIDTH // 2, len(line) - SHOWN_WIDTH))
+            line = ("..." if start else "") + line[start:start + SHOWN_WIDTH] + (
+                "..." if start + SHOWN_WIDTH < len(line) else "")
+            col = col - start + (3 if start else 0)
+            width = max(1, min(width, len(line) - col + 1))
+        caret = " " * (col - 1) + "^" + "~" * (width - 1)
         return f"{head}\n  {line}\n  {caret}"
 
     def __str__(self) -> str:  # pragma: no cover - used in logs only
         return self.render()
 
 
+def printable(text: str, keep: str = "") -> str:
+    """text with control characters (and line separators) written as escapes, so a
+    file name or a quoted name cannot move the terminal's cursor or fake a line."""
+    return "".join(ch if ch.isprintable() or ch in keep
+                   else ch.encode("unicode_escape").decode("ascii") for ch in text)
+
+
+def _shorten(message: str) -> str:
+    """Very long words (a 5000-digit number, a name pasted many times) cut in the middle."""
+    return _LONG_WORD.sub(lambda m: f"{m.group(0)[:30]}...({len(m.group(0))} characters)..."
+                          f"{m.group(0)[-10:]}", message)
+
+
+_LONG_WORD = re.compile(r"[^\s']{81,}")
+
+
+def split_lines(text: str) -> list[str]:
+    """Lines as the parser counts them: only '\n' ends a line ('\r\n' too).
+
+    str.splitlines() also breaks at form feeds, vertical tabs, NEL and U+2028,
+    which would quote the wrong line under every later error.
+    """
+    return [line[:-1] if line.endswith("\r") else line for line in text.split("\n")]
+
+
 def source_line(source: str | None, line: int) -> str | None:
+    """Line `line` (from 1) as shown under an error: one printable character per column."""
     if source is None:
         return None
-    lines = source.splitlines()
+    lines = split_lines(source)
+    if lines and lines[-1] == "":  # the text ends with a newline: no line after it
+        lines.pop()
     if 1 <= line <= len(lines):
-        return lines[line - 1].expandtabs(1)
+        # Tabs and control characters become one space each, so the caret lines up.
+        return "".join(ch if ch.isprintable() else " " for ch in lines[line - 1])
     return None
 
 

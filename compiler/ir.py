@@ -17,6 +17,7 @@ from . import constants
 from . import syntax as ast
 from .check import integer_offset
 from .diagnostics import LoomError, Span, did_you_mean
+from .limits import MAX_EXPONENT  # keeps exact arithmetic on constants from running away
 from .symbols import (C, R, U, Ratio, limiter_calls, limiter_function, limiter_name_of, offsets_in,
                       param_symbol, q)
 
@@ -343,12 +344,49 @@ def _face_of(flux: sympy.Expr, stmt: ast.Flux) -> sympy.Expr:
     if U in g.free_symbols or g.has(sympy.Derivative, sympy.Subs):
         raise LoomError(f"{why}; this one is not linear in u", stmt.value.span)
     rest = flux.subs(U, 0)
-    if rest != 0 and sympy.expand(rest) != 0:
+    if rest != 0 and not _vanishes(rest):
         raise LoomError(f"{why}; this one has a part without u", stmt.value.span)
     # Prefer the user's own grouping when the flux is literally u * (...).
     if isinstance(flux, sympy.Mul) and U in flux.args:
         g = sympy.Mul(*[a for a in flux.args if a != U])
     return g
+
+
+def _vanishes(expr: sympy.Expr) -> bool:
+    """Whether expr is zero as a rational function of the q(k), c, params and its
+    non-rational parts (abs, min, max, sign, ratio, limiter calls, roots, powers with a
+    symbolic exponent), each taken as an opaque atom, as expansion would take them.
+
+    Decided without expanding (which can build millions of terms): expr is evaluated
+    exactly at random rational points, with a random rational for each atom. A nonzero
+    rational function of degree d vanishes at such a point with probability at most
+    d / 2^62 (polynomial identity testing), so zero at every point means zero.
+    """
+    import random
+
+    atoms = {a for a in expr.atoms(sympy.Function, sympy.Min, sympy.Max, sympy.Pow)
+             if not isinstance(a, sympy.Pow) or not (a.exp.is_Integer and abs(a.exp) <= 4096)}
+    # innermost first, so that replacing an atom never leaves one inside another stale
+    opaque = sorted(atoms, key=lambda a: (sympy.count_ops(a), sympy.default_sort_key(a)))
+    rng = random.Random(sympy.srepr(expr)[:4000])
+    tried = 0
+    for _ in range(16):
+        values = {a: _random_rational(rng) for a in opaque}
+        value = expr.xreplace({a: values[a] for a in reversed(opaque)})
+        value = value.xreplace({s: _random_rational(rng)
+                                for s in sorted(value.free_symbols, key=str)})
+        if value.has(sympy.nan, sympy.zoo) or not value.is_Rational:
+            continue  # a random point on a pole: another one
+        if value != 0:
+            return False
+        tried += 1
+        if tried == 4:
+            return True
+    return False  # no usable point: not shown to vanish
+
+
+def _random_rational(rng) -> sympy.Rational:
+    return sympy.Rational(rng.randrange(-2 ** 62, 2 ** 62), rng.randrange(1, 2 ** 62))
 
 
 # ---- param overrides (--set NAME=VALUE) ------------------------------------
@@ -389,4 +427,27 @@ def apply_overrides(scheme: Scheme, overrides: dict[str, sympy.Expr]) -> Scheme:
             have = f"; it has {', '.join(known)}" if known else "; it has no params"
             raise LoomError(f"--set {name}: scheme '{scheme.name}' has no param '{name}'"
                             f"{did_you_mean(name, known)}{have}", file="--set")
+    _check_param_exponents(scheme, overrides)
     return scheme.with_params(overrides)
+
+
+def too_large_exponent(value: sympy.Expr) -> bool:
+    return bool(value.is_number and value.is_real and abs(value) > MAX_EXPONENT)
+
+
+def _check_param_exponents(scheme: Scheme, overrides: dict[str, sympy.Expr]) -> None:
+    """An override must keep every exponent that uses it within MAX_EXPONENT."""
+    if not overrides:
+        return
+    values = {p.symbol: overrides.get(p.name, p.value) for p in scheme.params}
+    exprs = [scheme.face] + [e for e in (scheme.low_face,) if e is not None]
+    exprs += [lim.body for lim in scheme.limiters]
+    for expr in exprs:
+        for power in expr.atoms(sympy.Pow):
+            if power.exp.free_symbols & set(values):
+                value = power.exp.xreplace(values)
+                if too_large_exponent(value):
+                    used = ", ".join(sorted(str(s) for s in power.exp.free_symbols))
+                    raise LoomError(f"--set: {used} makes the exponent {power.exp} = {value}, "
+                                    f"more than {MAX_EXPONENT} (a param used as an exponent is "
+                                    "bounded like a number)", file="--set")

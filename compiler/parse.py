@@ -9,7 +9,8 @@ import lark
 from lark import Transformer, v_args
 
 from . import syntax as ast
-from .diagnostics import LoomError, Span
+from .diagnostics import LoomError, Span, split_lines
+from .limits import MAX_DEPTH, MAX_FILE_BYTES
 
 # Friendly names for the grammar's terminals, used in syntax errors.
 TOKEN_WORDS = {
@@ -119,7 +120,9 @@ class _ToAst(Transformer):
 
 def _syntax_error(err: lark.exceptions.UnexpectedInput, text: str) -> LoomError:
     """Turn lark's parser state into one plain sentence at the right spot."""
-    lines = text.splitlines() or [""]
+    lines = split_lines(text)
+    if len(lines) > 1 and lines[-1] == "":  # a final newline ends the last line
+        lines.pop()
     if isinstance(err, lark.exceptions.UnexpectedCharacters):
         span = Span(err.line, err.column, err.line, err.column + 1)
         char = text[err.pos_in_stream] if err.pos_in_stream < len(text) else ""
@@ -170,6 +173,7 @@ def _describe(tok: lark.Token) -> str:
 
 def parse_text(text: str, file: str = "<spec>") -> ast.Spec:
     """Parse spec text into an AST, or raise LoomError with a location."""
+    check_size(text.encode("utf-8", "surrogatepass"), file, text)
     if not _strip_comments(text).strip():
         raise LoomError("empty file: expected 'scheme NAME { ... }'", Span(1, 1),
                         file=file, source=text)
@@ -177,31 +181,70 @@ def parse_text(text: str, file: str = "<spec>") -> ast.Spec:
         tree = _parser().parse(text)
     except lark.exceptions.UnexpectedInput as err:
         raise _syntax_error(err, text).located(file, text) from None
+    _check_depth(tree)
     spec = _ToAst().transform(tree)
     return ast.Spec(spec.name, spec.statements, spec.span, file, text)
 
 
 def _strip_comments(text: str) -> str:
-    return "\n".join(line.split("#", 1)[0] for line in text.splitlines())
+    return "\n".join(line.split("#", 1)[0] for line in text.split("\n"))
+
+
+# Expression nodes of the grammar; each is one level of nesting.
+_NESTING = frozenset({"add", "sub", "mul", "div", "pow", "neg", "pos", "group", "index", "call"})
+
+
+def _check_depth(tree: lark.Tree) -> None:
+    """Refuse expressions nested deeper than MAX_DEPTH before anything recurses on them.
+
+    Iterative, so that no depth of input can exhaust the stack here.
+    """
+    stack = [(tree, 0)]
+    while stack:
+        node, depth = stack.pop()
+        if node.data in _NESTING:
+            depth += 1
+            if depth > MAX_DEPTH:
+                raise LoomError(f"expression nested more than {MAX_DEPTH} levels deep (each "
+                                "operator, parenthesis and call is a level); split it with "
+                                "'let' or group long sums in parentheses", _span(node.meta))
+        stack.extend((child, depth) for child in node.children if isinstance(child, lark.Tree))
+
+
+def check_size(raw: bytes, file: str, text: str | None = None) -> None:
+    """Refuse a spec longer than MAX_FILE_BYTES, pointing at the first byte past the limit."""
+    if len(raw) <= MAX_FILE_BYTES:
+        return
+    before = raw[:MAX_FILE_BYTES]
+    start = before.rfind(b"\n") + 1
+    line = before.count(b"\n") + 1
+    col = len(before[start:].decode("utf-8", "replace")) + 1
+    shown = text if text is not None else raw.decode("utf-8", "replace")
+    raise LoomError(f"the spec is larger than {MAX_FILE_BYTES // 1024} KiB ({MAX_FILE_BYTES} "
+                    f"bytes), the most fluxloom reads; this one goes on past here",
+                    Span(line, col), file=file, source=shown)
 
 
 def read_spec_text(path: str | Path) -> str:
     """Read a spec file as UTF-8, with located errors for missing files and bad bytes."""
     path = Path(path)
     try:
-        raw = path.read_bytes()
+        with path.open("rb") as stream:
+            raw = stream.read(MAX_FILE_BYTES + 1)  # never more, whatever the file is
     except FileNotFoundError:
         raise LoomError("no such file", file=str(path)) from None
     except IsADirectoryError:
         raise LoomError("is a directory, not a .loom file", file=str(path)) from None
     except OSError as err:
         raise LoomError(f"cannot read file: {err.strerror}", file=str(path)) from None
+    check_size(raw, str(path))
     try:
         return raw.decode("utf-8")
     except UnicodeDecodeError as err:
         before = raw[: err.start]
+        start = before.rfind(b"\n") + 1
         line = before.count(b"\n") + 1
-        col = len(before) - (before.rfind(b"\n") + 1) + 1
+        col = len(before[start:].decode("utf-8", "replace")) + 1  # characters, as the parser counts
         shown = raw.decode("utf-8", errors="replace")
         raise LoomError(f"the file is not valid UTF-8 (byte 0x{raw[err.start]:02x})",
                         Span(line, col), file=str(path), source=shown) from None

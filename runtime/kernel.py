@@ -92,6 +92,7 @@ class Kernel:
         """
         q = self._check_array("q", q)
         u_face = self._check_array("u_face", u_face)
+        given_u_face = u_face
         n = len(q) - 2 * self.halo
         if n < 1:
             raise KernelError(f"{self.name}: q has {len(q)} values; it needs n + 2*halo with "
@@ -103,12 +104,8 @@ class Kernel:
             raise KernelError(f"{self.name}: u_face has {len(u_face)} values; q has {n} interior "
                               f"cells, so it needs n + 1{extra} = {n + 1 + 2 * self.face_halo} "
                               "face velocities")
-        try:
-            dt_dx = float(dt_dx)
-        except (TypeError, ValueError):
-            raise KernelError(f"{self.name}: dt_dx must be a real number, not {dt_dx!r}") from None
-        if not math.isfinite(dt_dx):
-            raise KernelError(f"{self.name}: dt_dx must be finite, not {dt_dx}")
+        dt_dx = self._check_dt_dx(dt_dx)
+        self._check_velocities(u_face)
         if out is None:
             out = q.copy()
         else:
@@ -116,11 +113,36 @@ class Kernel:
             if out.shape != q.shape:
                 raise KernelError(f"{self.name}: out has {len(out)} values, q has {len(q)}; "
                                   "they must be the same size")
+            if not out.flags.writeable:
+                raise KernelError(f"{self.name}: out is read-only; pass a writable array "
+                                  "(or none, and step returns a new one)")
             if np.shares_memory(out, q):
                 raise KernelError(f"{self.name}: out must not overlap q (the step reads q's "
                                   "neighbours after writing out)")
+            if np.shares_memory(out, given_u_face):
+                raise KernelError(f"{self.name}: out must not overlap u_face (the step reads "
+                                  "face velocities after writing out)")
         self._run_step(n, q, out, u_face, dt_dx, self._workspace(n))
         return out
+
+    def _check_dt_dx(self, dt_dx) -> float:
+        try:
+            value = float(dt_dx)
+        except (TypeError, ValueError):
+            raise KernelError(f"{self.name}: dt_dx must be a real number, not {dt_dx!r}") from None
+        if not math.isfinite(value):
+            raise KernelError(f"{self.name}: dt_dx must be finite, not {value}")
+        if value < 0:
+            raise KernelError(f"{self.name}: dt_dx is dt/dx and cannot be negative, given "
+                              f"{value} (the direction of flow is the sign of u_face)")
+        return value
+
+    def _check_velocities(self, u_face: np.ndarray) -> None:
+        """NaN or infinite velocities are refused here (the generated kernels do not check)."""
+        if len(u_face) and not (math.isfinite(u_face.min()) and math.isfinite(u_face.max())):
+            bad = np.flatnonzero(~np.isfinite(u_face))[0]
+            raise KernelError(f"{self.name}: u_face[{bad}] is {u_face[bad]}; face velocities "
+                              "must be finite")
 
     def _workspace(self, n: int):
         size = self.workspace_size(n)

@@ -35,7 +35,13 @@ def cache(tmp_path, monkeypatch):
 
 
 def libraries(cache):
-    return sorted(p.name for p in cache.iterdir() if p.suffix == ".so")
+    """The cached libraries: one folder per build holding the library and its digest."""
+    return sorted(p.name for p in cache.glob("_fluxloom_*/*.so"))
+
+
+def leftovers(cache):
+    """Temporary build folders and discarded entries still lying around."""
+    return [p.name for p in cache.iterdir() if p.name.startswith(".")]
 
 
 def test_build_lands_in_the_cache_and_is_reused(cache):
@@ -43,11 +49,12 @@ def test_build_lands_in_the_cache_and_is_reused(cache):
     ffi, lib = compile_c(scheme)
     built = libraries(cache)
     assert len(built) == 1 and built[0].startswith(f"_fluxloom_{scheme.name}_")
-    mtime = (cache / built[0]).stat().st_mtime_ns
+    (library,) = cache.glob("_fluxloom_*/*.so")
+    mtime = library.stat().st_mtime_ns
     again = compile_c(scheme)
     assert again[1] is lib
-    assert (cache / built[0]).stat().st_mtime_ns == mtime
-    assert [p.name for p in cache.iterdir() if p.is_dir()] == []  # no leftover build dirs
+    assert library.stat().st_mtime_ns == mtime
+    assert leftovers(cache) == []
 
 
 def test_source_and_flags_name_the_build(cache):
@@ -121,7 +128,7 @@ def test_two_processes_building_the_same_scheme_at_once(cache, tmp_path):
     assert [run.returncode for run in runs] == [0, 0], outputs
     assert outputs[0][0] == outputs[1][0] and outputs[0][0].strip()
     assert len(libraries(cache)) == 1
-    assert [p for p in cache.iterdir() if p.is_dir()] == []
+    assert leftovers(cache) == []
 
 
 def test_module_name_is_a_hash_of_source_and_flags():

@@ -21,7 +21,7 @@ from dataclasses import dataclass
 import numpy
 import sympy
 
-from ..symbols import C, R
+from ..symbols import C, R, Ratio
 from . import intervals, parametric, piecewise
 from .intervals import CourantSet, Span
 from .parametric import Condition
@@ -115,7 +115,7 @@ def _negative_set(expr: sympy.Expr, span: sympy.Interval) -> sympy.Set:
     """The r in span where the rational function expr < 0, exactly."""
     if span.measure == 0:
         return sympy.Union(*[sympy.FiniteSet(p) for p in span.boundary
-                             if p.is_finite and sympy.simplify(expr.subs(R, p)) < 0])
+                             if p.is_finite and _negative_at(expr, p)])
     num, den = sympy.fraction(sympy.cancel(expr))
     lo, hi = span.inf, span.sup
     cuts = sorted(set(piecewise.interior_roots(num, lo, hi) + piecewise.interior_roots(den, lo, hi)),
@@ -124,9 +124,15 @@ def _negative_set(expr: sympy.Expr, span: sympy.Interval) -> sympy.Set:
     found = [sympy.Interval.open(a, b) for a, b in zip(points, points[1:])
              if expr.subs(R, piecewise.rational_between(a, b)) < 0]
     for end in (lo, hi):
-        if end.is_finite and span.contains(end) and sympy.simplify(expr.subs(R, end)) < 0:
+        if end.is_finite and span.contains(end) and _negative_at(expr, end):
             found.append(sympy.FiniteSet(end))
     return sympy.Union(*found) if found else sympy.S.EmptySet
+
+
+def _negative_at(expr: sympy.Expr, point) -> bool:
+    """expr < 0 at r = point; a pole of this piece there is no value of it (False)."""
+    value = sympy.simplify(expr.subs(R, point))
+    return bool(value.is_finite and value.is_extended_real and value < 0)
 
 
 def _failures(parts, region_pieces, prop: str) -> list[Failure]:
@@ -454,7 +460,7 @@ def courant_curvature_at_one(body):
 # ---- sampling, where the body is not piecewise rational ---------------------------------
 
 def _sampled(name, body, value, left, right) -> LimiterFacts:
-    psi = sympy.lambdify(R, body, modules="numpy")
+    psi = sympy.lambdify(R, _numeric_ratio(body), modules="numpy")
     r = piecewise.sample_points()
     with numpy.errstate(all="ignore"):
         v = numpy.broadcast_to(psi(r), r.shape).astype(float)
@@ -511,10 +517,15 @@ def _sampled_runs(r: numpy.ndarray, bad: numpy.ndarray) -> sympy.Set:
 COURANT_SAMPLES = 200
 
 
+def _numeric_ratio(body: sympy.Expr) -> sympy.Expr:
+    """ratio(a, b) written as a Piecewise numpy can evaluate (a / b where b != 0, else 0)."""
+    return body.replace(Ratio, lambda a, b: sympy.Piecewise((a / b, sympy.Ne(b, 0)), (0, True)))
+
+
 def _sampled_courant(name, body, value, left, right) -> LimiterFacts:
     """A limiter of (r, c) outside the exact class: the region tested on a grid of
     (r, c), c in steps of 1/COURANT_SAMPLES; the sets are numeric, with that tolerance."""
-    psi = sympy.lambdify((R, C), body, modules="numpy")
+    psi = sympy.lambdify((R, C), _numeric_ratio(body), modules="numpy")
     r = piecewise.sample_points()
     pos = r > 0
     cs = numpy.arange(1, COURANT_SAMPLES + 1) / COURANT_SAMPLES
