@@ -18,6 +18,7 @@ def scheme_from_text(text: str, file: str = "<spec>", overrides=None) -> Scheme:
         spec = parse_text(text, file)
         check(spec)
         scheme = lower(spec)
+        _check_limiters_defined(spec, scheme)
         if scheme.correct == "fct":
             _check_fct_low_flux(spec, scheme)
     except LoomError as err:
@@ -34,6 +35,54 @@ def _check_fct_low_flux(spec, scheme: Scheme) -> None:
 
     low = next(s for s in spec.statements if isinstance(s, syntax.Flux) and s.kind == "low_flux")
     check_low_flux(scheme, low.value.span)
+
+
+def _check_limiters_defined(spec, scheme: Scheme) -> None:
+    """A limiter must have a finite value at every r (and every c > 0): 0/0 is refused.
+
+    Located at the first division in the body whose divisor vanishes there.
+    """
+    from . import syntax
+    from .analysis.singular import limiter_problems
+
+    for stmt in spec.statements:
+        if not isinstance(stmt, syntax.LimiterDef):
+            continue
+        limiter = scheme.limiter(stmt.name.id)
+        problems = limiter_problems(scheme.bound(limiter.body), limiter.courant)
+        if problems:
+            raise LoomError(problems[0].message(limiter.name),
+                            _division_span(spec, stmt, scheme, problems[0]))
+
+
+def _division_span(spec, stmt, scheme: Scheme, problem) -> Span:
+    """The span of the first division in a limiter's body whose divisor vanishes at problem."""
+    from . import syntax
+    from .analysis.singular import ieee_values
+    from .ir import _Lowerer
+    from .symbols import C, R, param_symbol
+
+    lowerer = _Lowerer(spec)
+    for other in spec.statements:
+        if isinstance(other, syntax.Param):
+            lowerer.env[other.name.id] = param_symbol(other.name.id)
+    point = {k: v for k, v in ((R, problem.r), (C, problem.c)) if v is not None}
+
+    def walk(node):
+        if isinstance(node, syntax.Binary):
+            if node.op == "/" and point:
+                divisor = scheme.bound(lowerer.expr(node.right, {stmt.args[0].id: R}))
+                values = ieee_values(divisor, point)
+                if values is not None and any(v == 0 for v in values):
+                    return node.right.span
+            return walk(node.left) or walk(node.right)
+        if isinstance(node, syntax.Unary):
+            return walk(node.operand)
+        if isinstance(node, syntax.Call):
+            return next((found for a in node.args if (found := walk(a))), None)
+        return None
+
+    return walk(stmt.body) or stmt.body.span
 
 
 def load_scheme(path: str | Path, overrides=None) -> Scheme:

@@ -110,19 +110,36 @@ def check(spec: ast.Spec) -> None:
             _check_expr(stmt.value, scope, "let", time_method)
             scope.lets[stmt.name.id] = stmt
         elif isinstance(stmt, ast.LimiterDef):
-            if len(stmt.args) != 1:
-                raise LoomError(f"a limiter takes exactly one argument (its ratio r); "
-                                f"'{stmt.name.id}' has {len(stmt.args)}", stmt.name.span)
-            arg = stmt.args[0]
-            if arg.id in RESERVED:
-                raise LoomError(f"'{arg.id}' cannot name a limiter's argument", arg.span)
-            _check_expr(stmt.body, scope, "limiter", time_method, arg=arg.id)
+            _check_limiter_arguments(stmt, time_method)
+            _check_expr(stmt.body, scope, "limiter", time_method, arg=stmt.args[0].id,
+                        courant=len(stmt.args) == 2)
             scope.limiters[stmt.name.id] = stmt
         elif isinstance(stmt, ast.Flux):
             _check_expr(stmt.value, scope, stmt.kind, time_method)
         elif isinstance(stmt, ast.Clip):
             _check_expr(stmt.low, scope, "clip", time_method)
             _check_expr(stmt.high, scope, "clip", time_method)
+
+
+def _check_limiter_arguments(stmt: ast.LimiterDef, time_method: str) -> None:
+    """`limiter NAME(r)`, or `limiter NAME(r, c)` for a Courant-dependent limiter."""
+    args = stmt.args
+    if len(args) > 2:
+        raise LoomError(f"a limiter takes its ratio and at most 'c', the Courant number "
+                        f"(limiter {stmt.name.id}(r) or limiter {stmt.name.id}(r, c)); "
+                        f"'{stmt.name.id}' has {len(args)} arguments", args[2].span)
+    if args[0].id in RESERVED:
+        raise LoomError(f"'{args[0].id}' cannot name a limiter's ratio argument", args[0].span)
+    if len(args) == 2:
+        second = args[1]
+        if second.id != "c":
+            raise LoomError(f"a limiter's second argument can only be 'c', the Courant number "
+                            f"(limiter {stmt.name.id}(r, c)); '{second.id}' is not 'c'"
+                            f"{did_you_mean(second.id, ['c'])}", second.span)
+        if time_method != "euler":
+            raise LoomError(f"a limiter of 'c' (the Courant number) needs 'time euler'; a "
+                            f"'{time_method}' scheme is a method of lines whose flux cannot "
+                            "depend on the time step", second.span)
 
 
 def _define(scope: _Scope, stmt) -> None:
@@ -135,15 +152,16 @@ def _define(scope: _Scope, stmt) -> None:
 
 
 def _check_expr(expr: ast.Expr, scope: _Scope, where: str, time_method: str,
-                arg: str | None = None) -> None:
+                arg: str | None = None, courant: bool = False) -> None:
+    """courant: inside the body of a limiter of (r, c), where 'c' is its argument."""
     constant = where in ("param", "clip")
     if isinstance(expr, ast.Number):
         return
     if isinstance(expr, (ast.Unary,)):
-        return _check_expr(expr.operand, scope, where, time_method, arg)
+        return _check_expr(expr.operand, scope, where, time_method, arg, courant)
     if isinstance(expr, ast.Binary):
-        _check_expr(expr.left, scope, where, time_method, arg)
-        _check_expr(expr.right, scope, where, time_method, arg)
+        _check_expr(expr.left, scope, where, time_method, arg, courant)
+        _check_expr(expr.right, scope, where, time_method, arg, courant)
         return
     if isinstance(expr, ast.Index):
         base = expr.base
@@ -156,11 +174,11 @@ def _check_expr(expr: ast.Expr, scope: _Scope, where: str, time_method: str,
                             expr.offset.span)
         return
     if isinstance(expr, ast.Name):
-        return _check_name(expr, scope, where, time_method, arg)
+        return _check_name(expr, scope, where, time_method, arg, courant)
     if isinstance(expr, ast.Call):
         func = expr.func
         for a in expr.args:
-            _check_expr(a, scope, where, time_method, arg)
+            _check_expr(a, scope, where, time_method, arg, courant)
         if func.id in BUILTINS:
             least, most = BUILTINS[func.id]
             n = len(expr.args)
@@ -173,9 +191,16 @@ def _check_expr(expr: ast.Expr, scope: _Scope, where: str, time_method: str,
         if func.id in scope.limiters:
             if where == "limiter":
                 raise LoomError("a limiter cannot call another limiter", func.span)
-            if len(expr.args) != 1:
-                raise LoomError(f"limiter '{func.id}' takes 1 argument, given {len(expr.args)}",
+            wanted = len(scope.limiters[func.id].args)
+            if len(expr.args) != wanted:
+                form = f" ({func.id}(r, c))" if wanted == 2 else ""
+                raise LoomError(f"limiter '{func.id}' takes {wanted} argument"
+                                f"{'s' if wanted > 1 else ''}{form}, given {len(expr.args)}",
                                 func.span)
+            if wanted == 2 and not (isinstance(expr.args[1], ast.Name) and expr.args[1].id == "c"):
+                raise LoomError(f"the second argument of limiter '{func.id}' must be 'c', the "
+                                f"Courant number of the face ({func.id}(r, c))",
+                                expr.args[1].span)
             return
         if func.id in scope.defined() or func.id in RESERVED:
             raise LoomError(f"'{func.id}' is not a function", func.span)
@@ -185,14 +210,19 @@ def _check_expr(expr: ast.Expr, scope: _Scope, where: str, time_method: str,
 
 
 def _check_name(expr: ast.Name, scope: _Scope, where: str, time_method: str,
-                arg: str | None) -> None:
+                arg: str | None, courant: bool = False) -> None:
     name = expr.id
     constant = where in ("param", "clip")
     if where == "limiter":
-        if name == arg or name in scope.params:
+        if name == arg or name in scope.params or (courant and name == "c"):
             return
-        if name in ("q", "u", "c") or name in scope.lets:
-            raise LoomError(f"a limiter is a function of its argument '{arg}' only; "
+        if name == "c":
+            raise LoomError(f"a limiter is a function of its argument '{arg}' only; to depend "
+                            f"on the Courant number declare it as limiter NAME({arg}, c)",
+                            expr.span)
+        if name in ("q", "u") or name in scope.lets:
+            args = f"arguments '{arg}' and 'c'" if courant else f"argument '{arg}'"
+            raise LoomError(f"a limiter is a function of its {args} only; "
                             f"'{name}' is not allowed here", expr.span)
     elif constant:
         if name in scope.params:
@@ -218,7 +248,7 @@ def _check_name(expr: ast.Name, scope: _Scope, where: str, time_method: str,
     if later is not None and later >= expr.span.line and name not in scope.defined():
         raise LoomError(f"'{name}' is used before it is defined (on line {later}); "
                         "define names above the statements that use them", expr.span)
-    known = list(scope.params) + ([arg] if arg else [])
+    known = list(scope.params) + ([arg] if arg else []) + (["c"] if courant else [])
     if where not in ("limiter",) and not constant:
         known += list(scope.lets) + ["u", "c"] + list(scope.everywhere)
     raise LoomError(f"unknown name '{name}'{did_you_mean(name, known)}", expr.span)

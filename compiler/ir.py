@@ -33,13 +33,20 @@ class Param:
 @dataclass(frozen=True)
 class Limiter:
     name: str
-    body: sympy.Expr  # in terms of symbols.R
+    body: sympy.Expr  # in terms of symbols.R (and symbols.C when courant)
+    courant: bool = False  # `limiter NAME(r, c)`: the body may depend on the Courant number
 
-    def __call__(self, r):
-        return self.body.subs(R, r)
+    @property
+    def arguments(self) -> tuple[sympy.Symbol, ...]:
+        """The symbols a call passes, in order: (R,) or (R, C)."""
+        return (R, C) if self.courant else (R,)
+
+    def __call__(self, r, c=C):
+        return self.body.xreplace({R: r, C: c}) if self.courant else self.body.subs(R, r)
 
     def lambdified(self):
-        return sympy.lambdify(R, self.body, modules="numpy")
+        """psi(r) for numpy arrays, or psi(r, c) for a Courant-dependent limiter."""
+        return sympy.lambdify(self.arguments, self.body, modules="numpy")
 
 
 @dataclass(frozen=True)
@@ -108,7 +115,7 @@ class Scheme:
         subs = {}
         for call in limiter_calls(expr, self.limiter_names):
             lim = self.limiter(type(call).__name__)
-            subs[call] = self.bound(lim(call.args[0]))
+            subs[call] = self.bound(lim(*call.args))
         return expr.xreplace(subs) if subs else expr
 
     @cached_property
@@ -118,7 +125,8 @@ class Scheme:
                  sympy.srepr(self.low_face), str(self.correct),
                  sympy.srepr(self.clip) if self.clip else "None"]
         parts += [f"{p.name}={sympy.srepr(p.value)}" for p in self.params]
-        parts += [f"{lim.name}:{sympy.srepr(lim.body)}" for lim in self.limiters]
+        parts += [f"{lim.name}{'(r, c)' if lim.courant else ''}:{sympy.srepr(lim.body)}"
+                  for lim in self.limiters]
         return hashlib.sha256("\n".join(parts).encode()).hexdigest()[:16]
 
     def with_params(self, overrides: dict[str, sympy.Expr]) -> "Scheme":
@@ -186,7 +194,7 @@ class _Lowerer:
         if isinstance(node, ast.Call):
             args = [self.expr(a, local) for a in node.args]
             if node.func.id in self.limiters:
-                return self.limiters[node.func.id](args[0])
+                return self.limiters[node.func.id](*args)  # (r) or (r, c)
             return _FUNCS[node.func.id](*args)
         raise AssertionError(f"unhandled node {type(node).__name__}")
 
@@ -216,8 +224,8 @@ def lower(spec: ast.Spec) -> Scheme:
         elif isinstance(stmt, ast.Let):
             low.env[stmt.name.id] = low.expr(stmt.value)
         elif isinstance(stmt, ast.LimiterDef):
-            body = low.expr(stmt.body, {stmt.args[0].id: R})
-            limiters.append(Limiter(stmt.name.id, body))
+            body = low.expr(stmt.body, {stmt.args[0].id: R})  # 'c' is C from the environment
+            limiters.append(Limiter(stmt.name.id, body, courant=len(stmt.args) == 2))
             low.limiters[stmt.name.id] = limiter_function(stmt.name.id)
         elif isinstance(stmt, ast.Flux):
             g = _face_of(low.expr(stmt.value), stmt)

@@ -78,23 +78,59 @@ def phase_speed_figure(analysis, path: Path) -> Path:
     return _save(fig, path)
 
 
+LIMITER_COURANTS = (0.25, 0.5, 0.75)
+"""Courant numbers at which a limiter is drawn against the region of the flux-limited
+Lax-Wendroff form, psi/r <= 2/c and psi <= 2/(1 - c) (psi = 0 for r <= 0)."""
+
+
+def _limiter_values(body, courant: bool, r, c=None):
+    args = (R, C) if courant else (R,)
+    f = sympy.lambdify(args, body, "numpy")
+    with np.errstate(all="ignore"):
+        values = f(r, c) if courant else f(r)
+    return np.broadcast_to(np.asarray(values, dtype=float), r.shape)
+
+
 def limiter_figure(analysis, limiter, path: Path) -> Path:
+    """The limiter over the TVD region: the Courant-free region (a limiter of r) and, in
+    one panel per Courant number, the region of the flux-limited Lax-Wendroff form at c."""
     r = np.linspace(-1.0, 4.0, 1001)
-    psi = np.broadcast_to(sympy.lambdify(R, analysis.scheme.bound(limiter.body), "numpy")(r),
-                          r.shape)
-    fig, ax = plt.subplots(figsize=(6.0, 4.4))
-    pos = r >= 0
-    ax.fill_between(r[pos], 0, np.minimum(2 * r[pos], 2), color="0.88", label="Sweby TVD region")
-    minmod = np.maximum(0, np.minimum(1, r))
-    superbee = np.maximum(0, np.maximum(np.minimum(2 * r, 1), np.minimum(r, 2)))
-    ax.fill_between(r[pos], minmod[pos], superbee[pos], color="0.7", label="second-order part")
-    ax.plot(r, psi, color="C3", lw=1.6, label=f"{limiter.name}(r)")
-    _shade_failures(ax, analysis, limiter.name, r[0], r[-1])
-    ax.set_xlabel("r")
-    ax.set_ylabel("psi(r)")
-    ax.set_ylim(-0.2, max(3.2, float(np.max(psi)) + 0.2))
-    ax.set_title(f"{analysis.scheme.name}: limiter {limiter.name}", fontsize=9)
-    ax.legend(fontsize=7, loc="upper left")
+    body = analysis.scheme.bound(limiter.body)
+    panels = ([None] if not limiter.courant else []) + list(LIMITER_COURANTS)
+    fig, axes = plt.subplots(1, len(panels), figsize=(3.4 * len(panels), 3.6), squeeze=False)
+    pos = r > 0
+    top = 3.2
+    for ax, c in zip(axes[0], panels):
+        psi = _limiter_values(body, limiter.courant, r, c if c is not None else 0.5)
+        if c is None:
+            upper = np.minimum(2 * r[pos], 2)
+            lower2, upper2 = np.minimum(r[pos], 1), np.minimum(np.maximum(r[pos], 1), upper)
+            title = "Courant-free region"
+        else:
+            upper = np.minimum(2 * r[pos] / c, 2 / (1 - c))
+            lower2 = np.minimum(r[pos], 1)
+            upper2 = np.minimum(np.maximum(r[pos], 1), upper)
+            title = f"c = {c:g}"
+        ax.fill_between(r[pos], 0, upper, color="0.88", label="TVD region")
+        ax.fill_between(r[pos], lower2, upper2, color="0.7", label="second-order part")
+        outside = np.zeros_like(r, dtype=bool)
+        outside[pos] = (psi[pos] > upper + 1e-12) | (psi[pos] < -1e-12)
+        outside[~pos] = np.abs(psi[~pos]) > 1e-12
+        ax.plot(r, psi, color="C0", lw=1.6, label=f"{limiter.name}")
+        if outside.any():
+            ax.plot(np.where(outside, r, np.nan), np.where(outside, psi, np.nan), color="C3",
+                    lw=2.4, label="outside the region")
+        if c is None:
+            _shade_failures(ax, analysis, limiter.name, r[0], r[-1])
+        top = max(top, float(np.nanmax(np.where(np.isfinite(psi), psi, np.nan))) + 0.2)
+        ax.set_xlabel("r")
+        ax.set_title(title, fontsize=9)
+    for ax in axes[0]:
+        ax.set_ylim(-0.3, min(top, 8.0))
+    axes[0][0].set_ylabel("psi")
+    axes[0][0].legend(fontsize=6, loc="upper left")
+    args = "r, c" if limiter.courant else "r"
+    fig.suptitle(f"{analysis.scheme.name}: limiter {limiter.name}({args})", fontsize=9)
     return _save(fig, path)
 
 

@@ -34,6 +34,9 @@ def _save(fig, path: Path, **layout) -> Path:
     return path
 
 
+save_figure = _save   # for the other figure modules (runtime/compare_plots.py)
+
+
 def convergence_figure(verification, path: Path) -> Path:
     """Error against N on log-log axes, one line per profile and norm, with reference slopes."""
     fig, ax = plt.subplots(figsize=(6.4, 4.6))

@@ -113,9 +113,9 @@ class Prediction:
 
         A linear scheme is claimed stable on its stable set (islands included, to the
         analysis's own tolerance) and to grow elsewhere, except within STABILITY_TOL of an
-        edge, where growth may be too weak to see. A nonlinear one is claimed stable where
-        every linear scheme standing for it is stable and to grow where none is, away from
-        every edge by STABILITY_TOL; in between it may be either."""
+        edge, where growth may be too weak to see. A nonlinear one is claimed stable on the
+        set the analysis proves (where one step is TVD, say); outside it the analysis claims
+        nothing (`stability.outside` is "no claim"), and neither does verify."""
         stability = self.claims.stability
         if not stability.decided or self.linearised_on_smooth_data:
             return None
@@ -127,11 +127,9 @@ class Prediction:
             return None
         if stability.stable.contains(c):
             return True
-        if self.spectral:
+        if self.spectral and stability.claims_growth_outside:
             return False
-        if not stability.standins:
-            return None
-        return False if not any(s.stable.contains(c) for s in stability.standins) else None
+        return None     # the analysis proves nothing outside its set (stand-ins are not claims)
 
     def stable_anywhere_at(self, c: float) -> bool:
         """Some stand-in is stable at c (without tolerance): runs there are meaningful."""

@@ -316,8 +316,8 @@ def stability_finding(st: harness.Stability, pred: Prediction) -> Finding:
                       "the face elsewhere")
     elif pred.stability_decided and pred.stable_set.edges():
         predicted += f" (edges within {margin:g})"
-        if not pred.spectral and pred.claims.stability.standins:
-            predicted += "; grows where none of its linear stand-ins is stable"
+        if not pred.claims.stability.claims_growth_outside:
+            predicted += "; no claim outside it"
     if pred.linearised_at_constant_state:
         how += f", data of size {pred.probe_amplitude:g}"
         context = (f"{len(st.probes)} Courant numbers in {st.tried_min:.3g}..{st.tried_max:g} "

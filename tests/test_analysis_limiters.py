@@ -1,4 +1,4 @@
-"""Limiters and TVD against published facts (Sweby 1984 and the reference list)."""
+"""Limiters and TVD against published facts (Sweby 1984 and tests/reference_values.py)."""
 from __future__ import annotations
 
 import numpy
@@ -10,24 +10,18 @@ from fluxloom.compiler.analysis import analyse
 from fluxloom.compiler.analysis.limiters import analyse_limiter
 from fluxloom.compiler.symbols import R
 
+import reference_values as ref
 from conftest import EXAMPLES
 
 r = R
-LIMITERS = {
-    # Bodies as published (REFERENCE.md "Flux limiters"; sources there, all [mem]).
-    "minmod": sympy.Max(0, sympy.Min(1, r)),                                    # Roe 1986
-    "superbee": sympy.Max(0, sympy.Min(2 * r, 1), sympy.Min(r, 2)),             # Roe 1986; Sweby 1984
-    "vanleer": (r + sympy.Abs(r)) / (1 + sympy.Abs(r)),                          # van Leer 1974
-    "mc": sympy.Max(0, sympy.Min(2 * r, (1 + r) / 2, 2)),                        # van Leer 1977
-    "vanalbada": sympy.Max(0, r) * (r + 1) / (r**2 + 1),                         # van Albada et al. 1982
-    "koren": sympy.Max(0, sympy.Min(2 * r, (1 + 2 * r) / 3, 2)),                 # Koren 1993
-}
+# Bodies as published (reference_values.LIMITER; sources there, all [mem]).
+LIMITERS = {name: value.expr(r=r) for name, value in ref.LIMITER.items()}
 
 
-@pytest.mark.parametrize("name", sorted(LIMITERS))
+@pytest.mark.parametrize("name", ref.LIMITERS_IN_SWEBY_REGION.value)
 def test_six_limiters_in_sweby_region_and_its_second_order_part(name):
-    # Sweby 1984, SIAM J. Numer. Anal. 21:995 [mem, citation from memory]: all six lie in the
-    # TVD region and its second-order part, with psi(1) = 1 (REFERENCE.md, [derived]).
+    # reference_values.LIMITERS_IN_SWEBY_REGION (Sweby 1984 [mem]): in the TVD region and its
+    # second-order part, with psi(1) = 1.
     facts = analyse_limiter(name, LIMITERS[name])
     assert facts.psi_at_1 == 1
     assert facts.sweby_tvd is True
@@ -35,34 +29,27 @@ def test_six_limiters_in_sweby_region_and_its_second_order_part(name):
     assert facts.method.startswith("exact")
 
 
-@pytest.mark.parametrize("name, symmetric", [
-    # Symmetry psi(r)/r = psi(1/r) [pub: Arora and Roe 1997, J. Comput. Phys. 132:3];
-    # the table in REFERENCE.md: all symmetric but Koren (Koren 1993 [mem]).
-    ("minmod", True), ("superbee", True), ("vanleer", True), ("mc", True),
-    ("vanalbada", True), ("koren", False),
-])
-def test_limiter_symmetry(name, symmetric):
-    assert analyse_limiter(name, LIMITERS[name]).symmetric is symmetric
+@pytest.mark.parametrize("name", sorted(ref.LIMITER_SYMMETRIC))
+def test_limiter_symmetry(name):
+    # reference_values.LIMITER_SYMMETRIC: psi(r)/r = psi(1/r) [pub: Arora and Roe 1997];
+    # all symmetric but Koren [mem].
+    assert analyse_limiter(name, LIMITERS[name]).symmetric is ref.LIMITER_SYMMETRIC[name].value
 
 
 def test_van_albada_peak():
-    # van Albada peaks at about 1.2071 at r = 1 + sqrt(2) (REFERENCE.md, [derived]); the
-    # value there is (1 + sqrt(2)) / 2.
+    # reference_values.VAN_ALBADA_PEAK [derived]: (1 + sqrt(2))/2 at r = 1 + sqrt(2).
+    peak, _, approx = ref.VAN_ALBADA_PEAK.value
     facts = analyse_limiter("vanalbada", LIMITERS["vanalbada"])
-    assert sympy.simplify(facts.sup_psi - (1 + sympy.sqrt(2)) / 2) == 0
-    assert abs(float(facts.sup_psi) - 1.2071) < 1e-4
+    assert sympy.simplify(facts.sup_psi - sympy.sympify(peak)) == 0
+    assert abs(float(facts.sup_psi) - approx) < 1e-4
 
 
-def test_limiter_slopes_at_one():
-    # Left and right derivatives at r = 1, from the published bodies (common practice, no
-    # source): minmod 1 | 0, superbee 0 | 1, van Leer 1/2, MC 1/2, Koren 2/3.
-    got = {n: (f.slope_left, f.slope_right)
-           for n, f in ((n, analyse_limiter(n, b)) for n, b in LIMITERS.items())}
-    assert got["minmod"] == (1, 0)
-    assert got["superbee"] == (0, 1)
-    assert got["vanleer"] == (sympy.Rational(1, 2),) * 2
-    assert got["mc"] == (sympy.Rational(1, 2),) * 2
-    assert got["koren"] == (sympy.Rational(2, 3),) * 2
+@pytest.mark.parametrize("name", sorted(ref.LIMITER_SLOPES_AT_ONE))
+def test_limiter_slopes_at_one(name):
+    # reference_values.LIMITER_SLOPES_AT_ONE (from the published bodies, common practice).
+    facts = analyse_limiter(name, LIMITERS[name])
+    expected = tuple(sympy.Rational(v) for v in ref.LIMITER_SLOPES_AT_ONE[name].value)
+    assert (facts.slope_left, facts.slope_right) == expected
 
 
 def test_exact_verdicts_agree_with_a_dense_numpy_sample():
@@ -90,21 +77,26 @@ def test_tidewater_in_region_not_symmetric():
 
 
 def test_overreach_outside_sweby_region_yet_tvd_on_a_middle_band():
-    # REFERENCE.md "Courant-dependent form" (Sweby 1984 [mem]; [derived] from Harten's C):
+    # reference_values.OVERREACH_TVD (Sweby 1984 [mem]; [derived] from Harten's C):
     # psi = max(0, min(3r, 1), min(r, 3)) is outside the Courant-free region, yet one step is
     # TVD exactly for 1/3 <= c <= 2/3.
-    result = analyse(load_scheme(EXAMPLES / "lw_overreach.loom"))
+    body, (lo, hi) = ref.OVERREACH_TVD.value
+    scheme = load_scheme(EXAMPLES / "lw_overreach.loom")
+    assert sympy.simplify(scheme.limiters[0].body - sympy.sympify(body, locals={"r": R})) == 0
+    result = analyse(scheme)
     assert result.limiters[0].sweby_tvd is False
     main = result.tvd.stable_set.main
-    assert (main.lo, main.hi) == (sympy.Rational(1, 3), sympy.Rational(2, 3))
+    assert (main.lo, main.hi) == (sympy.Rational(lo), sympy.Rational(hi))
+    limiter_main = result.limiters[0].tvd_courant.main
+    assert (limiter_main.lo, limiter_main.hi) == (sympy.Rational(lo), sympy.Rational(hi))
     assert result.tvd.holds is True
     # c = 1 is the exact shift, TVD too; nothing else in (2/3, oo).
     assert all(p.is_point for p in result.tvd.stable_set.islands)
 
 
 def test_courant_dependent_condition_checked_with_numpy():
-    # The same condition, psi(r)/r <= 2/c and psi(r) <= 2/(1 - c) for all r (Sweby 1984 [mem]),
-    # evaluated with numpy over a grid of c and r, independent of the analysis code.
+    # reference_values.COURANT_REGION (Sweby 1984 [mem]) evaluated with numpy over a grid of
+    # c and r, independent of the analysis code.
     psi = load_scheme(EXAMPLES / "lw_overreach.loom").limiters[0].lambdified()
     rs = numpy.concatenate([numpy.linspace(1e-6, 1, 20001), numpy.linspace(1, 100, 20001)])
     sup_ratio, sup_psi = numpy.max(psi(rs) / rs), numpy.max(psi(rs))
@@ -117,16 +109,14 @@ def test_courant_dependent_condition_checked_with_numpy():
 @pytest.mark.parametrize("stem", ["lw_minmod", "lw_superbee", "lw_vanleer", "lw_mc",
                                   "lw_vanalbada", "lw_koren", "tidewater"])
 def test_limited_lax_wendroff_tvd_for_courant_up_to_one(stem):
-    # A limiter inside Sweby's region makes flux-limited Lax-Wendroff TVD for 0 <= c <= 1
-    # (Sweby 1984 [mem]).
+    # reference_values.LIMITED_LW_TVD (Sweby 1984 [mem]).
     result = analyse(load_scheme(EXAMPLES / f"{stem}.loom"))
     main = result.tvd.stable_set.main
-    assert (main.lo, main.hi) == (0, 1)
+    assert (main.lo, main.hi) == ref.LIMITED_LW_TVD.value
 
 
 def test_ssp_scaling_of_the_tvd_interval():
-    # SSP-RK3 keeps the forward-Euler TVD interval (SSP coefficient 1; Gottlieb and Shu 1998
-    # [mem]). For g = q0 + psi/2 (q1 - q0), Harten's C = c(1 + psi(r)/(2r) - psi(r')/2) with
+    # SSP-RK3 keeps the forward-Euler TVD interval (reference_values.SSP_COEFFICIENT, [mem]). For g = q0 + psi/2 (q1 - q0), Harten's C = c(1 + psi(r)/(2r) - psi(r')/2) with
     # van Leer's psi in [0, 2), psi/r in [0, 2): C <= 2c, so TVD for c <= 1/2 (derived by hand
     # from Harten 1983 [mem]).
     result = analyse(load_scheme(EXAMPLES / "vanleer_rk3.loom"))
@@ -135,7 +125,9 @@ def test_ssp_scaling_of_the_tvd_interval():
 
 
 def test_rk4_tvd_is_undecided():
-    # Classical RK4 is not SSP (Gottlieb, Shu and Tadmor 2001 [mem]): no TVD claim carries over.
+    # Classical RK4 is not SSP (reference_values.SSP_COEFFICIENT, [mem]): no TVD claim carries
+    # over.
+    assert ref.SSP_COEFFICIENT["rk4"].value == 0
     text = """scheme v {
   time rk4
   let r = ratio(q[0] - q[-1], q[1] - q[0])
@@ -149,8 +141,8 @@ def test_rk4_tvd_is_undecided():
 
 def test_inline_minmod_slope_matches_the_named_limiter():
     # minmod written inline as a slope (sign/min/abs) is the same scheme as lw_minmod, so it
-    # gets the same verdicts: TVD for 0 <= c <= 1 (Sweby 1984 [mem]), second order in smooth
-    # monotone regions, stable for 0 <= c <= 1.
+    # gets the same verdicts: TVD for 0 <= c <= 1 (reference_values.LIMITED_LW_TVD, [mem]),
+    # second order in smooth monotone regions, stable for 0 <= c <= 1.
     text = """scheme inline_minmod {
   flux = u * (q[0] + (1 - c) / 2 * (sign(q[1] - q[0]) + sign(q[0] - q[-1])) / 2
               * min(abs(q[1] - q[0]), abs(q[0] - q[-1])))
@@ -186,7 +178,7 @@ def random_limiters(draw):
 @settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.too_slow])
 @given(random_limiters())
 def test_exact_sweby_verdict_against_sampling(body):
-    # Sweby's region (Sweby 1984 [mem]) tested directly with numpy on a dense grid; a
+    # Sweby's region (reference_values.SWEBY_REGION, [mem]) tested directly with numpy; a
     # violation the grid sees must be reported, and a body reported inside must show none.
     grid = numpy.concatenate([numpy.linspace(-5, 0, 1001), numpy.linspace(1e-5, 40, 400001)])
     psi = numpy.broadcast_to(sympy.lambdify(_r, body, modules="numpy")(grid), grid.shape)

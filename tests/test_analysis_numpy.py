@@ -2,7 +2,7 @@
 
 For each linear example the update matrix on a periodic grid is built by
 evaluating the IR's face expression face by face (sympy.lambdify) and staging
-it with the Runge-Kutta formulas as published (tests/published_methods.py); its eigenvalues are then
+it with the Runge-Kutta formulas as published (tests/reference_values.py); its eigenvalues are then
 compared with |G| from the analysis on the same theta grid, and the largest
 stable Courant number found from the eigenvalues is compared with check's.
 Nothing here calls the analysis' own symbol code.
@@ -20,7 +20,7 @@ from fluxloom.compiler.analysis import analyse
 from fluxloom.compiler.symbols import C, offset_of
 
 from conftest import EXAMPLE_FILES
-from published_methods import published_step
+from reference_values import published_step
 
 LINEAR = [p for p in EXAMPLE_FILES if not load_scheme(p).limited]
 

@@ -42,8 +42,27 @@ BAD_SPECS = [
      "'r' is defined twice (first on line 2)", 3, 7),
     ("param-and-let-clash", "scheme a {\n  param k = 1\n  let k = 2\n  flux = u * q[0]\n}\n",
      "'k' is defined twice", 3, 7),
-    ("limiter-two-args", "scheme a {\n  limiter f(r, s) = r\n  flux = u * q[0]\n}\n",
-     "a limiter takes exactly one argument", 2, 11),
+    ("limiter-second-arg-not-c", "scheme a {\n  limiter f(r, s) = r\n  flux = u * q[0]\n}\n",
+     "a limiter's second argument can only be 'c', the Courant number", 2, 16),
+    ("limiter-three-args", "scheme a {\n  limiter f(r, c, s) = r\n  flux = u * q[0]\n}\n",
+     "a limiter takes its ratio and at most 'c'", 2, 19),
+    ("limiter-of-c-with-rk", "scheme a {\n  time ssp_rk3\n  limiter f(r, c) = r\n"
+     "  flux = u * q[0]\n}\n", "a limiter of 'c' (the Courant number) needs 'time euler'", 3, 16),
+    ("limiter-c-undeclared", "scheme a {\n  limiter f(r) = r / c\n  flux = u * q[0]\n}\n",
+     "declare it as limiter NAME(r, c)", 2, 22),
+    ("limiter-of-c-called-without-c", "scheme a {\n  limiter f(r, c) = r\n"
+     "  flux = u * f(q[0])\n}\n", "limiter 'f' takes 2 arguments (f(r, c)), given 1", 3, 14),
+    ("limiter-of-c-called-with-a-number", "scheme a {\n  limiter f(r, c) = r\n"
+     "  flux = u * f(q[0], 0.5)\n}\n", "the second argument of limiter 'f' must be 'c'", 3, 22),
+    ("limiter-zero-over-zero", "scheme a {\n  limiter f(r) = 5 * max(0, r) / (2 * (1 + r))\n"
+     "  flux = u * (q[0] + f(q[0]))\n}\n", "limiter 'f' has no value at r = -1", 2, 35),
+    ("limiter-pole", "scheme a {\n  limiter f(r) = max(0, r) / (r - 2)\n"
+     "  flux = u * (q[0] + f(q[0]))\n}\n", "limiter 'f' is unbounded near r = 2", 2, 31),
+    ("limiter-sqrt-of-negative", "scheme a {\n  limiter f(r) = sqrt(r)\n"
+     "  flux = u * (q[0] + f(q[0]))\n}\n", "square root of a negative number", 2, 18),
+    ("limiter-of-c-zero-over-zero-at-c-1", "scheme a {\n"
+     "  limiter f(r, c) = max(0, min(2 * r / (1 - c), 1))\n"
+     "  flux = u * (q[0] + f(q[0], c))\n}\n", "limiter 'f' has no value at c = 1", 2, 41),
     ("limiter-no-args", "scheme a {\n  limiter f() = 1\n  flux = u * q[0]\n}\n",
      "expected an argument before ')'", 2, 13),
     ("limiter-called-with-two", "scheme a {\n  limiter f(r) = r\n  flux = u * f(q[0], q[1])\n}\n",

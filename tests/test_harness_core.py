@@ -9,9 +9,11 @@ import math
 
 import numpy as np
 import pytest
+import sympy
 
 from fluxloom.runtime import harness, norms, profiles
 from harness_kernels import hand_kernel
+import reference_values as ref
 
 # ---- profiles --------------------------------------------------------------------
 
@@ -88,14 +90,9 @@ def test_observed_order_skips_missing_values():
 
 # ---- convergence against the exact l2 table ------------------------------------------
 
-# ../shared/REFERENCE.md, "Error norms" [derived]: for sin(2 pi x), c = 1/2, one period,
-# the normalised l2 error is |G(theta)^n - exp(-i c theta n)|, theta = 2 pi / N, n = 2N.
-EXACT_L2 = {
-    "upwind": (0.3907478, 0.2188548, 0.1160915, 0.0598248),
-    "lax_wendroff": (7.674288e-2, 1.934163e-2, 4.842749e-3, 1.211070e-3),
-    "beam_warming": (7.674288e-2, 1.934163e-2, 4.842749e-3, 1.211070e-3),
-    "fromm": (9.017417e-3, 1.138527e-3, 1.426057e-4, 1.783369e-5),
-}
+# reference_values.EXACT_L2 [derived]: for sin(2 pi x), c = 1/2, one period, the
+# normalised l2 error is |G(theta)^n - exp(-i c theta n)|, theta = 2 pi / N, n = 2N.
+EXACT_L2 = {name: value.value for name, value in ref.EXACT_L2.items()}
 FACE_SYMBOLS = {  # the face value g with q[k] -> exp(i k theta)
     "upwind": lambda c, t: 1,
     "lax_wendroff": lambda c, t: 1 + (1 - c) / 2 * (np.exp(1j * t) - 1),
@@ -205,8 +202,10 @@ def test_sweby_limiters_keep_total_variation(name, courant):
 
 
 def test_limiter_outside_sweby_region_is_caught_at_c_08():
-    # psi = max(0, min(3r, 1), min(r, 3)) is TVD only for 1/3 <= c <= 2/3 (REFERENCE.md,
-    # from Sweby's conditions psi/r <= 2/c and psi <= 2/(1-c); citation from memory).
+    # reference_values.OVERREACH_TVD: psi = max(0, min(3r, 1), min(r, 3)) is TVD only for
+    # 1/3 <= c <= 2/3 (Sweby's conditions psi/r <= 2/c and psi <= 2/(1-c); [mem]).
+    assert not float(sympy.Rational(ref.OVERREACH_TVD.value[1][0])) <= 0.8 <= \
+        float(sympy.Rational(ref.OVERREACH_TVD.value[1][1]))
     outside = harness.shape(hand_kernel("lw_overreach"), profiles.SQUARE, 0.8, n=80)
     assert outside.tv_growth_steps > 0 and outside.tv_increase > 1e-3
     inside = harness.shape(hand_kernel("lw_overreach"), profiles.SQUARE, 0.5, n=80)
@@ -276,10 +275,10 @@ def test_mirrored_run_mirrors(name):
 # ---- stability ---------------------------------------------------------------------
 
 @pytest.mark.parametrize("name, limit", [
-    # von Neumann limits (REFERENCE.md table: LeVeque 2002; Warming and Beam 1976; Fromm
-    # 1968; citations from memory).
-    ("upwind", 1.0), ("lax_wendroff", 1.0), ("beam_warming", 2.0), ("fromm", 1.0),
-    ("lax_friedrichs", 1.0),
+    # von Neumann limits (reference_values.STABLE_INTERVAL: LeVeque 2002; Warming and Beam
+    # 1976; Fromm 1968; citations from memory).
+    (name, float(ref.STABLE_INTERVAL[name].value[1]))
+    for name in ("upwind", "lax_wendroff", "beam_warming", "fromm", "lax_friedrichs")
 ])
 @pytest.mark.parametrize("linear", [True, False])
 def test_measured_stability_limit(name, limit, linear):
@@ -300,11 +299,12 @@ def test_ftcs_grows_at_every_courant_number_tried(linear):
 
 
 def test_spectral_probe_measures_the_amplification_factor():
-    # Lax-Wendroff |G|^2 = 1 - 4c^2(1 - c^2) sin^4(theta/2) (REFERENCE.md [pub]); max over
-    # the grid's modes, computed with numpy.
+    # Lax-Wendroff |G|^2 (reference_values.ABS_G_SQUARED [pub]); max over the grid's modes,
+    # computed with numpy.
+    abs_squared = sympy.lambdify(sympy.symbols("c s"), ref.ABS_G_SQUARED["lax_wendroff"].value)
     for c in (0.5, 1.2):
         theta = 2 * np.pi * np.arange(1, 129) / 256
-        expected = np.sqrt(1 - 4 * c * c * (1 - c * c) * np.sin(theta / 2) ** 4).max()
+        expected = np.sqrt(abs_squared(c, np.sin(theta / 2) ** 2)).max()
         got = harness.spectral_probe(hand_kernel("lax_wendroff"), c).growth
         assert got == pytest.approx(expected, rel=1e-12)
 

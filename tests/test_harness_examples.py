@@ -14,6 +14,8 @@ from fluxloom.runtime.commands.verify import analysis_document
 from fluxloom.runtime.findings import Options, Prediction, verify_kernel
 from fluxloom.runtime.kernel import load_kernel
 
+import reference_values as ref
+
 EXAMPLES = Path(__file__).resolve().parents[1] / "examples"
 ALL = sorted(p.stem for p in EXAMPLES.glob("*.loom"))
 
@@ -22,19 +24,14 @@ def kernel(stem: str, backend: str = "numpy"):
     return load_kernel(load_scheme(EXAMPLES / f"{stem}.loom"), backend)
 
 
-# ../shared/REFERENCE.md, "Error norms" [derived]: sin(2 pi x), c = 1/2, one period.
-EXACT_L2 = {
-    "upwind": (0.3907478, 0.2188548, 0.1160915, 0.0598248),
-    "lax_wendroff": (7.674288e-2, 1.934163e-2, 4.842749e-3, 1.211070e-3),
-    "beam_warming": (7.674288e-2, 1.934163e-2, 4.842749e-3, 1.211070e-3),
-    "fromm": (9.017417e-3, 1.138527e-3, 1.426057e-4, 1.783369e-5),
-}
+# reference_values.EXACT_L2 [derived]: sin(2 pi x), c = 1/2, one period.
+EXACT_L2 = {name: value.value for name, value in ref.EXACT_L2.items()}
 
 
 @pytest.mark.parametrize("backend", ["numpy", "c"])
 @pytest.mark.parametrize("stem", sorted(EXACT_L2))
 def test_exact_l2_table_on_generated_kernels(stem, backend):
-    conv = harness.convergence(kernel(stem, backend), profiles.SINE, 0.5, cells=(20, 40, 80, 160))
+    conv = harness.convergence(kernel(stem, backend), profiles.SINE, 0.5, cells=ref.EXACT_L2_CELLS)
     assert [row.errors.l2 for row in conv.rows] == pytest.approx(EXACT_L2[stem], rel=1e-6)
 
 
@@ -53,7 +50,8 @@ def test_every_example_agrees_with_its_analysis(stem):
 @pytest.mark.parametrize("stem", ["upwind", "lax_friedrichs"])
 @pytest.mark.parametrize("courant", [0.3, 0.7, 1.0])
 def test_upwind_and_lax_friedrichs_monotone_up_to_one(stem, courant):
-    # Monotone for c <= 1: every update coefficient non-negative (LeVeque 2002, from memory).
+    # reference_values.MONOTONE_INTERVAL: monotone for c <= 1 (LeVeque 2002, from memory).
+    assert courant <= ref.MONOTONE_INTERVAL[stem].value[1]
     k = kernel(stem)
     for velocity in (1.0, -1.0):
         for profile in profiles.DISCONTINUOUS:
@@ -70,7 +68,7 @@ def test_sweby_limiters_keep_tv_on_the_square_wave(stem, courant):
 
 
 def test_limiter_outside_sweby_region_grows_tv_at_c_08():
-    # psi up to 3: TVD only for 1/3 <= c <= 2/3 (REFERENCE.md, from Sweby's conditions).
+    # psi up to 3: TVD only for 1/3 <= c <= 2/3 (reference_values.OVERREACH_TVD, [mem]).
     k = kernel("lw_overreach")
     assert harness.shape(k, profiles.SQUARE, 0.8).tv_growth_steps > 0
     assert harness.shape(k, profiles.SQUARE, 0.5).tv_growth_steps == 0
@@ -167,11 +165,14 @@ def test_low_order_flux_alone_is_monotone_by_its_coefficients(courant):
 
 
 @pytest.mark.parametrize("stem, kappa, limit", [
-    # ../shared/REFERENCE.md, "Largest stable Courant number, method of lines" [derived]
-    # (tables of such limits: Baldauf 2008, J. Comput. Phys. 227:6638, from memory).
-    ("upwind_rk3", None, 1.2564), ("centred_rk4", None, 2 * 2 ** 0.5),
-    ("kappa_rk2", None, 0.8736), ("kappa_rk3", None, 1.6259),
-    ("kappa_rk3", 0, 1.1758), ("kappa_rk3", -1, 0.6281), ("kappa_rk2", -1, 0.5),
+    # reference_values.MOL_LIMIT [derived] (tables of such limits: Baldauf 2008, from memory).
+    ("upwind_rk3", None, ref.MOL_LIMIT[("upwind", "ssp_rk3")].value),
+    ("centred_rk4", None, ref.MOL_LIMIT[("centred", "rk4")].value),
+    ("kappa_rk2", None, ref.MOL_LIMIT[("kappa=1/3", "ssp_rk2")].value),
+    ("kappa_rk3", None, ref.MOL_LIMIT[("kappa=1/3", "ssp_rk3")].value),
+    ("kappa_rk3", 0, ref.MOL_LIMIT[("kappa=0", "ssp_rk3")].value),
+    ("kappa_rk3", -1, ref.MOL_LIMIT[("kappa=-1", "ssp_rk3")].value),
+    ("kappa_rk2", -1, ref.MOL_LIMIT[("kappa=-1", "ssp_rk2")].value),
 ])
 def test_method_of_lines_limits_measured_on_the_kernels(stem, kappa, limit):
     overrides = {} if kappa is None else {"kappa": sympy.Integer(kappa)}

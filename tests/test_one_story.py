@@ -14,7 +14,7 @@ import pytest
 
 from fluxloom.compiler import load_scheme
 from fluxloom.runtime.cli import main
-from fluxloom.runtime.commands import demo
+from fluxloom.runtime import demo
 from fluxloom.runtime.commands.build import generated_files
 from fluxloom.runtime.commands.verify import predict
 from fluxloom.runtime.findings import Options, verify_kernel
@@ -30,8 +30,9 @@ FACTS = {
     "quickest": {"stability": "conditional, stable for [0, 1] and c = 2",
                  "TVD": "only for c = 1 and c = 2"},
     # lw_overreach: TVD on [1/3, 2/3] and at c = 1 (Sweby 1984 region argument [mem],
-    # REFERENCE.md); its limiter leaves Sweby's region for r in (0, 1/2) and r > 2.
-    "lw_overreach": {"stability": "conditional, stable for [0, 1]",
+    # reference_values.OVERREACH_TVD), so proven stable (bounded) there and nowhere else
+    # proven; its limiter leaves Sweby's region for r in (0, 1/2) and r > 2.
+    "lw_overreach": {"stability": "conditional, stable for [1/3, 2/3] and c = 1",
                      "TVD": "yes for [1/3, 2/3] and c = 1",
                      "limiter": "Sweby's TVD region fails for r in (0, 1/2) and r in (2, oo)"},
     # FCT: total variation is not analysed: undecided, never "no" or "-"
@@ -40,7 +41,7 @@ FACTS = {
 
 
 def test_quickest_island_and_overreach_failing_range_hold_numerically():
-    # QUICKEST's G from its face (REFERENCE.md formula), with numpy: |G| <= 1 at c = 1 and
+    # QUICKEST's G from its face (reference_values.QUICKEST_FACE), with numpy: |G| <= 1 at c = 1 and
     # 2, > 1 at c = 1.5 and 2.1.
     theta = np.linspace(1e-3, np.pi, 4001)
     z = np.exp(1j * theta)
@@ -76,7 +77,8 @@ def test_every_output_tells_the_same_story(stem, capsys, tmp_path):
     facts = FACTS[stem]
     outputs = {}
     outputs["check"] = _check_text(capsys, path)
-    assert main(["compare", str(path), "--cells", "16"]) == 0
+    assert main(["compare", str(path), "--cells", "16", "--grids", "16,32", "--repeats", "1",
+                 "--timing-cells", "1000"]) == 0
     outputs["compare"] = capsys.readouterr().out
     table, _, _ = demo.check_part([path], tmp_path, lambda *a: None, True)
     outputs["demo"] = table

@@ -20,7 +20,6 @@ import pytest
 import sympy
 from hypothesis import given, settings
 from hypothesis import strategies as st
-from published_methods import PUBLISHED, published_step
 
 from fluxloom.compiler import scheme_from_text
 from fluxloom.compiler.analysis.timemethods import imaginary_axis_limit
@@ -28,6 +27,9 @@ from fluxloom.compiler.time_methods import METHODS, Z, butcher, method, shu_oshe
 from fluxloom.compiler.time_methods.low_storage import derive
 from fluxloom.compiler.time_methods.properties import rooted_trees
 from fluxloom.runtime.cli import main
+
+import reference_values as ref
+from reference_values import PUBLISHED_STEPS as PUBLISHED, published_step
 
 EXAMPLES = Path(__file__).resolve().parents[1] / "examples"
 NAMES = sorted(METHODS)
@@ -51,18 +53,11 @@ def butcher_arrays(m):
 
 # ---- SSP coefficients ---------------------------------------------------------------------
 
-@pytest.mark.parametrize("name, published", [
-    ("euler", 1),        # forward Euler is the step SSP methods are built from (common practice)
-    ("ssp_rk2", 1),      # Shu and Osher 1988, J. Comput. Phys. 77:439; Gottlieb and Shu 1998 [mem]
-    ("ssp_rk3", 1),      # Shu and Osher 1988, J. Comput. Phys. 77:439 [mem]
-    ("rk4", 0),          # Kraaijevanger 1991, BIT 31:482; Gottlieb, Shu, Tadmor 2001 [mem]
-    ("ssp_rk10_4", 6),   # Ketcheson 2008, SIAM J. Sci. Comput. 30:2113 [mem]
-    # By hand: K (I + rK)^-1 has the entry -r/6 (q** reads q* with weight 1/2, q* reads L(q)
-    # with 1/3, q** has no L(q) of its own), negative for every r > 0.
-    ("ws_rk3", 0),
-])
-def test_ssp_coefficient_is_the_published_value(name, published):
-    assert method(name).ssp_coefficient == published
+@pytest.mark.parametrize("name", sorted(ref.SSP_COEFFICIENT))
+def test_ssp_coefficient_is_the_published_value(name):
+    # reference_values.SSP_COEFFICIENT (sources there: Shu and Osher 1988, Kraaijevanger
+    # 1991, Ketcheson 2008 [mem]; ws_rk3 by hand).
+    assert method(name).ssp_coefficient == ref.SSP_COEFFICIENT[name].value
 
 
 def _absolutely_monotone(k: np.ndarray, r: float) -> bool:
@@ -97,8 +92,8 @@ def test_shu_osher_ratios_of_the_ssp_tables_reach_the_coefficient(name):
 # ---- orders -------------------------------------------------------------------------------
 
 def test_rooted_tree_counts():
-    # Rooted trees with n vertices: 1, 1, 2, 4, 9, 20, 48, 115 (Cayley 1857; OEIS A000081 [mem]).
-    assert [len(rooted_trees(n)) for n in range(1, 9)] == [1, 1, 2, 4, 9, 20, 48, 115]
+    # reference_values.ROOTED_TREES (Cayley 1857; OEIS A000081 [mem]).
+    assert tuple(len(rooted_trees(n)) for n in range(1, 9)) == ref.ROOTED_TREES.value
 
 
 def hand_order(m) -> int:
@@ -123,12 +118,10 @@ def hand_order(m) -> int:
     return p
 
 
-@pytest.mark.parametrize("name, published", [
-    ("euler", 1), ("ssp_rk2", 2), ("ssp_rk3", 3), ("rk4", 4),
-    ("ws_rk3", 2),      # third order only on linear problems (Wicker and Skamarock 2002 [mem])
-    ("ssp_rk10_4", 4),  # Ketcheson 2008 [mem]
-])
-def test_classical_order_against_the_written_out_conditions(name, published):
+@pytest.mark.parametrize("name", sorted(ref.CLASSICAL_ORDER))
+def test_classical_order_against_the_written_out_conditions(name):
+    # reference_values.CLASSICAL_ORDER (ws_rk3: third order only on linear problems).
+    published = ref.CLASSICAL_ORDER[name].value
     m = method(name)
     assert m.order == published == hand_order(m)
     if published == 4:   # not fifth order: b A^3 c = 1/120 is one of its conditions
@@ -136,10 +129,11 @@ def test_classical_order_against_the_written_out_conditions(name, published):
         assert (b * a ** 3 * a * sympy.ones(a.rows, 1))[0] != sympy.Rational(1, 120)
 
 
-@pytest.mark.parametrize("name, published", [
-    ("euler", 1), ("ssp_rk2", 2), ("ssp_rk3", 3), ("rk4", 4), ("ws_rk3", 3), ("ssp_rk10_4", 4)])
-def test_linear_order_from_the_series_of_exp(name, published):
-    """R(z) - exp(z) = O(z^(p+1)) with p the order on linear problems (sympy series)."""
+@pytest.mark.parametrize("name", sorted(ref.LINEAR_ORDER))
+def test_linear_order_from_the_series_of_exp(name):
+    """R(z) - exp(z) = O(z^(p+1)) with p the order on linear problems (sympy series), against
+    reference_values.LINEAR_ORDER."""
+    published = ref.LINEAR_ORDER[name].value
     gap = sympy.series(sympy.exp(Z) - method(name).stability_polynomial, Z, 0, 14).removeO()
     lowest = min(sympy.Poly(gap, Z).monoms())[0]
     assert lowest - 1 == method(name).linear_order == published
@@ -383,9 +377,10 @@ def test_check_json_time_method(capsys, stem, expected):
     doc = check_json(capsys, stem)
     assert expected.items() <= doc["time_method"].items()
     if stem == "kappa_ws3":
-        # SSP-RK3's limit for kappa = 1/3 (REFERENCE.md, method-of-lines table [derived]):
-        # every three-stage method of linear order 3 has the same R(z).
-        assert doc["stability"]["courant_max"] == pytest.approx(1.6259, abs=1e-3)
+        # SSP-RK3's limit for kappa = 1/3 (reference_values.MOL_LIMIT [derived]): every
+        # three-stage method of linear order 3 has the same R(z).
+        limit = ref.MOL_LIMIT[("kappa=1/3", "ssp_rk3")].value
+        assert doc["stability"]["courant_max"] == pytest.approx(limit, abs=ref.MOL_LIMIT_TOLERANCE)
         assert doc["stability"]["time_method"]["ssp_coefficient"] == 0.0
         assert doc["tvd"]["holds"] is not True
 

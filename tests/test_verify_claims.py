@@ -84,7 +84,7 @@ def test_under_claimed_order_is_caught():
 
 
 @pytest.mark.parametrize("stem, kind, main, islands", [
-    # Lax-Wendroff is stable for c <= 1 exactly (von Neumann; REFERENCE.md, LeVeque 2002 [mem])
+    # Lax-Wendroff is stable for c <= 1 exactly (von Neumann; reference_values.STABLE_INTERVAL, LeVeque 2002 [mem])
     ("lax_wendroff", "conditional", (0, "5/4"), ()),         # too wide
     ("lax_wendroff", "conditional", (0, "3/4"), ()),         # too narrow
     ("lax_wendroff", "conditional", (0, 1), ("3/2",)),       # an island that is not there
@@ -92,7 +92,7 @@ def test_under_claimed_order_is_caught():
     ("upwind", "unstable", None, ()),                        # false unstable
     # FTCS grows at every c > 0: |G|^2 = 1 + c^2 sin^2(theta) (common practice, no source)
     ("ftcs", "conditional", (0, 1), ()),
-    # QUICKEST is stable on [0, 1] and again at c = 2 (Leonard 1979 [mem]; REFERENCE.md):
+    # QUICKEST is stable on [0, 1] and again at c = 2 (Leonard 1979 [mem]; reference_values.QUICKEST_ISLAND):
     ("quickest", "conditional", (0, 1), ()),                 # the island missed
 ])
 def test_wrong_stable_set_is_caught(stem, kind, main, islands):
@@ -133,7 +133,7 @@ def test_false_tvd_or_monotone_claim_is_caught(claim):
 
 
 def test_false_tvd_claim_for_a_limiter_outside_sweby_region_is_caught():
-    # lw_overreach is TVD only on [1/3, 2/3] and at c = 1 (Sweby 1984 [mem]; REFERENCE.md);
+    # lw_overreach is TVD only on [1/3, 2/3] and at c = 1 (Sweby 1984 [mem]; reference_values.OVERREACH_TVD);
     # at c = 0.8 total variation grows. Claimed TVD on [0, 1].
     scheme, doc = document("lw_overreach", 0.8)
     doc["tvd"].update(holds=True, **courant_set((0, 1)))

@@ -11,6 +11,8 @@ import pytest
 from fluxloom.runtime.cli import main
 from fluxloom.runtime.commands import verify as verify_command
 
+import reference_values as ref
+
 EXAMPLES = Path(__file__).resolve().parents[1] / "examples"
 
 
@@ -53,10 +55,11 @@ def test_measured_orders_on_generated_kernels(capsys, stem, order):
 
 
 def test_lax_wendroff_stability_limit_measured(capsys):
-    # |G|^2 = 1 - 4c^2(1 - c^2) sin^4(theta/2): stable for c <= 1 (REFERENCE.md [pub]).
+    # reference_values.STABLE_INTERVAL: Lax-Wendroff stable for c <= 1 ([mem], derived).
     status, doc = run_json(capsys, EXAMPLES / "lax_wendroff.loom", "--backend", "c")
     assert doc["backend"] == "c"
-    assert doc["stability"]["measured_max"] == pytest.approx(1.0, abs=0.02)
+    limit = ref.STABLE_INTERVAL["lax_wendroff"].value[1]
+    assert doc["stability"]["measured_max"] == pytest.approx(limit, abs=0.02)
 
 
 def test_ftcs_is_found_unstable_everywhere_and_that_agrees(capsys):
@@ -70,8 +73,8 @@ def test_ftcs_is_found_unstable_everywhere_and_that_agrees(capsys):
 
 
 def test_overreaching_limiter_caught_at_c_08(capsys):
-    # Outside Sweby's region: TVD only for 1/3 <= c <= 2/3 (REFERENCE.md; Sweby 1984, from
-    # memory). At c = 0.8 the square wave's total variation grows, as predicted.
+    # Outside Sweby's region: TVD only for 1/3 <= c <= 2/3 (reference_values.OVERREACH_TVD;
+    # Sweby 1984, from memory). At c = 0.8 the square wave's total variation grows.
     status, doc = run_json(capsys, EXAMPLES / "lw_overreach.loom", "--courant", "0.8")
     assert status == 0
     assert doc["tv_increase"] > 1e-3
@@ -156,7 +159,9 @@ def test_entry_point_runs_as_a_program():
 @pytest.mark.parametrize("stem, courant", [("upwind", "1"), ("quickest", "2")])
 def test_exact_shifts_are_recognised(capsys, stem, courant):
     # At c = 1 upwind moves every value one cell; QUICKEST is stable again at c = 2 exactly
-    # (REFERENCE.md: Leonard 1979, from memory) and moves values two cells: no order to fit.
+    # (reference_values.QUICKEST_ISLAND: Leonard 1979, from memory) and moves values two
+    # cells: no order to fit.
+    assert stem != "quickest" or float(courant) == ref.QUICKEST_ISLAND.value
     status, doc = run_json(capsys, EXAMPLES / f"{stem}.loom", "--courant", courant)
     assert status == 0
     convergence = [f for f in doc["findings"] if f["check"] == "convergence"]
@@ -165,9 +170,10 @@ def test_exact_shifts_are_recognised(capsys, stem, courant):
 
 def test_fromm_at_half_courant_measures_the_order_the_analysis_gives(capsys):
     # Fromm is third order at c = 1/2, where a3 = (u dx^2/12)(1 - c)(1 - 2c) vanishes
-    # (Fromm 1968, J. Comput. Phys. 3:176; from memory, REFERENCE.md): check must say 3
+    # (reference_values.FROMM_ORDER_AT_HALF: Fromm 1968, from memory): check must say 3
     # there and verify must measure it.
     assert main(["verify", str(EXAMPLES / "fromm.loom"), "--courant", "0.5", "--json"]) == 0
     doc = json.loads(capsys.readouterr().out)
-    assert doc["predicted_order"] == 3
-    assert abs(doc["observed_order"]["l1"] - 3) < 0.3
+    order = ref.FROMM_ORDER_AT_HALF.value
+    assert doc["predicted_order"] == order
+    assert abs(doc["observed_order"]["l1"] - order) < 0.3

@@ -12,15 +12,15 @@ from dataclasses import dataclass
 import sympy
 
 from . import budget, intervals
-from .bounds import Bounds, analyse_bounds, check_low_flux
+from .bounds import Bounds, analyse_bounds, check_low_flux, low_flux_scheme
 from .conservation import Conservation, analyse_conservation
 from .consistency import Consistency, analyse_consistency
 from .dispersion import Dispersion, analyse_dispersion
-from .intervals import Span
+from .intervals import CourantSet, Span
 from .limiters import LimiterFacts, analyse_limiter
 from .monotone import Monotone, analyse_monotone
 from .stability import Stability, analyse_stability, kind_of_interval
-from .symbol import Linearisation, linearise
+from .symbol import LinearScheme, Linearisation, linearise
 from .tvd import TVD, analyse_tvd
 from .tvd import undecided as tvd_undecided
 
@@ -37,7 +37,8 @@ class Analysis:
     courant: float
     linearisation: Linearisation
     consistency: tuple[Consistency, ...]       # one per smooth linear scheme
-    stability: tuple[Stability, ...]           # smooth ones first, then bounding ones
+    stability: tuple[Stability, ...]           # smooth ones first, then bounding ones (and,
+                                               # for FCT, the low flux alone)
     conservation: Conservation
     monotone: tuple[Monotone, ...]             # same order as stability
     limiters: tuple[LimiterFacts, ...]
@@ -48,6 +49,7 @@ class Analysis:
     order_cap: int | None = None          # orders are claimed up to this (0: none claimed)
     budget_seconds: float = budget.DEFAULT_SECONDS
     over_budget: tuple[tuple[str, str, str], ...] = ()   # (pass, "fallback"|"undecided", note)
+    courant_exact: sympy.Expr = sympy.Rational(1, 2)      # the same Courant number, exact
 
     # ---- summaries -------------------------------------------------------
     def exceeded(self, what: str) -> str | None:
@@ -56,11 +58,11 @@ class Analysis:
 
     @property
     def consistent(self) -> bool | None:
-        """None (undecided) when no linear scheme stands for the scheme or the pass ran out
-        of budget."""
-        if not self.consistency and (self.exceeded("consistency") or not self.linearisation.smooth):
+        """None (undecided) when no linear scheme stands for the scheme in smooth regions or
+        the pass ran out of budget; never False for want of an answer."""
+        if not self.consistency:
             return None
-        return bool(self.consistency) and all(c.consistent for c in self.consistency)
+        return all(c.consistent for c in self.consistency)
 
     def _capped(self, value: int | None) -> int | None:
         if value is None or self.order_cap is None:
@@ -84,26 +86,77 @@ class Analysis:
         if not self.consistency or self.courant <= 0 or not self.linearisation.exact:
             # a limited scheme's linearisation says nothing finer than its generic order
             return self._order("order_overall")
-        values = [c.order_at(self.courant) for c in self.consistency]
+        values = [c.order_at(self.courant_exact) for c in self.consistency]
         if any(v is None for v in values):
             return None
         return self._capped(min(values))
 
+    # ---- stability: the scheme's verdict and its linear stand-ins -----------
     @property
-    def stable_interval(self) -> Span | None:
-        """The interval nearest c = 0 where every linear scheme standing for this one is stable."""
-        mains = [s.stable.main for s in self.stability]
-        if not mains or any(m is None for m in mains):
-            return None
-        lo = max((m.lo for m in mains), key=intervals.number)
-        hi = min((m.hi for m in mains), key=intervals.number)
-        if intervals.number(lo) >= intervals.number(hi):
-            return None
-        return Span(lo, hi, True, hi != sympy.oo)
+    def stand_in_set(self) -> CourantSet | None:
+        """Courant numbers where every linear scheme standing for this one is stable
+        (isolated points such as c = 1 kept)."""
+        return intervals.intersection(st.stable for st in self.stability)
 
     @property
-    def stability_kind(self) -> str:
-        return kind_of_interval(self.stable_interval)
+    def stable_set(self) -> CourantSet | None:
+        """The strongest stability statement proven for the scheme itself, or None.
+
+        Linear schemes: von Neumann, exact (unstable outside). Flux-corrected transport:
+        bounded where the low-order step is monotone. Other nonlinear schemes: bounded
+        where one step is TVD. Outside a nonlinear scheme's set nothing is claimed."""
+        s = self.scheme
+        if s.correct == "fct":
+            bounded = self.bounds.bounded_set if self.bounds is not None else None
+            return bounded if bounded is not None and bounded.any_positive else None
+        if self.linearisation.exact:
+            return self.stability[0].stable if self.stability else None
+        if self.small_data:
+            return self.stand_in_set
+        tvd = self.tvd.stable_set
+        return tvd if tvd is not None and tvd.any_positive else None
+
+    @property
+    def small_data(self) -> bool:
+        """A nonlinear face differentiable at a constant state: for data close enough to a
+        constant state it is its Jacobian linearisation, whose von Neumann verdict is then
+        exact for those data (and says nothing about larger data)."""
+        lin = self.linearisation
+        return (not lin.exact and lin.source == "linearisation"
+                and (lin.where or "").startswith("a constant state") and bool(self.stability))
+
+    @property
+    def stability_claim(self) -> str:
+        """What the stable set means: 'exact' (linear, or small perturbations of a constant
+        state: unstable outside it) or 'at least' (nonlinear: proven stable there, no claim
+        outside)."""
+        if self.scheme.correct == "fct":
+            return "at least"
+        return "exact" if (self.linearisation.exact or self.small_data) else "at least"
+
+    @property
+    def stable_interval(self) -> Span | None:
+        """The interval nearest c = 0 of the stable set (islands aside)."""
+        cset = self.stable_set
+        return cset.main if cset is not None else None
+
+    @property
+    def stability_kind(self) -> str | None:
+        """unconditional | conditional | unstable; None where a nonlinear scheme is proven
+        stable on no interval (it may still be at isolated Courant numbers, its islands)."""
+        cset = self.stable_set
+        if self.stability_claim == "exact":
+            return kind_of_interval(cset.main if cset is not None else None)
+        if cset is None or cset.main is None:
+            return None
+        return kind_of_interval(cset.main)
+
+    def stable_at(self, c_value) -> bool | None:
+        """Stable at this Courant number (islands included); None where nothing is claimed."""
+        cset = self.stable_set
+        if cset is not None and cset.contains(float(c_value)):
+            return True
+        return False if self.stability_claim == "exact" and cset is not None else None
 
     def to_json(self) -> dict:
         from .document import analysis_document
@@ -111,18 +164,30 @@ class Analysis:
 
 
 CACHE_SIZE = 256
-_CACHE: dict[tuple[str, float, float], Analysis] = {}
+_CACHE: dict[tuple, Analysis] = {}
 
 
-def analyse(scheme, courant: float = 0.5, budget_seconds: float = budget.DEFAULT_SECONDS) -> Analysis:
+def exact_courant(courant) -> sympy.Expr:
+    """A Courant number as an exact rational: 3/5 stays 3/5, 0.1 is 1/10."""
+    if isinstance(courant, sympy.Basic):
+        return sympy.nsimplify(courant, rational=True)
+    if isinstance(courant, float):
+        return sympy.Rational(repr(courant))
+    return sympy.Rational(courant)
+
+
+def analyse(scheme, courant=sympy.Rational(1, 2),
+            budget_seconds: float = budget.DEFAULT_SECONDS) -> Analysis:
     """Every analysis pass over one scheme, each within `budget_seconds` of CPU time;
-    cached on (fingerprint, courant, budget)."""
+    cached on (fingerprint, courant, budget). courant: a number or an exact rational
+    (sympy.Rational, fractions.Fraction, '3/5'), kept exact."""
     check_low_flux(scheme)
-    key = (scheme.fingerprint, float(courant), float(budget_seconds))
+    exact = exact_courant(courant)
+    key = (scheme.fingerprint, exact, float(budget_seconds))
     if key not in _CACHE:
         if len(_CACHE) >= CACHE_SIZE:
             _CACHE.pop(next(iter(_CACHE)))  # oldest first
-        _CACHE[key] = _analyse(scheme, float(courant), float(budget_seconds))
+        _CACHE[key] = _analyse(scheme, exact, float(budget_seconds))
     return _CACHE[key]
 
 
@@ -151,10 +216,11 @@ def _numeric_stability(ls) -> Stability:
                      "(not formed)", None, stable)
 
 
-def _analyse(scheme, courant: float, seconds: float) -> Analysis:
+def _analyse(scheme, exact_c, seconds: float) -> Analysis:
     from .stability import NUMERIC_TOLERANCE
     from .symbol import linearise_numerically
 
+    courant = float(exact_c)
     passes = _Passes(seconds)
     run = passes.run
     lin = run("linearisation", lambda: linearise(scheme),
@@ -168,12 +234,17 @@ def _analyse(scheme, courant: float, seconds: float) -> Analysis:
     consistency = run("consistency", lambda: tuple(analyse_consistency(ls) for ls in lin.smooth),
                       undecided=tuple)
     linear_schemes = lin.smooth + lin.bounding
+    if scheme.correct == "fct":  # the corrected flux is the low flux wherever it must be
+        low = low_flux_scheme(scheme)
+        if low is not None:
+            linear_schemes += (LinearScheme("low flux alone", low.time, low.face_coefficients),)
     stability = run("stability", lambda: tuple(analyse_stability(ls) for ls in linear_schemes),
                     lambda: tuple(_numeric_stability(ls) for ls in linear_schemes),
                     f"numeric scan of |G| instead (tolerance {NUMERIC_TOLERANCE:g})", tuple)
     monotone = run("monotone", lambda: tuple(analyse_monotone(ls) for ls in linear_schemes),
                    undecided=tuple)
-    limiters = tuple(_limiter(run, lim.name, scheme.bound(lim.body)) for lim in scheme.limiters)
+    limiters = tuple(_limiter(run, lim.name, scheme.bound(lim.body), lim.courant)
+                     for lim in scheme.limiters)
     whole_step = monotone[0].monotone if (lin.exact and monotone) else None
     tvd = run("tvd", lambda: analyse_tvd(scheme, whole_step),
               undecided=lambda: tvd_undecided(passes.reason("tvd")))
@@ -191,17 +262,19 @@ def _analyse(scheme, courant: float, seconds: float) -> Analysis:
         cap_note = (f"{', '.join(lin.curved)} is curved at r = 1, so the linearised order is "
                     f"claimed up to {SMOOTH_ORDER_CAP}")
     return Analysis(scheme, courant, lin, consistency, stability, conservation, monotone,
-                    limiters, tvd, dispersion, bounds, cap_note, cap, seconds, tuple(passes.over))
+                    limiters, tvd, dispersion, bounds, cap_note, cap, seconds, tuple(passes.over),
+                    exact_c)
 
 
-def _limiter(run, name: str, body) -> LimiterFacts:
-    from .limiters import _sampled
+def _limiter(run, name: str, body, courant: bool = False) -> LimiterFacts:
+    from .limiters import _sampled, _sampled_courant
 
     def undecided():
         return LimiterFacts(name, sympy.sstr(body), None, None, None, None, None, None, None,
-                            None, "undecided: budget exceeded", ())
-    return run(f"limiter {name}", lambda: analyse_limiter(name, body),
-               lambda: _sampled(name, body, None, None, None),
+                            None, "undecided: budget exceeded", courant=courant)
+    sampled = _sampled_courant if courant else _sampled
+    return run(f"limiter {name}", lambda: analyse_limiter(name, body, courant),
+               lambda: sampled(name, body, None, None, None),
                "sampled on a grid instead (tolerance stated in the method)", undecided)
 
 

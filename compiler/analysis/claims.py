@@ -179,10 +179,15 @@ class Stability:
     method: str | None
     tolerance: float | None
     basis: str
+    outside: str | None           # "unstable" (proven to grow outside `stable`) | "no claim"
 
     @property
     def decided(self) -> bool:
         return self.kind is not None
+
+    @property
+    def claims_growth_outside(self) -> bool:
+        return self.outside == "unstable"
 
 
 @dataclass(frozen=True)
@@ -309,8 +314,11 @@ def _stability(doc: dict) -> Stability:
             _courants(s, path, main=skind in ("unconditional", "conditional"),
                       method=_get(s, "method", MAYBE_TEXT, path),
                       tolerance=_get(s, "tolerance", MAYBE_NUMBER, path))))
+    outside = _get(d, "outside", MAYBE_TEXT, "stability")
+    if outside not in (None, "unstable", "no claim"):
+        raise DocumentError(f"analysis document: unknown stability.outside '{outside}'")
     return Stability(kind, stable, tuple(standins), method, tolerance,
-                     _get(d, "basis", str, "stability"))
+                     _get(d, "basis", str, "stability"), outside)
 
 
 def _verdict(d: dict, path: str, islands: bool = True) -> Verdict:

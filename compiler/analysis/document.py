@@ -12,6 +12,8 @@ import sympy
 from ..emit.exchange import exchange_schedule
 from . import intervals
 from .intervals import CourantSet, Span
+from .stability import kind_of
+from .limiters import range_text
 from .wording import r_set_text
 from .timemethods import imaginary_axis_limit, method, stability_polynomial
 
@@ -19,15 +21,18 @@ SCHEMA_VERSION = 1
 
 
 def _num(value):
-    if value is None:
-        return None
+    if value is None or getattr(value, "free_symbols", None):
+        return None  # unknown, or a function of c
     if value == sympy.oo or value == -sympy.oo:
         return None
     return float(sympy.N(value, 17))
 
 
 def _exact(value):
-    return None if value is None else intervals.exact_text(value)
+    """The exact form as text; null for a value known only numerically (a float)."""
+    if value is None or (isinstance(value, sympy.Basic) and value.has(sympy.Float)):
+        return None
+    return intervals.exact_text(value)
 
 
 def _span(span: Span | None) -> dict:
@@ -38,10 +43,14 @@ def _span(span: Span | None) -> dict:
             "courant_max": _num(span.hi), "courant_max_exact": _exact(span.hi)}
 
 
-def _set(cset: CourantSet | None) -> dict:
+def _set(cset: CourantSet | None, leading: bool = True) -> dict:
+    """courant_min/max of the interval nearest c = 0 (leading=True: where there is none,
+    the first isolated point c > 0), every other part in islands."""
     if cset is None:
         return {**_span(None), "islands": [], "set": None, "method": None, "tolerance": None}
-    return {**_span(cset.main), "islands": [_span(p) for p in cset.islands],
+    first = cset.leading if leading else cset.main
+    rest = cset.others if leading else cset.islands
+    return {**_span(first), "islands": [_span(p) for p in rest],
             "set": cset.text(), "method": cset.method, "tolerance": cset.tolerance}
 
 
@@ -115,22 +124,53 @@ def analysis_document(a) -> dict:
     if not a.consistency:
         undecided.append(_over(a, "consistency") or f"consistency: {lin.note}")
 
-    # stability
+    # stability: the scheme's own verdict, then the linear stand-ins
     span = a.stable_interval
+    scheme_set = a.stable_set
     every = [st.stable for st in a.stability]
+    claim = a.stability_claim
+    if a.small_data:
+        basis, source = ("small perturbations of a constant state, where the face is its "
+                         "Jacobian linearisation (von Neumann, exact for that linearisation); "
+                         "larger data, where the weights or clamps act, are not covered"), \
+            "linearisation"
+    elif claim == "exact":
+        basis, source = "the scheme's own amplification factor (von Neumann, exact)", "scheme"
+        if s.clip is not None:
+            basis += "; the clamp only acts at the bounds and keeps values in them regardless"
+    elif s.correct == "fct":
+        basis, source = ("bounded: each cell stays within its neighbours' old and low-order "
+                         "values where the low-order step is monotone (Zalesak 1979); the "
+                         "linear stand-ins are the flux alone and the low flux alone"), "fct"
+    else:
+        stand_in_words = ("the linearisation of the nonlinear face" if lin.source == "linearisation"
+                          else "the linear stand-ins (linearised at r = 1, limiter frozen at 0 "
+                               "and at psi(1))")
+        basis, source = ("bounded where one step is TVD (see tvd): total variation, and with it "
+                         f"every value, stays bounded there; {stand_in_words}: reported under "
+                         "stand_ins, as stand-ins, not as the scheme's verdict"), lin.source
+    stand_ins = a.stand_in_set
     exact = all(cs.tolerance is None for cs in every)
-    islands = []
-    if len(a.stability) == 1:
-        islands = [_span(p) for p in a.stability[0].stable.islands]
+    kind = a.stability_kind if a.stability else None
     doc["stability"] = {
-        "kind": a.stability_kind if a.stability else None, **_span(span), "islands": islands,
-        "method": "; ".join(dict.fromkeys(cs.method for cs in every)) or None,
+        "kind": kind, **_set(scheme_set, leading=False),
+        "outside": "unstable" if claim == "exact" else "no claim",
+        "method": ("; ".join(dict.fromkeys(cs.method for cs in every)) or None) if claim == "exact"
+        else (scheme_set.method if scheme_set is not None else None),
         "tolerance": None if exact else max(cs.tolerance for cs in every if cs.tolerance),
-        "basis": lin.basis,
-        "source": "scheme",
-        "schemes": [{"label": st.label, "kind": st.kind, "amplification_z": st.amplification,
+        "basis": basis,
+        "source": source,
+        "at_courant": {"courant": a.courant, "courant_exact": _exact(a.courant_exact),
+                       "stable": a.stable_at(a.courant_exact)},
+        "stand_ins": None if (lin.exact and s.correct != "fct") else {
+            "kind": kind_of(stand_ins) if stand_ins is not None else None,
+            **_set(stand_ins, leading=False),
+            "note": "Courant numbers where every linear stand-in is stable; the scheme itself "
+                    "is nonlinear, so this is not its verdict"},
+        "schemes": [{"label": "flux alone" if (s.correct == "fct" and st.label == "the scheme")
+                     else st.label, "kind": st.kind, "amplification_z": st.amplification,
                      "abs_squared_s": st.abs_squared, "semi_discrete_z": st.semi_discrete,
-                     **_set(st.stable)} for st in a.stability],
+                     **_set(st.stable, leading=False)} for st in a.stability],
         "variables": "z = exp(i theta), s = sin(theta/2)^2, theta = k dx",
     }
     if s.time != "euler":
@@ -142,6 +182,13 @@ def analysis_document(a) -> dict:
             "imaginary_axis_limit_exact": _exact(limit)}
     if not a.stability:
         undecided.append(_over(a, "stability") or f"stability: {lin.note}")
+    elif kind is None:
+        proven = f" (only at {scheme_set.text()})" if scheme_set is not None else ""
+        undecided.append("stability: " + (f"the scheme is nonlinear and one step is shown TVD "
+                                          f"on no interval of Courant numbers{proven} (see "
+                                          "tvd); its linear stand-ins are under stand_ins"
+                                          if s.correct != "fct" else
+                                          "the low-order step is monotone on no interval"))
 
     # conservation
     doc["conservative"] = a.conservation.conservative
@@ -162,13 +209,23 @@ def analysis_document(a) -> dict:
         undecided.append("convergence: " + why)
     elif not a.consistent:
         conv.update(holds=False, reason="not consistent, so not convergent")
-    elif span is None:
-        conv.update(holds=False, reason="consistent but stable at no Courant number (beyond "
-                    "isolated values), so by the Lax equivalence theorem it does not converge")
+    elif scheme_set is None or not scheme_set.any_positive:
+        conv.update(holds=False, reason="consistent but stable at no Courant number c > 0, so "
+                    "by the Lax equivalence theorem it does not converge")
     else:
-        conv.update(holds=True, **_span(span), order=order["overall"],
-                    reason=f"consistent and stable for {span.text()}, hence convergent there "
-                           f"(Lax equivalence theorem) with order {order['overall']}")
+        where = scheme_set.text()
+        conv.update(**_set(scheme_set, leading=False), order=order["overall"])
+        if scheme_set.main is not None:
+            conv.update(holds=True, reason=f"consistent and stable for {where}, hence "
+                        f"convergent there (Lax equivalence theorem, refining at a fixed Courant "
+                        f"number) with order {order['overall']}")
+        else:
+            conv.update(holds=False, reason=f"consistent but stable on no interval of Courant "
+                        f"numbers; at {where} it converges (Lax equivalence theorem at that "
+                        "fixed Courant number), nowhere else")
+        for key in ("set", "tolerance", "method"):
+            conv.pop(key, None)
+    conv.setdefault("islands", [])
     doc["convergent"] = conv
 
     # monotonicity
@@ -178,7 +235,9 @@ def analysis_document(a) -> dict:
         mono["reason"] = ("flux-corrected transport is nonlinear, so the coefficient test does "
                           "not apply; it is bounded and free of new extrema where its low flux is "
                           "monotone (see bounds)")
-        mono["bounding"] = [{"label": f"flux alone ({m.label})", "holds": m.holds, **_set(m.monotone)}
+        mono["bounding"] = [{"label": m.label if m.label.startswith("low flux")
+                             else f"flux alone ({m.label})",
+                             "holds": m.holds, **_set(m.monotone, leading=False)}
                             for m in a.monotone]
         undecided.append("monotone: flux-corrected transport (see bounds)")
     elif lin.exact and a.exceeded("monotone"):
@@ -186,20 +245,20 @@ def analysis_document(a) -> dict:
         undecided.append(mono["reason"])
     elif lin.exact and a.monotone:
         m0 = a.monotone[0]
-        mono.update(holds=m0.holds, **_set(m0.monotone))
+        mono.update(holds=m0.holds, **_set(m0.monotone, leading=False))
         mono.pop("set", None)
         mono.pop("tolerance", None)
         mono["coefficients"] = {str(k): sympy.sstr(v) for k, v in m0.coefficients}
         mono["reason"] = (f"every update coefficient is >= 0 for {m0.monotone.text()}"
-                          if m0.holds else "some update coefficient is negative for every c > 0 "
-                          "(apart from isolated values)")
+                          if m0.monotone.any_positive else
+                          "some update coefficient is negative for every c > 0")
     else:
         mono["reason"] = ("the coefficient test applies to linear schemes; a limited "
                           "scheme is judged by TVD (see tvd)" if lin.source == "limiter" else
                           "the coefficient test applies to linear schemes; `bounding` gives it "
                           "for each linear scheme standing for this nonlinear one")
-        mono["bounding"] = [{"label": m.label, "holds": m.holds, **_set(m.monotone)}
-                            for m in a.monotone]
+        mono["bounding"] = [{"label": m.label, "holds": m.holds,
+                             **_set(m.monotone, leading=False)} for m in a.monotone]
         mono["source"] = lin.source
         undecided.append("monotone: nonlinear scheme")
     if s.clip is not None and mono["holds"] is not None:
@@ -212,7 +271,8 @@ def analysis_document(a) -> dict:
     doc["limiters"] = {}
     for lim in a.limiters:
         doc["limiters"][lim.name] = {
-            "psi": lim.body, "psi_at_1": _num(lim.psi_at_1), "psi_at_1_exact": _exact(lim.psi_at_1),
+            "psi": lim.body, "arguments": ["r", "c"] if lim.courant else ["r"],
+            "psi_at_1": _num(lim.psi_at_1), "psi_at_1_exact": _exact(lim.psi_at_1),
             "slope_at_1": {"left": _num(lim.slope_left), "right": _num(lim.slope_right),
                            "left_exact": _exact(lim.slope_left),
                            "right_exact": _exact(lim.slope_right)},
@@ -220,13 +280,22 @@ def analysis_document(a) -> dict:
             "symmetric": lim.symmetric, "sup_psi": _num(lim.sup_psi),
             "sup_psi_exact": _exact(lim.sup_psi), "sup_psi_over_r": _num(lim.sup_psi_over_r),
             "sup_psi_over_r_exact": _exact(lim.sup_psi_over_r),
+            "tvd_courant": _set(lim.tvd_courant, leading=False), "second_order_courant":
+                _set(lim.second_order_courant, leading=False),
             "method": lim.method, "why_not": list(lim.why),
-            "failures": [_failure(f) for f in lim.failures]}
+            "failures": [_failure(f) for f in lim.failures],
+            "courant_failures": [{"property": f.property, "detail": f.detail,
+                                  "c": " and ".join(range_text(w, "c") for w in f.where),
+                                  "ranges": [{**_span(w), "lo_closed": w.lo_closed,
+                                              "hi_closed": w.hi_closed} for w in f.where],
+                                  "text": f.text()} for f in lim.courant_failures]}
 
     # TVD
     t = a.tvd
-    tvd = {"holds": t.holds, **_set(t.stable_set), "method": t.method, "reason": t.reason,
-           "source": t.source, "harten_c": t.incremental_c}
+    tvd = {"holds": t.holds, **_set(t.stable_set, leading=False), "method": t.method,
+           "reason": t.reason,
+           "source": t.source, "harten_c": t.incremental_c,
+           "outside": t.outside if t.holds is not None else None}
     tvd.pop("tolerance", None)
     if s.clip is not None and t.holds is not None:
         tvd["reason"] = "; ".join(filter(None, [tvd["reason"], "the clamp is pointwise, non-decreasing and 1-Lipschitz, so it "
@@ -239,7 +308,7 @@ def analysis_document(a) -> dict:
     if a.dispersion is not None:
         doc["dispersion"] = {
             "label": a.dispersion.label, "courant": a.dispersion.courant,
-            "stable_at_courant": bool(span is not None and span.contains(a.dispersion.courant)),
+            "stable_at_courant": a.stable_at(a.courant_exact),
             "rows": [{"cells_per_wavelength": r.cells_per_wavelength, "theta": r.theta,
                       "amplitude_per_step": r.amplitude_per_step,
                       "phase_error_per_step": r.phase_error_per_step,
@@ -273,7 +342,7 @@ def analysis_document(a) -> dict:
     doc["verdict_sources"] = {
         "consistent": lin.source,
         "order": "fct" if s.correct == "fct" else lin.source,
-        "stability": lin.source,
+        "stability": doc["stability"]["source"],
         "conservative": doc["conservation"]["source"], "convergent": conv["source"],
         "monotone": mono["source"], "tvd": tvd["source"],
         "bounded": None if b is None else b.kind}

@@ -56,7 +56,24 @@ class CourantSet:
 
     @property
     def empty(self) -> bool:
+        """No interval of positive length (isolated points may remain: see any_positive)."""
         return self.main is None
+
+    @property
+    def any_positive(self) -> bool:
+        """Some c > 0 belongs to the set: an interval or an isolated point."""
+        return any(not (p.is_point and p.lo == 0) for p in self.parts)
+
+    @property
+    def leading(self) -> Span | None:
+        """The main interval; where there is none, the first isolated point c > 0."""
+        return self.main or next((p for p in self.parts if not (p.is_point and p.lo == 0)), None)
+
+    @property
+    def others(self) -> tuple[Span, ...]:
+        """Every part c > 0 but the leading one: the islands as reports list them."""
+        lead = self.leading
+        return tuple(p for p in self.parts if p is not lead and not (p.is_point and p.lo == 0))
 
     def contains(self, value: float) -> bool:
         return any(p.contains(value) for p in self.parts)
@@ -86,6 +103,8 @@ def exact_text(value) -> str:
 
 def display_text(value) -> str:
     """Exact text when short, else the value to 6 significant digits (exact form in JSON)."""
+    if isinstance(value, sympy.Float):
+        return f"{number(value):.6g}"  # a numeric value: its digits, not a float's repr
     text = exact_text(value)
     if len(text) <= 24:
         return text
@@ -153,3 +172,44 @@ def _extend(pieces: list, span: Span) -> None:
             pieces[-1] = Span(last.lo, span.hi, last.lo_closed, span.hi_closed)
             return
     pieces.append(span)
+
+
+def _meet(a: Span, b: Span) -> Span | None:
+    """The intersection of two spans, or None when empty."""
+    lo_a, lo_b = number(a.lo), number(b.lo)
+    if lo_a > lo_b or (lo_a == lo_b and not a.lo_closed):
+        lo, lo_closed = a.lo, a.lo_closed
+    else:
+        lo, lo_closed = b.lo, b.lo_closed
+    hi_a, hi_b = number(a.hi), number(b.hi)
+    if hi_a < hi_b or (hi_a == hi_b and not a.hi_closed):
+        hi, hi_closed = a.hi, a.hi_closed
+    else:
+        hi, hi_closed = b.hi, b.hi_closed
+    if number(lo) > number(hi) or (number(lo) == number(hi) and not (lo_closed and hi_closed)):
+        return None
+    return Span(lo, hi, lo_closed, hi_closed) if number(lo) < number(hi) else Span(lo, lo)
+
+
+def intersection(sets) -> CourantSet | None:
+    """The Courant numbers in every one of the sets (None for no sets)."""
+    sets = list(sets)
+    if not sets:
+        return None
+    parts = list(sets[0].parts)
+    for other in sets[1:]:
+        parts = [m for a in parts for b in other.parts if (m := _meet(a, b)) is not None]
+    parts.sort(key=lambda p: (number(p.lo), number(p.hi)))
+    merged: list[Span] = []
+    for span in parts:
+        _extend(merged, span)
+    tolerances = [s.tolerance for s in sets if s.tolerance is not None]
+    return CourantSet(tuple(merged), "; ".join(dict.fromkeys(s.method for s in sets)),
+                      max(tolerances) if tolerances else None)
+
+
+def restrict_to(cset: CourantSet, top) -> CourantSet:
+    """The part of a set with c <= top."""
+    return CourantSet(tuple(m for p in cset.parts
+                            if (m := _meet(p, Span(sympy.Integer(0), top))) is not None),
+                      cset.method, cset.tolerance)

@@ -1,9 +1,18 @@
-"""Facts about each limiter psi(r): value and slopes at r = 1, Sweby's region,
-its second-order part, and symmetry psi(r)/r = psi(1/r).
+"""Facts about each limiter psi(r) or psi(r, c): value and slopes at r = 1, the TVD
+region and its second-order part, symmetry psi(r)/r = psi(1/r), and the Courant
+numbers where psi lies in the region of the flux-limited Lax-Wendroff form.
 
-Exact piece by piece where the body is piecewise rational (compiler/analysis/
-piecewise.py); otherwise sampled on the grid piecewise.SAMPLE_GRID describes,
-and the result says which method decided it.
+The Courant-free region (Sweby 1984): psi = 0 for r <= 0, 0 <= psi <= min(2r, 2);
+its second-order part: r <= psi <= min(2r, 1) on (0, 1], 1 <= psi <= min(r, 2) on
+[1, oo), psi(1) = 1. For the face q[0] + (1 - c)/2 psi (q[1] - q[0]) the region
+widens as c falls: psi/r <= 2/c and psi <= 2/(1 - c) for 0 < c <= 1, psi >= 0 and
+psi = 0 for r <= 0; its second-order part keeps min(r, 1) <= psi <= max(r, 1).
+Those Courant sets are decided exactly (compiler/analysis/parametric.py) for
+every limiter, of r alone or of (r, c); for a limiter of r, membership of the
+Courant-free region is checked piece by piece, and each failure names the
+property and the exact range of r (or of c) where it fails. Where a body is not
+piecewise rational, everything is sampled on the grid piecewise.SAMPLE_GRID
+describes, and the result says so (its values are then not exact).
 """
 from __future__ import annotations
 
@@ -12,11 +21,52 @@ from dataclasses import dataclass
 import numpy
 import sympy
 
-from ..symbols import R
-from . import piecewise
-from .symbol import limiter_slopes
+from ..symbols import C, R
+from . import intervals, parametric, piecewise
+from .intervals import CourantSet, Span
+from .parametric import Condition
+from .singular import ieee_values
 
 SAMPLE_SLACK = 1e-12
+REGION_TOP = sympy.Integer(1)
+"""The Courant-dependent region is that of single-step schemes, 0 < c <= 1."""
+
+COURANT_PROPERTY_WORDS = {
+    "tvd_courant": "the Courant-dependent TVD region",
+    "second_order_courant": "its second-order part",
+    "symmetric_courant": "symmetry psi(r, c)/r = psi(1/r, c)",
+}
+
+
+@dataclass(frozen=True)
+class Failure:
+    """One property a limiter fails, the set of r where it fails, and how."""
+
+    property: str           # sweby_tvd | second_order_region | symmetric
+    where: sympy.Set        # the r where it fails (exact, or the sampled points' hull)
+    detail: str
+
+
+@dataclass(frozen=True)
+class CourantFailure:
+    """Where a limiter leaves the Courant-dependent region: the Courant numbers (0, 1]."""
+
+    property: str                # tvd_courant | second_order_courant
+    where: tuple[Span, ...]
+    detail: str
+
+    def text(self) -> str:
+        ranges = " and ".join(range_text(s, "c") for s in self.where)
+        return f"{COURANT_PROPERTY_WORDS[self.property]} fails for {ranges}: {self.detail}"
+
+
+def range_text(span: Span, variable: str) -> str:
+    if span.is_point:
+        return f"{variable} = {intervals.display_text(span.lo)}"
+    left = "[" if span.lo_closed and span.lo != -sympy.oo else "("
+    right = "]" if span.hi_closed and span.hi != sympy.oo else ")"
+    lo = "-oo" if span.lo == -sympy.oo else intervals.display_text(span.lo)
+    return f"{variable} in {left}{lo}, {intervals.display_text(span.hi)}{right}"
 
 
 @dataclass(frozen=True)
@@ -29,11 +79,15 @@ class LimiterFacts:
     sweby_tvd: bool | None
     second_order_region: bool | None
     symmetric: bool | None
-    sup_psi: sympy.Expr | None          # sup over r of psi
-    sup_psi_over_r: sympy.Expr | None   # sup over r > 0 of psi / r
+    sup_psi: sympy.Expr | None          # sup over r of psi (None: depends on c)
+    sup_psi_over_r: sympy.Expr | None   # sup over r != 0 of psi / r
     method: str
-    why: tuple[str, ...]                # the first reason each negative verdict failed
-    failures: tuple["Failure", ...] = ()  # each failing property with the r where it fails
+    why: tuple[str, ...] = ()           # every failure, labelled, one line each
+    failures: tuple[Failure, ...] = ()  # each failing property with the r where it fails
+    courant: bool = False               # a limiter of (r, c)
+    tvd_courant: CourantSet | None = None           # c in (0, 1] where psi is in the region
+    second_order_courant: CourantSet | None = None  # ... and in its second-order part
+    courant_failures: tuple[CourantFailure, ...] = ()
 
     @property
     def lipschitz_at_1(self) -> bool:
@@ -41,14 +95,21 @@ class LimiterFacts:
             self.slope_left.is_finite and self.slope_right.is_finite
 
 
-@dataclass(frozen=True)
-class Failure:
-    """One property a limiter fails, the set of r where it fails, and how."""
+PROPERTY_LABELS = {"sweby_tvd": "Sweby's TVD region",
+                   "second_order_region": "second-order region",
+                   "symmetric": "symmetry psi(r)/r = psi(1/r)"}
 
-    property: str           # sweby_tvd | second_order_region | symmetric
-    where: sympy.Set        # the r where it fails (exact, or the sampled points' hull)
-    detail: str
 
+def why_lines(failures, courant_failures) -> tuple[str, ...]:
+    """Every failure as one labelled line: the property, where it fails, what goes wrong."""
+    from .wording import r_set_text
+
+    lines = [f"{PROPERTY_LABELS[f.property]} fails for {r_set_text(f.where)}: {f.detail}"
+             for f in failures]
+    return tuple(lines + [f.text() for f in courant_failures])
+
+
+# ---- exact sets of r where an inequality fails ----------------------------------------
 
 def _negative_set(expr: sympy.Expr, span: sympy.Interval) -> sympy.Set:
     """The r in span where the rational function expr < 0, exactly."""
@@ -96,20 +157,6 @@ def _positive_part(interval: sympy.Interval) -> sympy.Interval:
     return interval.intersect(sympy.Interval.open(0, sympy.oo))
 
 
-def _check(parts, region_pieces) -> str | None:
-    """None when every piece satisfies lower <= psi <= upper on the region parts, else a reason."""
-    for expr, where in parts:
-        for lo_expr, hi_expr, window, text in region_pieces:
-            span = where.intersect(window)
-            if span.is_empty or not isinstance(span, sympy.Interval):
-                continue
-            if lo_expr is not None and not piecewise.nonnegative_on(expr - lo_expr, span):
-                return f"psi = {sympy.sstr(expr)} drops below {text} on {sympy.sstr(span)}"
-            if hi_expr is not None and not piecewise.nonnegative_on(hi_expr - expr, span):
-                return f"psi = {sympy.sstr(expr)} exceeds {text} on {sympy.sstr(span)}"
-    return None
-
-
 _NONPOS = sympy.Interval(-sympy.oo, 0)
 _SWEBY = [
     (sympy.Integer(0), sympy.Integer(0), _NONPOS, "0 (r <= 0)"),
@@ -146,64 +193,265 @@ def _symmetric_failures(parts) -> list[Failure]:
     return [Failure("symmetric", sympy.Union(*bad), "psi(r)/r != psi(1/r)")]
 
 
-def _symmetric_exact(parts) -> str | None:
-    """None when psi(r)/r == psi(1/r) on r > 0, else where it fails."""
-    cuts = set()
-    for _, where in parts:
-        for end in (where.inf, where.sup):
-            if end.is_finite and end > 0:
-                cuts |= {end, 1 / end}
-    points = [sympy.Integer(0)] + sorted(cuts, key=float) + [sympy.oo]
-    for a, b in zip(points, points[1:]):
-        mid = piecewise.rational_between(a, b)
-        here = piecewise.piece_at(parts, mid)
-        there = piecewise.piece_at(parts, 1 / mid)
-        if here is None or there is None:
-            return "a piece is missing"
-        if sympy.cancel(here / R - there.subs(R, 1 / R)) != 0:
-            return f"psi(r)/r != psi(1/r) for r in ({sympy.sstr(a)}, {sympy.sstr(b)})"
-    return None
-
-
 def _sup(parts, over_r: bool) -> sympy.Expr:
+    """sup of psi over all r, or of psi/r over r != 0 (both signs of r)."""
     best = None
     for expr, where in parts:
-        span = _positive_part(where) if over_r else where
-        if span.is_empty or not isinstance(span, sympy.Interval):
-            continue
-        _, top = piecewise.extrema_on(expr / R if over_r else expr, span)
-        best = top if best is None or piecewise._key(top) > piecewise._key(best) else best
+        spans = [where.intersect(sympy.Interval.open(-sympy.oo, 0)),
+                 where.intersect(sympy.Interval.open(0, sympy.oo))] if over_r else [where]
+        for span in spans:
+            if span.is_empty or not isinstance(span, sympy.Interval) or span.measure == 0:
+                continue
+            _, top = piecewise.extrema_on(sympy.cancel(expr / R) if over_r else expr, span)
+            best = top if best is None or piecewise._key(top) > piecewise._key(best) else best
     return best if best is not None else sympy.Integer(0)
 
 
-def analyse_limiter(name: str, body: sympy.Expr) -> LimiterFacts:
+# ---- the Courant-dependent region as conditions on extremes ---------------------------
+
+NEG, POS, BELOW_ONE, ABOVE_ONE = ((-sympy.oo, 0), (0, sympy.oo), (0, 1), (1, sympy.oo))
+
+
+def _psi(expr, sign):
+    return expr
+
+
+def _minus_psi(expr, sign):
+    return -expr
+
+
+def _psi_over_r(expr, sign):
+    return expr / R
+
+
+def _r_minus_psi(expr, sign):
+    return R - expr
+
+
+def _psi_minus_one(expr, sign):
+    return expr - 1
+
+
+def _one_minus_psi(expr, sign):
+    return 1 - expr
+
+
+def _psi_minus_r(expr, sign):
+    return expr - R
+
+
+def _itself(value):
+    return value
+
+
+def _negated(value):
+    return -value
+
+
+def region_conditions() -> list[Condition]:
+    """psi = 0 for r <= 0, psi >= 0, psi/r <= 2/c and psi <= 2/(1 - c) (0 < c <= 1)."""
+    one, zero = sympy.Integer(1), sympy.Integer(0)
+    over = parametric.over
+    return [
+        Condition(((one, over(True, _psi, NEG, at_zero=_itself)),), zero, "psi <= 0 for r <= 0"),
+        Condition(((one, over(True, _minus_psi, NEG, POS, at_zero=_negated)),), zero, "psi >= 0"),
+        Condition(((C, over(True, _psi_over_r, POS)),), sympy.Integer(2), "psi/r <= 2/c"),
+        Condition(((1 - C, over(True, _psi, POS)),), sympy.Integer(2), "psi <= 2/(1 - c)"),
+    ]
+
+
+def second_order_conditions() -> list[Condition]:
+    """The region, and min(r, 1) <= psi <= max(r, 1) for r > 0."""
+    one, zero = sympy.Integer(1), sympy.Integer(0)
+    over = parametric.over
+    return region_conditions() + [
+        Condition(((one, over(True, _r_minus_psi, BELOW_ONE)),), zero, "psi >= r on (0, 1]"),
+        Condition(((one, over(True, _psi_minus_one, BELOW_ONE)),), zero, "psi <= 1 on (0, 1]"),
+        Condition(((one, over(True, _one_minus_psi, ABOVE_ONE)),), zero, "psi >= 1 on [1, oo)"),
+        Condition(((one, over(True, _psi_minus_r, ABOVE_ONE)),), zero, "psi <= r on [1, oo)"),
+    ]
+
+
+def courant_sets(body: sympy.Expr) -> tuple[CourantSet, CourantSet]:
+    """(TVD region, second-order region) as sets of 0 < c <= 1. Raises NotExact."""
+    how = "exact: extremes over r as functions of c, piece by piece"
+    if C not in body.free_symbols:
+        sets = [parametric.separable_courant_set(sympy.Integer(1), body, [conds], how,
+                                                 c_top=REGION_TOP)
+                for conds in (region_conditions(), second_order_conditions())]
+    else:
+        sets = [parametric.courant_set(body, [conds], how, c_top=REGION_TOP)
+                for conds in (region_conditions(), second_order_conditions())]
+    return tuple(parametric.restrict(s, REGION_TOP) for s in sets)
+
+
+def covers(cset: CourantSet, top=REGION_TOP) -> bool:
+    """Every c in (0, top] belongs to the set."""
+    return any(p.lo == 0 and (p.hi == sympy.oo or intervals.number(p.hi) >= intervals.number(top))
+               for p in cset.parts if not p.is_point)
+
+
+def complement(cset: CourantSet, top=REGION_TOP) -> tuple[Span, ...]:
+    """The parts of (0, top] outside the set."""
+    out = []
+    cursor, cursor_closed = sympy.Integer(0), False  # c = 0 itself is not asked about
+    for p in cset.parts:
+        if p.is_point and p.lo == 0:
+            continue
+        if intervals.number(p.lo) > intervals.number(cursor):
+            out.append(Span(cursor, p.lo, cursor_closed, not p.lo_closed))
+        elif p.lo == cursor and not p.lo_closed and cursor_closed:
+            out.append(Span(cursor, cursor))
+        cursor, cursor_closed = p.hi, not p.hi_closed
+    if cursor != sympy.oo and intervals.number(cursor) < intervals.number(top):
+        out.append(Span(cursor, top, cursor_closed, True))
+    elif cursor == top and cursor_closed:
+        out.append(Span(top, top))
+    return tuple(out)
+
+
+def _courant_failures(tvd_set, second_set) -> list[CourantFailure]:
+    out = []
+    for prop, cset, words in (("tvd_courant", tvd_set, "psi leaves the region"),
+                              ("second_order_courant", second_set,
+                               "psi leaves the second-order part")):
+        gaps = complement(cset)
+        if gaps:
+            out.append(CourantFailure(prop, gaps, words))
+    return out
+
+
+# ---- the analysis -------------------------------------------------------------------
+
+def analyse_limiter(name: str, body: sympy.Expr, courant: bool = False) -> LimiterFacts:
+    if courant or C in body.free_symbols:
+        return _analyse_courant_limiter(name, body)
+    from .symbol import limiter_slopes
+
     value, left, right = limiter_slopes(body)
     parts = piecewise.pieces(body)
-    if parts is not None:
-        why = []
-        sweby_fail = _check(parts, _SWEBY)
-        second_fail = _check(parts, _SECOND_ORDER)
-        if second_fail is None and value != 1:
-            second_fail = f"psi(1) = {value}, not 1"
-        symmetric_fail = _symmetric_exact(parts)
-        for fail in (sweby_fail, second_fail, symmetric_fail):
-            if fail:
-                why.append(fail)
-        failures = []
-        if sweby_fail:
-            failures += _failures(parts, _SWEBY, "sweby_tvd")
-        if second_fail:
-            failures += _failures(parts, _SECOND_ORDER, "second_order_region") or [
-                Failure("second_order_region", sympy.FiniteSet(1), second_fail)]
-        if symmetric_fail:
-            failures += _symmetric_failures(parts)
-        return LimiterFacts(
-            name, sympy.sstr(body), value, left, right, sweby_fail is None,
-            second_fail is None, symmetric_fail is None, _sup(parts, False), _sup(parts, True),
-            f"exact: piecewise rational on {len(parts)} pieces, checked piece by piece", tuple(why),
-            tuple(failures))
-    return _sampled(name, body, value, left, right)
+    if parts is None:
+        return _sampled(name, body, value, left, right)
+    failures = _failures(parts, _SWEBY, "sweby_tvd")
+    second = _failures(parts, _SECOND_ORDER, "second_order_region")
+    if value != 1:
+        if second:
+            second = [Failure("second_order_region", second[0].where | sympy.FiniteSet(1),
+                              second[0].detail + f"; psi(1) = {sympy.sstr(value)}, not 1")]
+        else:
+            second = [Failure("second_order_region", sympy.FiniteSet(1),
+                              f"psi(1) = {sympy.sstr(value)}, not 1")]
+    symmetric = _symmetric_failures(parts)
+    try:
+        tvd_set, second_set = courant_sets(body)
+        courant_failures = _courant_failures(tvd_set, second_set)
+    except parametric.NotExact:
+        tvd_set = second_set = None
+        courant_failures = []
+    found = failures + second + symmetric
+    return LimiterFacts(
+        name, sympy.sstr(body), value, left, right, not failures, not second, not symmetric,
+        _sup(parts, False), _sup(parts, True),
+        f"exact: piecewise rational on {len(parts)} pieces, checked piece by piece",
+        why_lines(found, courant_failures), tuple(found), False, tvd_set, second_set,
+        tuple(courant_failures))
 
+
+def _analyse_courant_limiter(name: str, body: sympy.Expr) -> LimiterFacts:
+    """A limiter of (r, c): the region and its second-order part as sets of c in (0, 1]."""
+    from .symbol import limiter_slopes
+
+    value, left, right = limiter_slopes(body)
+    try:
+        tvd_set, second_set = courant_sets(body)
+        symmetric, symmetry_failures = _courant_symmetry(body)
+    except parametric.NotExact:
+        return _sampled_courant(name, body, value, left, right)
+    courant_failures = _courant_failures(tvd_set, second_set) + symmetry_failures
+    return LimiterFacts(
+        name, sympy.sstr(body), value, left, right, covers(tvd_set), covers(second_set),
+        symmetric, None, None,
+        "exact: pieces in r whose ends are rational functions of c, checked as sets of "
+        "0 < c <= 1", why_lines((), courant_failures), (), True, tvd_set, second_set,
+        tuple(courant_failures))
+
+
+def _courant_symmetry(body) -> tuple[bool, list[CourantFailure]]:
+    """psi(r, c)/r == psi(1/r, c) for r > 0 and every 0 < c < 1, band by band."""
+    pic = parametric.picture(body, top=REGION_TOP)
+    failing = []
+    for band in pic.bands:
+        ends = set()
+        for piece in band.pieces:
+            for end in (piece.lo, piece.hi):
+                if end.is_finite and parametric._at(end, band.sample) > 0:
+                    ends |= {end, 1 / end}
+        ends = sorted(ends, key=lambda e: sympy.N(parametric._at(e, band.sample), 30))
+        values = [sympy.Integer(0)] + [parametric._at(e, band.sample) for e in ends] + [sympy.oo]
+        for a, b in zip(values, values[1:]):
+            mid = piecewise.rational_between(a, b)
+            here = _piece_at(band, mid)
+            there = _piece_at(band, 1 / mid)
+            if sympy.cancel(here / R - there.xreplace({R: 1 / R})) != 0:
+                if failing and failing[-1].hi == band.lo:  # neighbouring bands: one range
+                    failing[-1] = Span(failing[-1].lo, band.hi, False, False)
+                else:
+                    failing.append(Span(band.lo, band.hi, False, False))
+                break
+    if not failing:
+        return True, []
+    return False, [CourantFailure("symmetric_courant", tuple(failing),
+                                  "psi(r, c)/r != psi(1/r, c) for some r")]
+
+
+def _piece_at(band, r_value):
+    for piece in band.pieces:
+        lo, hi = parametric._at(piece.lo, band.sample), parametric._at(piece.hi, band.sample)
+        if (lo == -sympy.oo or lo <= r_value) and (hi == sympy.oo or r_value < hi):
+            return piece.expr
+    raise parametric.NotExact
+
+
+def courant_value_at_one(body):
+    """(psi(1, c), left slope, right slope) when the same expressions hold for every
+    0 < c < 1, else (None, None, None)."""
+    try:
+        pic = parametric.picture(body, top=REGION_TOP)
+    except parametric.NotExact:
+        return None, None, None
+    found = set()
+    for band in pic.bands:
+        left = next((p.expr for p in band.pieces if p.hi == 1), None)
+        right = next((p.expr for p in band.pieces if p.lo == 1), None)
+        outcomes = ieee_values(body, {R: sympy.Integer(1)})
+        if left is None or right is None or outcomes is None or len(outcomes) != 1:
+            return None, None, None
+        value = sympy.cancel(piecewise._resolve(next(iter(outcomes)), {C: band.sample}, set()))
+        found.add((value, sympy.cancel(sympy.diff(left, R).subs(R, 1)),
+                   sympy.cancel(sympy.diff(right, R).subs(R, 1))))
+    if len(found) != 1:
+        return None, None, None
+    return next(iter(found))
+
+
+def courant_curvature_at_one(body):
+    """One-sided second derivatives at r = 1 of a limiter of (r, c), when the same for
+    every 0 < c < 1, else (None, None)."""
+    try:
+        pic = parametric.picture(body, top=REGION_TOP)
+    except parametric.NotExact:
+        return None, None
+    found = set()
+    for band in pic.bands:
+        left = next((p.expr for p in band.pieces if p.hi == 1), None)
+        right = next((p.expr for p in band.pieces if p.lo == 1), None)
+        if left is None or right is None:
+            return None, None
+        found.add(tuple(sympy.cancel(sympy.diff(piece, R, 2).subs(R, 1)) for piece in (left, right)))
+    return next(iter(found)) if len(found) == 1 else (None, None)
+
+
+# ---- sampling, where the body is not piecewise rational ---------------------------------
 
 def _sampled(name, body, value, left, right) -> LimiterFacts:
     psi = sympy.lambdify(R, body, modules="numpy")
@@ -221,7 +469,8 @@ def _sampled(name, body, value, left, right) -> LimiterFacts:
         mirrored = numpy.broadcast_to(psi(1 / rp), rp.shape)
         symmetric = bool(numpy.allclose(v[pos] / rp, mirrored, rtol=1e-10, atol=1e-12))
         sup_psi = float(numpy.max(v))
-        sup_ratio = float(numpy.max(v[pos] / rp))
+        nonzero = r != 0
+        sup_ratio = float(numpy.max(v[nonzero] / r[nonzero]))
         outside_sweby = numpy.where(neg, numpy.abs(v) > SAMPLE_SLACK,
                                     (v < -SAMPLE_SLACK) | (v > numpy.minimum(2 * r, 2) + SAMPLE_SLACK))
         low_all = numpy.where(r <= 1, r, 1.0)
@@ -242,7 +491,8 @@ def _sampled(name, body, value, left, right) -> LimiterFacts:
     return LimiterFacts(name, sympy.sstr(body), value, left, right, sweby, second, symmetric,
                         sympy.Float(sup_psi, 8), sympy.Float(sup_ratio, 8),
                         f"sampled: {piecewise.SAMPLE_GRID} (the body is not piecewise rational); "
-                        f"tolerance {SAMPLE_SLACK:g}", (), tuple(failures))
+                        f"tolerance {SAMPLE_SLACK:g}; values are not exact",
+                        why_lines(failures, ()), tuple(failures))
 
 
 def _sampled_runs(r: numpy.ndarray, bad: numpy.ndarray) -> sympy.Set:
@@ -256,3 +506,52 @@ def _sampled_runs(r: numpy.ndarray, bad: numpy.ndarray) -> sympy.Set:
             runs.append(sympy.Interval(sympy.Float(r[start], 6), sympy.Float(r[end], 6)))
             start = None
     return sympy.Union(*runs)
+
+
+COURANT_SAMPLES = 200
+
+
+def _sampled_courant(name, body, value, left, right) -> LimiterFacts:
+    """A limiter of (r, c) outside the exact class: the region tested on a grid of
+    (r, c), c in steps of 1/COURANT_SAMPLES; the sets are numeric, with that tolerance."""
+    psi = sympy.lambdify((R, C), body, modules="numpy")
+    r = piecewise.sample_points()
+    pos = r > 0
+    cs = numpy.arange(1, COURANT_SAMPLES + 1) / COURANT_SAMPLES
+    tvd_ok, second_ok = [], []
+    with numpy.errstate(all="ignore"):
+        for c_value in cs:
+            v = numpy.broadcast_to(psi(r, c_value), r.shape).astype(float)
+            ok = (numpy.all(numpy.abs(v[~pos]) <= SAMPLE_SLACK) and numpy.all(v[pos] >= -SAMPLE_SLACK)
+                  and numpy.all(c_value * v[pos] / r[pos] <= 2 + SAMPLE_SLACK)
+                  and numpy.all((1 - c_value) * v[pos] <= 2 + SAMPLE_SLACK))
+            low, high = numpy.minimum(r[pos], 1), numpy.maximum(r[pos], 1)
+            tvd_ok.append(bool(ok))
+            second_ok.append(bool(ok and numpy.all(v[pos] >= low - SAMPLE_SLACK)
+                                  and numpy.all(v[pos] <= high + SAMPLE_SLACK)))
+    step = 1.0 / COURANT_SAMPLES
+    sets = [_numeric_set(cs, oks, step) for oks in (tvd_ok, second_ok)]
+    courant_failures = _courant_failures(*sets)
+    return LimiterFacts(name, sympy.sstr(body), value, left, right, covers(sets[0]),
+                        covers(sets[1]), None, None, None,
+                        f"sampled: {piecewise.SAMPLE_GRID}, c in steps of {step:g} on (0, 1] "
+                        "(the body is not piecewise rational); values are not exact",
+                        why_lines((), courant_failures), (), True, *sets,
+                        tuple(courant_failures))
+
+
+def _numeric_set(cs, oks, step) -> CourantSet:
+    parts, start = [], None
+    for c_value, ok in zip(cs, oks):
+        if ok and start is None:
+            start = 0 if c_value == cs[0] else c_value
+        if not ok and start is not None:
+            parts.append(Span(_numeric(start), sympy.Float(c_value - step, 6)))
+            start = None
+    if start is not None:
+        parts.append(Span(_numeric(start), sympy.Integer(1)))
+    return CourantSet(tuple(parts), f"sampled: c in steps of {step:g}", step)
+
+
+def _numeric(value):
+    return sympy.Integer(0) if value == 0 else sympy.Float(value, 6)

@@ -12,7 +12,7 @@ from functools import lru_cache
 import numpy
 import sympy
 
-from ..symbols import R, Ratio
+from ..symbols import C, R, Ratio
 
 SAMPLE_GRID = "r in [-4, 0] step 1/200, (0, 20] step 1/2000, and 10^k for k up to 6"
 
@@ -34,35 +34,70 @@ class _NotRational(Exception):
     pass
 
 
-def _resolve(expr: sympy.Expr, at: sympy.Rational, switches: set) -> sympy.Expr:
-    """The rational expression that equals expr near r = at, choosing every max/min/abs
-    branch by its exact value there; the polynomials whose roots may switch a branch
-    are collected in switches."""
-    if expr == R or expr.is_Number:
+class _Pole(Exception):
+    """A sample point fell on a zero of a denominator; its polynomial is a new switch."""
+
+
+def _at(expr: sympy.Expr, point) -> sympy.Expr:
+    """expr at a point: a number for r, or a {symbol: value} map (r and c)."""
+    return expr.xreplace(point) if isinstance(point, dict) else expr.subs(R, point)
+
+
+_RATIONAL_FUNCTIONS = sympy.QQ.frac_field(R, C)
+
+
+@lru_cache(maxsize=8192)
+def fraction_of(expr: sympy.Expr) -> tuple[sympy.Expr, sympy.Expr]:
+    """(numerator, denominator) of a rational function of r and c (cached: the same
+    differences recur across pieces and bands)."""
+    try:
+        element = _RATIONAL_FUNCTIONS.from_sympy(expr)
+    except (sympy.CoercionFailed, sympy.PolynomialError, TypeError, ValueError):
+        return sympy.fraction(sympy.together(expr))
+    return element.numer.as_expr(), element.denom.as_expr()
+
+
+def _switch(expr: sympy.Expr, switches: set) -> None:
+    """Both numerator and denominator: a quotient changes sign at zeros of either."""
+    numerator, denominator = fraction_of(expr)
+    switches.add(numerator)
+    switches.add(denominator)
+
+
+def _resolve(expr: sympy.Expr, at, switches: set) -> sympy.Expr:
+    """The rational expression that equals expr near the point `at` (a value of r, or a
+    map {R: r0, C: c0}), choosing every max/min/abs branch by its exact value there;
+    the polynomials whose roots may switch a branch are collected in switches."""
+    if expr == R or expr.is_Number or expr.is_Symbol:
         return expr
     if isinstance(expr, (sympy.Min, sympy.Max)):
         args = [_resolve(a, at, switches) for a in expr.args]
         for i, a in enumerate(args):
             for b in args[i + 1:]:
-                switches.add(sympy.numer(sympy.together(a - b)))
-        values = [a.subs(R, at) for a in args]
+                _switch(a - b, switches)
+        values = [_at(a, at) for a in args]
         pick = max if isinstance(expr, sympy.Max) else min
         return args[values.index(pick(values))]
     if isinstance(expr, (sympy.Abs, sympy.sign)):
         inner = _resolve(expr.args[0], at, switches)
-        switches.update(sympy.fraction(sympy.together(inner)))
-        value = inner.subs(R, at)
+        _switch(inner, switches)
+        value = _at(inner, at)
         if isinstance(expr, sympy.Abs):
             return inner if value >= 0 else -inner
         return sympy.sign(value)
     if isinstance(expr, Ratio):
         top, bottom = (_resolve(a, at, switches) for a in expr.args)
-        switches.add(sympy.numer(sympy.together(bottom)))
-        return sympy.Integer(0) if bottom.subs(R, at) == 0 else top / bottom
+        _switch(bottom, switches)
+        return sympy.Integer(0) if _at(bottom, at) == 0 else top / bottom
     if isinstance(expr, sympy.Pow):
         if not expr.exp.is_Integer:
             raise _NotRational
-        return _resolve(expr.base, at, switches) ** expr.exp
+        base = _resolve(expr.base, at, switches)
+        if expr.exp < 0:
+            _switch(base, switches)  # a pole is a breakpoint
+            if _at(base, at) == 0:
+                raise _Pole
+        return base ** expr.exp
     if isinstance(expr, (sympy.Add, sympy.Mul)):
         return expr.func(*[_resolve(a, at, switches) for a in expr.args])
     raise _NotRational
@@ -78,14 +113,17 @@ def _pieces_by_breakpoints(body: sympy.Expr):
             points = [-sympy.oo] + cuts + [sympy.oo]
             switches: set = set()
             parts = []
-            for a, b in zip(points, points[1:]):
-                here = rational_between(a, b)
-                parts.append((sympy.cancel(_resolve(body, here, switches)), a, b))
+            try:
+                for a, b in zip(points, points[1:]):
+                    here = rational_between(a, b)
+                    parts.append((sympy.cancel(_resolve(body, here, switches)), a, b))
+            except _Pole:
+                parts = None  # resample with the pole among the cuts
             new = set(cuts)
             for poly in switches:
                 if poly.free_symbols:
                     new.update(_real_roots(poly))
-            if len(new) == len(cuts):
+            if len(new) == len(cuts) and parts is not None:
                 return _as_intervals(parts)
             cuts = sorted(new, key=lambda v: float(v))
     except (_NotRational, sympy.PolynomialError, TypeError):

@@ -60,9 +60,11 @@ def analyse_stability(scheme: LinearScheme) -> Stability:
     if scheme.time != "euler":
         semi = sympy.sstr(sum((v * z ** m for m, v in sorted(scheme.semi_discrete.items())),
                               sympy.Integer(0)))
+    stable = stable_set(scheme)
+    if scheme.valid_to is not None:
+        stable = intervals.restrict_to(stable, scheme.valid_to)
     return Stability(scheme.label, sympy.sstr(scheme.amplification),
-                     _abs_squared_text(scheme.abs_squared),
-                     semi, stable_set(scheme))
+                     _abs_squared_text(scheme.abs_squared), semi, stable)
 
 
 def _abs_squared_text(value: sympy.Expr) -> str:
@@ -71,6 +73,68 @@ def _abs_squared_text(value: sympy.Expr) -> str:
     if len(sympy.Add.make_args(excess)) <= 24:
         return sympy.sstr(sympy.factor(excess) + 1)
     return sympy.sstr(value)
+
+
+class LongWaves:
+    """|G|^2 - 1 = p_1(c) s + p_2(c) s^2 + ... near theta = 0 (s = sin^2(theta/2)): the
+    sign of the lowest coefficient not zero at c decides growth of long waves, however
+    small it is, so it is read from these exact coefficients and never from a theta grid.
+    """
+
+    DIGITS = 60
+
+    def __init__(self, scheme: LinearScheme):
+        excess = sympy.expand(scheme.abs_squared - 1)
+        try:
+            poly = sympy.Poly(excess, S)
+            self.coefficients = [sympy.expand(poly.coeff_monomial(S ** k))
+                                 for k in range(1, poly.degree() + 1)]
+        except sympy.PolynomialError:
+            self.coefficients = []
+        self.coefficients = [v for v in self.coefficients]
+        self._functions = [sympy.lambdify(C, v, modules="mpmath") for v in self.coefficients]
+
+    def sign(self, c_value) -> int:
+        """+1: long waves grow at c; -1: they decay; 0: |G| = 1 to every order kept."""
+        import mpmath
+
+        exact = isinstance(c_value, sympy.Basic)
+        with mpmath.workdps(self.DIGITS):
+            for expr, f in zip(self.coefficients, self._functions):
+                if exact and c_value.is_Rational:
+                    value = expr.subs(C, c_value)
+                    if value.is_number and value.is_comparable:
+                        if value == 0:
+                            continue
+                        return 1 if value > 0 else -1
+                value = f(mpmath.mpf(c_value) if not exact else mpmath.mpf(sympy.N(c_value, 70)))
+                if abs(value) <= mpmath.mpf(10) ** (-(self.DIGITS - 15)):
+                    continue
+                return 1 if value > 0 else -1
+        return 0
+
+    def unstable(self, c_value) -> bool:
+        return self.sign(c_value) > 0
+
+    def edges(self) -> list[sympy.Expr]:
+        """Exact positive roots in c of the lowest nonzero coefficients (where the
+        long-wave verdict can change)."""
+        out = []
+        for expr in self.coefficients:
+            if expr == 0:
+                continue
+            numerator = sympy.numer(sympy.together(expr))
+            try:
+                out += intervals.positive_roots(numerator, C)
+            except (sympy.PolynomialError, NotImplementedError, ValueError):
+                # algebraic coefficients: sympy's exact roots where it finds them all
+                try:
+                    found = sympy.roots(sympy.Poly(numerator, C))
+                except (sympy.PolynomialError, NotImplementedError, ValueError):
+                    found = {}
+                out += [r for r in found if r.is_real and r.is_positive]
+            break
+        return out
 
 
 def stable_set(scheme: LinearScheme) -> CourantSet:
@@ -82,7 +146,7 @@ def stable_set(scheme: LinearScheme) -> CourantSet:
         exact = _exact_set(excess, scheme)
     except (sympy.PolynomialError, NotImplementedError, ValueError, TypeError):
         exact = None  # sympy could not treat these coefficients exactly; scan instead
-    if exact is not None and _numeric_agrees(scheme, exact):
+    if exact is not None and _numeric_agrees(scheme, exact, LongWaves(scheme)):
         return exact
     return numeric_set(scheme)
 
@@ -134,11 +198,12 @@ def _exact_set(excess: sympy.Expr, scheme: LinearScheme) -> CourantSet | None:
                                    "s = sin^2(theta/2))")
 
 
-def _numeric_agrees(scheme: LinearScheme, exact: CourantSet) -> bool:
+def _numeric_agrees(scheme: LinearScheme, exact: CourantSet, long_waves=None) -> bool:
     """A guard on the exact path: spot-check its verdict at 48 Courant numbers.
 
     Inside the set |G| must not exceed 1 on a theta grid; outside it (away from
-    its ends) some theta on a fine grid must show growth.
+    its ends) some theta on a fine grid must show growth, or long waves must grow
+    (exact lowest coefficients: a growth of 1e-13 near theta = 0 is still growth).
     """
     g_of = scheme.numeric()
     main = exact.main
@@ -154,8 +219,10 @@ def _numeric_agrees(scheme: LinearScheme, exact: CourantSet) -> bool:
             return False
     if outside:
         growth = numpy.abs(g_of(outside, numpy.linspace(0.0, numpy.pi, 16001))) ** 2 - 1
-        if numpy.min(numpy.max(growth, axis=1)) <= GROWTH_SLACK:
-            return False
+        seen = numpy.max(growth, axis=1) > GROWTH_SLACK
+        for c_value, grows in zip(outside, seen):
+            if not grows and not (long_waves is not None and long_waves.unstable(c_value)):
+                return False
     return True
 
 
@@ -192,14 +259,16 @@ def numeric_set(scheme: LinearScheme, g_of=None) -> CourantSet:
     g_of = g_of or scheme.numeric()
     coarse = numpy.linspace(0.0, numpy.pi, 2001)
     fine = numpy.linspace(0.0, numpy.pi, 8001)
+    long_waves = LongWaves(scheme)
 
     def stable(c_value: float, grid=coarse) -> bool:
-        return max_growth(g_of, c_value, grid) <= GROWTH_SLACK
+        return max_growth(g_of, c_value, grid) <= GROWTH_SLACK and not long_waves.unstable(c_value)
 
     cs = numpy.arange(1, int(NUMERIC_C_RANGE / NUMERIC_C_STEP) + 1) * NUMERIC_C_STEP
     with numpy.errstate(all="ignore"):
         growth = numpy.abs(g_of(cs, coarse)) ** 2 - 1
     verdicts = numpy.max(growth, axis=1) <= GROWTH_SLACK
+    verdicts = numpy.array([bool(ok) and not long_waves.unstable(c) for c, ok in zip(cs, verdicts)])
     parts: list[Span] = []
     start = None
     for i, (c_value, ok) in enumerate(zip(cs, verdicts)):
@@ -211,11 +280,35 @@ def numeric_set(scheme: LinearScheme, g_of=None) -> CourantSet:
             start = None
     if start is not None:
         parts.append(Span(_rational(start), sympy.oo, True, False))
+    parts = _snap(parts, long_waves)
     return CourantSet(tuple(parts),
                       f"numeric: theta grid of 2001 points on [0, pi] (8001 while bisecting), "
                       f"c scanned in steps of {NUMERIC_C_STEP:g} up to {NUMERIC_C_RANGE:g} "
-                      f"(bands narrower than the step may be missed), boundaries bisected",
+                      f"(bands narrower than the step may be missed), boundaries bisected; "
+                      f"long waves (theta -> 0) from the exact lowest coefficients of "
+                      f"|G|^2 - 1 in s, and an edge they decide is their exact root",
                       NUMERIC_TOLERANCE)
+
+
+def _snap(parts: list, long_waves: LongWaves) -> list:
+    """Replace a bisected edge by the exact root of the long-wave coefficient within the
+    tolerance of it, where the long-wave verdict changes there."""
+    roots = long_waves.edges()
+    if not roots:
+        return parts
+
+    def snapped(value):
+        if value == 0 or value == sympy.oo:
+            return value
+        x = float(value)
+        for root in roots:
+            r = float(root)
+            if abs(r - x) <= 2 * NUMERIC_TOLERANCE and \
+                    long_waves.sign(r - NUMERIC_TOLERANCE) != long_waves.sign(r + NUMERIC_TOLERANCE):
+                return root
+        return value
+
+    return [Span(snapped(p.lo), snapped(p.hi), p.lo_closed, p.hi_closed) for p in parts]
 
 
 def _bisect(stable, lo: float, hi: float, grid, rising: bool) -> float:

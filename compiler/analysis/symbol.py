@@ -33,6 +33,7 @@ class LinearScheme:
     label: str                                   # what it stands for, for reports
     time: str
     face_coefficients: tuple[tuple[int, sympy.Expr], ...]
+    valid_to: sympy.Expr | None = None           # stands for the scheme only for c <= this
 
     @cached_property
     def face(self) -> Laurent:
@@ -325,6 +326,10 @@ def _linearise_limiters(scheme, g: sympy.Expr, calls) -> Linearisation:
         slopes[call] = limiter_slopes(body)
     sides = [("right", 1), ("left", 0)]
     seen = set()
+    # a limiter of (r, c) is linearised for 0 < c <= 1 (limiters.REGION_TOP)
+    courant_limited = any(scheme.limiter(type(call).__name__).courant for call in calls)
+    valid_to = sympy.Integer(1) if courant_limited else None
+    courant_note = ", for 0 < c <= 1" if courant_limited else ""
     for side_name, index in sides:
         subs = {}
         ok = True
@@ -348,7 +353,7 @@ def _linearise_limiters(scheme, g: sympy.Expr, calls) -> Linearisation:
         seen.add(key)
         label = (f"linearised at r = 1 ({side_name} slope)" if any(
             left != right for _, left, right in slopes.values()) else "linearised at r = 1")
-        smooth.append(LinearScheme(label, scheme.time, coefficients))
+        smooth.append(LinearScheme(label + courant_note, scheme.time, coefficients, valid_to))
     for label, pick in (("limiter frozen at 0", lambda v: sympy.Integer(0)),
                         ("limiter frozen at psi(1)", lambda v: v)):
         subs = {call: pick(slopes[call][0]) for call in calls}
@@ -357,7 +362,8 @@ def _linearise_limiters(scheme, g: sympy.Expr, calls) -> Linearisation:
         frozen = g.xreplace(subs).replace(Ratio, lambda a, b: sympy.Integer(1))
         coefficients = linear_coefficients(frozen)
         if coefficients is not None:
-            bounding.append(LinearScheme(label, scheme.time, coefficients))
+            bounding.append(LinearScheme(label + courant_note, scheme.time, coefficients,
+                                         valid_to))
     note = "; ".join(notes) if notes else (
         "limiters linearised at r = 1 (value and slope) for smooth monotone data; "
         "bounding schemes with each limiter frozen at 0 and at psi(1)")
@@ -406,7 +412,12 @@ def _ratios_as_quotients(expr: sympy.Expr) -> sympy.Expr | None:
 
 
 def limiter_slopes(body: sympy.Expr):
-    """(psi(1), left slope, right slope) at r = 1, exact; None where undefined."""
+    """(psi(1), left slope, right slope) at r = 1, exact; None where undefined.
+
+    For a limiter of (r, c), expressions in c that hold for every 0 < c < 1."""
+    if C in body.free_symbols:
+        from .limiters import courant_value_at_one
+        return courant_value_at_one(body)
     value = body.subs(R, 1)
     value = sympy.simplify(value) if value.is_number else None
     parts = piecewise.pieces(body)
@@ -426,6 +437,9 @@ def limiter_slopes(body: sympy.Expr):
 
 def limiter_curvature(body: sympy.Expr) -> tuple[sympy.Expr | None, sympy.Expr | None]:
     """One-sided second derivatives at r = 1 (None where unknown)."""
+    if C in body.free_symbols:
+        from .limiters import courant_curvature_at_one
+        return courant_curvature_at_one(body)
     parts = piecewise.pieces(body)
     if parts is None:
         return None, None

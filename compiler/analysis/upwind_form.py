@@ -21,9 +21,18 @@ PROPERTY_SAMPLES = 24
 
 @dataclass(frozen=True)
 class UpwindForm:
-    k: sympy.Expr        # a function of c only
-    phi: sympy.Expr      # a function of r only
+    k: sympy.Expr        # a function of c only (1 when B does not separate)
+    phi: sympy.Expr      # a function of r only, or of r and c when B does not separate
     how: str             # how the form was established, for reports
+
+    @property
+    def coefficient(self) -> sympy.Expr:
+        """B(r, c) = k(c) phi(r) in g = q[0] + B (q[1] - q[0])."""
+        return self.k * self.phi
+
+    @property
+    def separable(self) -> bool:
+        return C not in self.phi.free_symbols
 
 
 def _ratios_as_quotients(expr):
@@ -44,19 +53,24 @@ def upwind_form(scheme) -> UpwindForm | None:
             return None
         how = (f"phi read off at q = (-r, 0, 1); shift, positive scaling and oddness checked "
                f"exactly at {PROPERTY_SAMPLES} random rational states")
-    split = _separate(b)
-    if split is None:
+    if not b.free_symbols <= {R, C}:
         return None
+    split = _separate(b)
+    if split is None:  # B(r, c) does not separate: a limiter of (r, c)
+        return UpwindForm(sympy.Integer(1), b, how)
     return UpwindForm(split[0], split[1], how)
 
 
 def _separate(b: sympy.Expr):
     if C not in b.free_symbols:
         return sympy.Integer(1), b
-    parts = sympy.separatevars(sympy.factor(b), [R, C], dict=True, force=True)
+    try:
+        parts = sympy.separatevars(sympy.factor(b), [R, C], dict=True, force=True)
+    except (sympy.PolynomialError, TypeError):
+        return None
     if not parts:
         return None
-    return sympy.simplify(parts["coeff"] * parts.get(C, 1)), parts.get(R, sympy.Integer(1))
+    return sympy.factor(parts["coeff"] * parts.get(C, 1)), parts.get(R, sympy.Integer(1))
 
 
 def _is_upwind_biased(g: sympy.Expr) -> bool:

@@ -73,8 +73,9 @@ class KernelPrinter(C99CodePrinter):
 
     def _print_Function(self, expr):
         name = type(expr).__name__
-        if name in self.limiter_names:
-            return f"{self.plan.name}_limiter_{name}({self._print(expr.args[0])})"
+        if name in self.limiter_names:  # psi(r), or psi(r, c) with the face's c
+            args = ", ".join(self._print(a) for a in expr.args)
+            return f"{self.plan.name}_limiter_{name}({args})"
         return super()._print_Function(expr)
 
     def _print_Min(self, expr):
@@ -265,7 +266,10 @@ def c_context(scheme: Scheme, precision: str = "double", verdicts: bool = True) 
     limiters = []
     for lim in plan.limiters:
         statements, result = print_program(printer, lim.program)
-        limiters.append({"name": lim.name, "statements": statements, "result": result})
+        arguments = ("r", "c") if scheme.limiter(lim.name).courant else ("r",)
+        limiters.append({"name": lim.name, "statements": statements, "result": result,
+                         "arguments": ", ".join(arguments),
+                         "parameters": ", ".join(f"{printer.ctype} {a}" for a in arguments)})
     stages = []
     for s, update in enumerate(plan.stage_updates):
         code = stage_expression(printer, update)

@@ -9,7 +9,7 @@ domain), and lets a block whose faces share one velocity sign read every
 """
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import sympy
 from sympy.printing.numpy import NumPyPrinter
@@ -68,8 +68,8 @@ class NumpyKernelPrinter(NumPyPrinter):
 
     def _print_Function(self, expr):
         name = type(expr).__name__
-        if name in self._limiter_names:
-            return f"{limiter_name(name)}({self._print(expr.args[0])})"
+        if name in self._limiter_names:  # psi(r), or psi(r, c) with the face's c
+            return f"{limiter_name(name)}({', '.join(self._print(a) for a in expr.args)})"
         return super()._print_Function(expr)
 
     def _print_Min(self, expr):
@@ -128,6 +128,8 @@ class Function:
     doc: str
     assignments: tuple[tuple[str, str], ...]
     result: str
+    arguments: str = "r"   # limiters: "r", or "r, c" for a limiter of the Courant number
+    quiet: bool = False    # a limiter with a division: numpy's divide warning silenced
 
 
 @dataclass(frozen=True)
@@ -179,10 +181,10 @@ class NumpyModule:
 
 
 def print_function(printer: NumpyKernelPrinter, name: str, doc: str,
-                   program: FaceProgram) -> Function:
+                   program: FaceProgram, arguments: str = "r") -> Function:
     assignments = tuple((printer.doprint(sym), printer.doprint(value))
                         for sym, value in program.temporaries)
-    return Function(name, doc, assignments, printer.doprint(program.result))
+    return Function(name, doc, assignments, printer.doprint(program.result), arguments)
 
 
 def stage_expression(printer: NumpyKernelPrinter, update: StageUpdate) -> Stage:
@@ -237,6 +239,14 @@ def check_precision(precision: str) -> None:
                         file="--precision")
 
 
+def _divides(body: sympy.Expr) -> bool:
+    """A limiter with a division: the front end let it through only where min/max absorb
+    the infinity of a zero divisor (2/r at r = 0, 2/(1 - c) at c = 1), so numpy's
+    divide-by-zero warning there is noise."""
+    return any(isinstance(node, sympy.Pow) and node.exp.is_negative
+               for node in sympy.preorder_traversal(body))
+
+
 def numpy_module(scheme: Scheme, precision: str = "double", banner=None) -> NumpyModule:
     """Lower a scheme (through the shared kernel plan) to the template's data."""
     check_precision(precision)
@@ -247,8 +257,11 @@ def numpy_module(scheme: Scheme, precision: str = "double", banner=None) -> Nump
     if plan.low_flux is not None:
         faces.append(print_function(printer, "low_face_values",
                                     "g of the monotone low-order flux", plan.low_flux))
-    limiters = tuple(print_function(printer, limiter_name(lim.name),
-                                    f"The limiter {lim.name}(r).", lim.program)
+    arguments = {lim.name: "r, c" if lim.courant else "r" for lim in scheme.limiters}
+    limiters = tuple(replace(print_function(printer, limiter_name(lim.name),
+                                            f"The limiter {lim.name}({arguments[lim.name]}).",
+                                            lim.program, arguments[lim.name]),
+                             quiet=_divides(scheme.limiter(lim.name).body))
                      for lim in plan.limiters)
     offsets = tuple(Offset(q_name(k), _shift(k - 1), _shift(-k)) for k in plan.offsets)
     programs = [plan.flux] + ([plan.low_flux] if plan.low_flux is not None else [])

@@ -23,7 +23,7 @@ values, u_face[2 + i] is face i), and more ghost cells (`kernel_halo`).
 """
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import sympy
 
@@ -170,9 +170,9 @@ def fused_slope(psi: sympy.Expr, a: sympy.Expr, b: sympy.Expr) -> sympy.Expr | N
 def fuse_limited_slopes(scheme: Scheme, expr: sympy.Expr) -> sympy.Expr:
     """expr with every `psi(ratio(a, b)) * b` that fuses exactly in one division."""
     for call in limiter_calls(expr, scheme.limiter_names):
-        (argument,) = call.args
-        if not isinstance(argument, Ratio):
-            continue
+        argument = call.args[0]
+        if not isinstance(argument, Ratio) or scheme.limiter(type(call).__name__).courant:
+            continue  # limiters of (r, c) are called as they are
         a, b = argument.args
         fused = fused_slope(scheme.bound(scheme.limiter(type(call).__name__).body), a, b)
         if fused is None:
@@ -201,6 +201,9 @@ def plan_kernel(scheme: Scheme) -> KernelPlan:
                      for name in limiters_used(scheme, face))
     low = face_program(scheme.low_face) if scheme.low_face is not None else None
     program = face_program(face)
+    if any(c_in_denominator(scheme.limiter(lim.name).body) for lim in limiters):
+        # a limiter of (r, c) dividing by c: evaluate it with c = 1 where u == 0, too
+        program = replace(program, guard_c=True)
     if R in program.result.free_symbols:
         raise AssertionError("limiter argument symbol leaked into a face expression")
     return KernelPlan(

@@ -7,7 +7,10 @@ from __future__ import annotations
 
 import json
 import math
+from fractions import Fraction
 from pathlib import Path
+
+import sympy
 
 from fluxloom.compiler import LoomError
 from fluxloom.compiler.analysis import analyse
@@ -60,11 +63,11 @@ def parse_budget(text: str) -> float:
 
 
 def run(args) -> int:
-    courant = parse_courant(args.courant)
+    parse_courant(args.courant)  # validates; the analysis keeps the Courant number exact
     seconds = parse_budget(args.budget)
     dims, split = parse_dims_split(args.dims, args.split)
     scheme = scheme_from_args(args)
-    analysis = analyse(scheme, courant, seconds)
+    analysis = analyse(scheme, exact_courant(args.courant), seconds)
     doc = analysis.to_json()
     if dims > 1:
         from fluxloom.compiler.analysis.splitting import analyse_splitting, with_split
@@ -79,6 +82,13 @@ def run(args) -> int:
     else:
         print(render(doc))
     return 0
+
+
+def exact_courant(text: str) -> sympy.Rational:
+    """'3/5' and '0.6' as the exact 3/5 (the text already passed parse_courant)."""
+    top, _, bottom = text.strip().partition("/")
+    value = Fraction(top.strip()) / (Fraction(bottom.strip()) if bottom else 1)
+    return sympy.Rational(value.numerator, value.denominator)
 
 
 def write_figures(analysis, directory: Path, force: bool) -> tuple[list[Path], list[str]]:
@@ -151,7 +161,14 @@ def render(doc: dict) -> str:
 
     st = doc["stability"]
     out.append("")
-    out.append(f"stability     {stability_text(claims.stability)}")
+    out.append(f"stability     {stability_text(claims.stability)}"
+               + ("; no claim elsewhere" if st["outside"] == "no claim" and st["kind"] else ""))
+    out.append(f"  basis: {st['basis']}")
+    at = st["at_courant"]
+    out.append(f"  at c = {at['courant_exact']}: "
+               + {True: "stable", False: "unstable", None: "no claim"}[at["stable"]])
+    if st.get("stand_ins"):
+        out.append(f"  stand-ins: all stable for {st['stand_ins']['set']}")
     for standin in claims.stability.standins:
         if len(claims.stability.standins) > 1:
             out.append(f"  {standin.label}: {stability_text_of(standin)}")
@@ -168,7 +185,8 @@ def render(doc: dict) -> str:
         limit = value_text(tm["imaginary_axis_limit"], tm["imaginary_axis_limit_exact"])
         out.append(f"  R(z) = {tm['stability_polynomial']}; imaginary-axis limit {limit}; "
                    f"SSP coefficient {_ssp(tm)}")
-    out.append(f"  method: {st['method']}" + (f", tolerance {st['tolerance']:g}" if st["tolerance"] else ""))
+    if st["method"]:
+        out.append(f"  method: {st['method']}" + (f", tolerance {st['tolerance']:g}" if st["tolerance"] else ""))
 
     out.append("")
     out.append(f"conservation  {yes_no(claims.conservative)}: {claims.conservation_reason}")
@@ -192,13 +210,19 @@ def render(doc: dict) -> str:
             slope = lim["slope_at_1"]
             slopes = (slope["left_exact"] if slope["left_exact"] == slope["right_exact"]
                       else f"{slope['left_exact']} (left), {slope['right_exact']} (right)")
-            out.append(f"  {name}(r) = {lim['psi']}")
+            out.append(f"  {name}({', '.join(lim['arguments'])}) = {lim['psi']}")
             out.append(f"    psi(1) = {lim['psi_at_1_exact']}, slope at 1 = {slopes}, "
-                       f"max psi = {lim['sup_psi_exact']}")
+                       f"max psi = {lim['sup_psi_exact'] or 'depends on c'}")
             facts = next(f for f in claims.limiters if f.name == name)
             out.append(f"    {limiter_text(facts)}")
+            if lim["tvd_courant"]["set"] is not None:
+                out.append(f"    in the Courant-dependent TVD region for "
+                           f"{lim['tvd_courant']['set']}; its second-order part for "
+                           f"{lim['second_order_courant']['set']}")
             for failure in facts.failures:
                 out.append(f"    {failure_text(failure)}")
+            for failure in lim["courant_failures"]:
+                out.append(f"    {failure['text']}")
             out.append(f"    method: {lim['method']}")
 
     tvd = doc["tvd"]
@@ -222,7 +246,8 @@ def render(doc: dict) -> str:
     disp = doc.get("dispersion")
     if disp:
         out.append("")
-        where = "" if disp["stable_at_courant"] else ", outside the stable interval"
+        where = {True: "", False: ", outside the stable interval",
+                 None: ", where no stability is claimed"}[disp["stable_at_courant"]]
         out.append(f"dispersion    at c = {disp['courant']:g} ({disp['label']}{where})")
         out.append("  cells/wave   |G|/step   phase err/step   rel. speed   |G|/wavelength   phase err/wavelength")
         for r in disp["rows"]:
@@ -259,4 +284,4 @@ def stability_text_of(standin) -> str:
     """One linear stand-in's stability, worded like the scheme's."""
     from fluxloom.compiler.analysis.claims import Stability
 
-    return stability_text(Stability(standin.kind, standin.stable, (), None, None, ""))
+    return stability_text(Stability(standin.kind, standin.stable, (), None, None, "", "unstable"))
