@@ -46,6 +46,13 @@ class Profile:
         # true averages lie in [low, high]; clipping removes only round-off (1 + 1e-15)
         return np.clip(np.diff(values) * n, self.low, self.high)
 
+    def average_over(self, edges: np.ndarray, shift: float = 0.0) -> np.ndarray:
+        """Averages over the cells [edges[k], edges[k + 1]] of the profile carried `shift` to
+        the right (cells of any widths: non-uniform grids)."""
+        edges = np.asarray(edges, dtype=float)
+        values = self._periodic_antiderivative(edges - shift)
+        return np.clip(np.diff(values) / np.diff(edges), self.low, self.high)
+
     def scaled(self, low: float, high: float) -> "Profile":
         """The same shape mapped affinely onto [low, high] (for schemes clamped to a range)."""
         span = self.high - self.low

@@ -159,6 +159,7 @@ class Order:
     overall: int | None           # at a fixed Courant number
     at_courant: int | None        # at the document's Courant number
     note: str
+    variable_coefficients: int | None = None   # split schemes (--dims 2, 3) only
 
 
 @dataclass(frozen=True)
@@ -263,6 +264,7 @@ class Claims:
     bounds: Bounds | None
     limiters: tuple[Limiter, ...]
     undecided: tuple[str, ...]
+    split: "Split | None" = None  # only in documents of a split scheme (check --dims 2, 3)
 
     @property
     def clip(self) -> tuple[float, float] | None:
@@ -286,9 +288,10 @@ def _int_or_none(d: dict, key: str, path: str) -> int | None:
 
 def _order(doc: dict) -> Order:
     d = _get(doc, "order", dict, "")
+    variable = _int_or_none(d, "variable_coefficients", "order") if "split" in doc else None
     return Order(_int_or_none(d, "space", "order"), _int_or_none(d, "time", "order"),
                  _int_or_none(d, "overall", "order"), _int_or_none(d, "at_courant", "order"),
-                 _get(d, "note", str, "order"))
+                 _get(d, "note", str, "order"), variable)
 
 
 def _stability(doc: dict) -> Stability:
@@ -404,4 +407,94 @@ def read_claims(doc: dict) -> Claims:
         bounds=bounds,
         limiters=_limiters(doc),
         undecided=tuple(_get(doc, "undecided", list, "")),
+        split=_split(doc) if "split" in doc else None,
     )
+
+
+# ---- split schemes (check --dims 2 or 3) ------------------------------------------------
+
+SPLIT_KINDS = (None, "unconditional", "conditional", "unstable")
+
+
+@dataclass(frozen=True)
+class SplitDirection:
+    """One axis of a split scheme: where its Courant number |u| dt/dx keeps every sweep stable."""
+
+    axis: int
+    name: str                     # x, y, z
+    fraction: float               # each sweep along this axis takes fraction * dt
+    fraction_exact: str
+    kind: str | None
+    stable: Courants
+
+
+@dataclass(frozen=True)
+class Split:
+    dims: int
+    method: str                   # lie | alternating | strang
+    description: str
+    period: int                   # steps per period of the sweep sequence
+    sweeps: tuple[tuple[tuple[int, float], ...], ...]   # per step: (axis, fraction), in order
+    kind: str | None              # stability of the split scheme (None: undecided)
+    directions: tuple[SplitDirection, ...]
+    stability_method: str
+    tolerance: float | None
+    order_overall: int | None     # constant coefficients
+    order_variable: int | None    # variable coefficients
+    order_one_d_variable: int | None
+    splitting_order: int | None
+    order_note: str
+    error_text: str               # "dt^2 (-1/2 [A_x, A_y])"
+    error_statement: str
+    operators: str
+    constant_field: str
+
+    @property
+    def decided(self) -> bool:
+        return self.kind is not None
+
+    def stable_at(self, courants) -> bool | None:
+        """Claimed stable (True) or not (False) at per-axis Courant numbers; None: no claim."""
+        if not self.decided:
+            return None
+        return all(d.stable.contains(c) for d, c in zip(self.directions, courants))
+
+
+def _split(doc: dict) -> Split:
+    d = _get(doc, "split", dict, "")
+    st = _get(d, "stability", dict, "split")
+    kind = _get(st, "kind", MAYBE_TEXT, "split.stability")
+    if kind not in SPLIT_KINDS:
+        raise DocumentError(f"analysis document: unknown split stability kind '{kind}'")
+    tolerance = _get(st, "tolerance", MAYBE_NUMBER, "split.stability")
+    directions = []
+    for i, item in enumerate(_get(st, "directions", list, "split.stability")):
+        path = f"split.stability.directions[{i}]"
+        dkind = _get(item, "kind", MAYBE_TEXT, path)
+        directions.append(SplitDirection(
+            _get(item, "axis", int, path), _get(item, "name", str, path),
+            float(_get(item, "fraction", NUMBER, path)), _get(item, "fraction_exact", str, path),
+            dkind, _courants(item, path, main=dkind in ("unconditional", "conditional"),
+                             tolerance=tolerance)))
+    sweeps = []
+    for i, step in enumerate(_get(d, "sweeps", list, "split")):
+        sweeps.append(tuple((_get(s, "axis", int, f"split.sweeps[{i}]"),
+                             float(_get(s, "fraction", NUMBER, f"split.sweeps[{i}]")))
+                            for s in step))
+    order = _get(d, "order", dict, "split")
+    error = _get(d, "splitting_error", dict, "split")
+    return Split(
+        dims=_get(d, "dims", int, "split"), method=_get(d, "method", str, "split"),
+        description=_get(d, "description", str, "split"),
+        period=_get(d, "period_steps", int, "split"), sweeps=tuple(sweeps), kind=kind,
+        directions=tuple(directions), stability_method=_get(st, "method", str, "split.stability"),
+        tolerance=tolerance,
+        order_overall=_int_or_none(order, "overall", "split.order"),
+        order_variable=_int_or_none(order, "variable_coefficients", "split.order"),
+        order_one_d_variable=_int_or_none(order, "one_d_variable_coefficients", "split.order"),
+        splitting_order=_int_or_none(order, "splitting", "split.order"),
+        order_note=_get(order, "note", str, "split.order"),
+        error_text=_get(error, "text", str, "split.splitting_error"),
+        error_statement=_get(error, "statement", str, "split.splitting_error"),
+        operators=_get(error, "operators", str, "split.splitting_error"),
+        constant_field=_get(d, "constant_field", str, "split"))

@@ -15,7 +15,8 @@ import math
 
 import sympy
 
-from .claims import Claims, Courants, Limiter, LimiterFailure, Order, Part, Stability, Verdict
+from .claims import (Claims, Courants, Limiter, LimiterFailure, Order, Part, Split,
+                     SplitDirection, Stability, Verdict)
 
 EXACT_WIDTH = 24
 PROPERTY_LABELS = {"sweby_tvd": "Sweby's TVD region",
@@ -170,3 +171,57 @@ def bounded_text(claims: Claims) -> str:
         return (f"yes within [{value_text(b.low, b.low_exact)}, {value_text(b.high, b.high_exact)}] "
                 "(clip)")
     return f"{verdict_text(claims.bounded)} ({b.kind})"
+
+
+# ---- split schemes -------------------------------------------------------------------
+
+def direction_set_text(direction: SplitDirection) -> str:
+    """'c_x in [0, 2]', 'c_x in [0, 1] or c_x = 2', 'no c_x > 0' (islands named)."""
+    name = f"c_{direction.name}"
+    parts = [p for p in direction.stable.parts if not (p.is_point and p.lo == 0)]
+    if not parts:
+        return f"no {name} > 0"
+    words = []
+    for p in parts:
+        if p.is_point:
+            words.append(f"{name} = {value_text(p.lo, p.lo_exact)}")
+        else:
+            words.append(f"{name} in {part_text(p)}")
+    return " or ".join(words)
+
+
+def split_stability_text(split: Split) -> str:
+    """'conditional, stable for c_x in [0, 2] and c_y in [0, 1]'; 'undecided'."""
+    if split.kind is None:
+        return "undecided"
+    texts = [direction_set_text(d) for d in split.directions]
+    # islands read "c_x in [0, 1] or c_x = 2": directions are then kept apart by ';'
+    where = ("; " if any(" or " in t for t in texts) else " and ").join(texts)
+    if split.kind == "unstable":
+        return f"unstable (each direction's Courant number must lie in its set: {where})"
+    return f"{split.kind}, stable for {where}"
+
+
+def split_order_text(split: Split) -> str:
+    """'2 with constant coefficients; 1 with variable coefficients'."""
+    return (f"{_maybe(split.order_overall)} with constant coefficients (the sweeps commute); "
+            f"{_maybe(split.order_variable)} with variable coefficients")
+
+
+def split_lines(split: Split) -> tuple[str, ...]:
+    """The split scheme in short lines (check's text)."""
+    steps = "; ".join(", ".join(f"{_axis(a)}{_share(f)}" for a, f in step) for step in split.sweeps)
+    period = " (one step, then the next)" if split.period == 2 else ""
+    return (f"split {split.dims}-D, {split.method}: {steps}{period}",
+            f"stability: {split_stability_text(split)}",
+            f"order: {split_order_text(split)}",
+            f"splitting error: {split.error_statement}",
+            f"  {split.operators}")
+
+
+def _axis(axis: int) -> str:
+    return "xyz"[axis]
+
+
+def _share(fraction: float) -> str:
+    return "" if fraction == 1 else f" ({fraction:g} dt)"

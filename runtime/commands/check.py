@@ -18,11 +18,11 @@ from fluxloom.compiler.analysis.budget import DEFAULT_SECONDS
 
 from fluxloom.compiler.analysis.claims import read_claims
 from fluxloom.compiler.analysis.wording import (bounded_text, failure_text, limiter_text,
-                                                order_text, stability_text, value_text,
-                                                verdict_text, yes_no)
+                                                order_text, split_lines, stability_text,
+                                                value_text, verdict_text, yes_no)
 
-from .common import add_courant_option, add_set_option, add_spec_argument, parse_courant, \
-    scheme_from_args
+from .common import add_courant_option, add_set_option, add_spec_argument, add_split_option, \
+    parse_courant, parse_dims_split, scheme_from_args
 
 
 def register(sub) -> None:
@@ -42,6 +42,11 @@ def register(sub) -> None:
     parser.add_argument("--budget", default=str(DEFAULT_SECONDS), metavar="SECONDS",
                         help="CPU seconds each analysis pass may take before it falls back to "
                              f"a numeric method or says undecided (default {DEFAULT_SECONDS:g})")
+    parser.add_argument("--dims", type=int, default=1, metavar="D",
+                        help="also analyse the scheme split over D = 2 or 3 dimensions "
+                             "(stability per direction, order with constant and with variable "
+                             "coefficients, the splitting error); default 1")
+    add_split_option(parser)
     parser.set_defaults(run=run)
 
 
@@ -60,9 +65,14 @@ def parse_budget(text: str) -> float:
 def run(args) -> int:
     parse_courant(args.courant)  # validates; the analysis keeps the Courant number exact
     seconds = parse_budget(args.budget)
+    dims, split = parse_dims_split(args.dims, args.split)
     scheme = scheme_from_args(args)
     analysis = analyse(scheme, exact_courant(args.courant), seconds)
     doc = analysis.to_json()
+    if dims > 1:
+        from fluxloom.compiler.analysis.splitting import analyse_splitting, with_split
+
+        doc = with_split(doc, analyse_splitting(analysis, dims, split))
     if args.plots:
         written, skipped = write_figures(analysis, Path(args.plots), args.force)
         doc["plots"] = [str(p) for p in written]
@@ -245,6 +255,13 @@ def render(doc: dict) -> str:
                        f"{r['phase_error_per_step']:+14.3e}   {r['relative_phase_speed']:10.5f}   "
                        f"{r['amplitude_per_wavelength']:14.4e}   {r['phase_error_per_wavelength']:+20.4f}")
         out.append("  (phase errors in radians, arg G + c theta: positive lags the exact solution, negative leads)")
+    if claims.split is not None:
+        out.append("")
+        lines = split_lines(claims.split)
+        out.append(lines[0])
+        out += [f"  {line}" for line in lines[1:]]
+        out.append(f"  note: {claims.split.order_note}")
+        out.append(f"  constant field: {claims.split.constant_field}")
     if doc["undecided"]:
         out.append("")
         out.append("undecided     " + "; ".join(doc["undecided"]))

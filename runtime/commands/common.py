@@ -51,3 +51,30 @@ def add_courant_option(parser: argparse.ArgumentParser, help_text: str,
                        default: str = "0.5") -> None:
     """--courant C, kept as text and read with parse_courant (rationals allowed)."""
     parser.add_argument("--courant", default=default, metavar="C", help=help_text)
+
+
+# ---- split schemes (--dims, --split) ----------------------------------------------------
+
+DEFAULT_SPLIT = "strang"
+
+
+def add_split_option(parser: argparse.ArgumentParser) -> None:
+    from fluxloom.compiler.splittings import NAMES
+
+    parser.add_argument("--split", choices=NAMES, default=None,
+                        help="how a multi-dimensional step sweeps the axes: lie (x then y), "
+                             "alternating (x then y, then y then x), strang (x/2, y, x/2) "
+                             f"(default {DEFAULT_SPLIT}; needs --dims 2 or 3)")
+
+
+def parse_dims_split(dims: int, split: str | None, largest: int = 3) -> tuple[int, str | None]:
+    """(dims, splitting) from --dims and --split; LoomError (exit 2) on a bad combination."""
+    if not 1 <= dims <= largest:
+        allowed = ", ".join(str(d) for d in range(1, largest))
+        raise LoomError(f"--dims {dims}: choose {allowed} or {largest}", file="--dims")
+    if dims == 1:
+        if split is not None:
+            raise LoomError(f"--split {split} splits a multi-dimensional step; give --dims 2 "
+                            "or 3 with it", file="--split")
+        return 1, None
+    return dims, split or DEFAULT_SPLIT

@@ -11,8 +11,8 @@ from pathlib import Path
 
 from ..findings import Options, Prediction, verify_kernel
 from ..report import verification_json, verification_text, write_verification
-from .common import (add_courant_option, add_set_option, add_spec_argument, parse_courant,
-                     scheme_from_args)
+from .common import (add_courant_option, add_set_option, add_spec_argument, add_split_option,
+                     parse_courant, parse_dims_split, scheme_from_args)
 
 VELOCITIES = ("+1", "-1", "varying")
 
@@ -36,6 +36,7 @@ def register(sub) -> None:
     parser.add_argument("--force", action="store_true",
                         help="let --report replace files fluxloom did not write")
     add_decomposed_options(parser)
+    add_split_options(parser)
     parser.set_defaults(run=run)
 
 
@@ -45,8 +46,54 @@ def add_decomposed_options(parser) -> None:
                              "mpiexec; needs fluxloom[mpi]) and compare it with the single-domain "
                              "run bit for bit")
     parser.add_argument("--dims", type=int, default=1, metavar="D",
-                        help="dimensions of the domain (1; multi-dimensional sweeps are not "
-                             "built yet)")
+                        help="dimensions of the domain: 1, or 2 to also run the 2-D cases "
+                             "(rotation, swirling flow) through split sweeps (default 1)")
+
+
+GRIDS = ("uniform", "stretched", "perturbed")
+BOUNDARIES = ("periodic", "wall", "open")
+
+
+def add_split_options(parser) -> None:
+    add_split_option(parser)
+    parser.add_argument("--grid", choices=GRIDS, default="uniform",
+                        help="cell widths of the runs (default uniform; stretched and perturbed "
+                             "grids need the width-aware kernels, not built yet)")
+    parser.add_argument("--boundary", choices=BOUNDARIES, default="periodic",
+                        help="domain edges (default periodic; wall and open need the boundary "
+                             "fills of the sweep kernels, not built yet)")
+
+
+def check_split_options(args) -> tuple[int, str | None]:
+    """(dims, splitting) of the run; LoomError (exit 2) for what is not built yet."""
+    from fluxloom.compiler import LoomError
+
+    dims, method = parse_dims_split(args.dims, args.split)
+    if args.grid != "uniform":
+        raise LoomError(f"--grid {args.grid}: runs on non-uniform cells need kernels that take "
+                        "per-cell widths, which are not built yet; use --grid uniform",
+                        file="--grid")
+    if args.boundary != "periodic":
+        raise LoomError(f"--boundary {args.boundary}: wall and open edges need the kernels' "
+                        "boundary fills, which are not built yet; use --boundary periodic",
+                        file="--boundary")
+    if dims == 3:
+        raise LoomError("--dims 3: the 3-D cases wait for the generated sweep kernels; "
+                        "--dims 2 runs now (check --dims 3 analyses the 3-D split scheme)",
+                        file="--dims")
+    if dims > 1 and args.ranks is not None:
+        raise LoomError(f"--ranks with --dims {dims}: decomposed multi-dimensional runs wait "
+                        "for the generated sweep kernels; use --ranks with --dims 1",
+                        file="--ranks")
+    return dims, method
+
+
+def split_analysis_document(scheme, courant: float, dims: int, method: str) -> dict:
+    """The analysis document with the split scheme (`check --json --dims D --split M`)."""
+    from fluxloom.compiler.analysis import analyse
+    from fluxloom.compiler.analysis.splitting import split_document
+
+    return split_document(analyse(scheme, courant), dims, method)
 
 
 def add_kernel_options(parser) -> None:
@@ -88,11 +135,20 @@ def run(args) -> int:
     courant = parse_courant(args.courant)
     options = Options(courant=courant, velocity=args.velocity)
     options.check_size()            # before any work: tiny Courant numbers are refused
-    if args.ranks is not None or args.dims != 1:  # bad options before any work
+    dims, method = check_split_options(args)
+    if args.ranks is not None:  # bad options before any work
         from ..decomposed.finding import check_options
         check_options(args.ranks, args.dims)
+    if dims > 1:
+        from ..multidim.findings import check_split_run
+        from ..multidim.cases import GRIDS as CELLS_2D
+        check_split_run(CELLS_2D, courant)
     scheme = scheme_from_args(args)
-    prediction = predict(scheme, courant)
+    if dims > 1:
+        prediction = Prediction.from_document(split_analysis_document(scheme, courant, dims,
+                                                                      method))
+    else:
+        prediction = predict(scheme, courant)
     kernel = load_for_measuring(scheme, args.backend, args.precision)
     say = progress_printer(sys.stderr.isatty() and not args.json, f"verify {scheme.name}")
     verification = verify_kernel(kernel, prediction, options, progress=say)
@@ -104,15 +160,30 @@ def run(args) -> int:
         decomposed = verify_decomposed(scheme, args.backend, args.precision, args.ranks,
                                        args.dims, options.courant, args.velocity)
         verification = with_decomposed(verification, decomposed)
+    split = None
+    if dims > 1:
+        from ..multidim.findings import verify_split, with_split
+        split = verify_split(kernel, prediction, method, courant, progress=say)
+        verification = with_split(verification, split)
     if args.report:
         written = write_verification(verification, Path(args.report), args.force)
+        if split is not None:
+            from ..multidim.report import write_split_report
+            written += write_split_report(split, scheme.name, Path(args.report), args.force)
         if not args.json:
             print(f"report: {', '.join(str(p) for p in written)}", file=sys.stderr)
     if args.json:
         document = verification_json(verification)
         if decomposed is not None:
             document["decomposed"] = decomposed.to_json()
+        if split is not None:
+            from ..multidim.report import split_json
+            document.update(split_json(split))
         print(json.dumps(document, indent=2))
     else:
         print(verification_text(verification), end="")
+        if split is not None:
+            from ..multidim.report import split_text
+            print()
+            print(split_text(split), end="")
     return 0 if verification.agree else 1
