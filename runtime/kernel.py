@@ -65,7 +65,7 @@ class Kernel:
     """
 
     def __init__(self, name, backend, precision, halo, face_halo, stages, workspace_size,
-                 run_step):
+                 run_step, run_sweep=None, sweep_widths=False):
         self.name = name
         self.backend = backend
         self.precision = precision
@@ -75,6 +75,8 @@ class Kernel:
         self.stages = stages
         self._workspace_size = workspace_size
         self._run_step = run_step
+        self._run_sweep = run_sweep
+        self.sweep_widths = sweep_widths   # sweep() takes per-cell dt/dx and thicknesses
         self._work: dict[int, np.ndarray] = {}
 
     def __repr__(self) -> str:
@@ -124,6 +126,15 @@ class Kernel:
                                   "face velocities after writing out)")
         self._run_step(n, q, out, u_face, dt_dx, self._workspace(n))
         return out
+
+    def sweep(self, q, u_face, dt_dx, axis, halo=None, out=None, h_old=None, h_new=None):
+        """Every line of an array of rank 1 to 3 along `axis`: the generated NAME_sweep.
+
+        See runtime/array_sweep.py for the arguments; returns `out` (a copy of q
+        with the interior of every interior line advanced, when not given)."""
+        from .array_sweep import run_sweep
+
+        return run_sweep(self, q, u_face, dt_dx, axis, halo, out, h_old, h_new)
 
     def _check_dt_dx(self, dt_dx) -> float:
         try:
@@ -180,7 +191,8 @@ def load_kernel(scheme: Scheme, backend: str = "numpy", precision: str = "double
     if backend == "numpy":
         module = numpy_module(scheme, precision)
         return Kernel(scheme.name, "numpy", precision, module.HALO, module.FACE_HALO,
-                      module.STAGES, module.workspace_size, module.step)
+                      module.STAGES, module.workspace_size, module.step, module.sweep,
+                      module.SWEEP_WIDTHS)
     return _c_kernel(scheme, precision, opt)
 
 
@@ -203,7 +215,11 @@ def _c_kernel(scheme: Scheme, precision: str, opt: str | None) -> Kernel:
                ffi.from_buffer(ctype, u_face), dt_dx,
                null if work is None else ffi.from_buffer(ctype, work, require_writable=True))
 
-    return Kernel(name, "c", precision, halo, face_halo, stages, c_workspace, run_step)
+    from .array_sweep import c_sweep_runner
+
+    return Kernel(name, "c", precision, halo, face_halo, stages, c_workspace, run_step,
+                  c_sweep_runner(ffi, lib, name, precision),
+                  bool(getattr(lib, f"{name}_SWEEP_WIDTHS")))
 
 
 # ---- periodic domains -------------------------------------------------------------

@@ -22,6 +22,7 @@ from ..symbols import C, R, LimiterApplication, limiter_name_of, offset_of, q
 from .environment import render
 from .limited import FLOOR_EXPONENT, LimiterFormCall
 from .plan import FaceProgram, KernelPlan, banner_lines, plan_kernel
+from .sweep import c_sweep_context
 
 PRECISIONS = {"double": float64, "float": float32}
 FLUX_BLOCK = 128
@@ -453,6 +454,7 @@ def c_context(scheme: Scheme, precision: str = "double", verdicts: bool = True) 
         # continuation lines of the two long prototypes line up under "("
         "stage_indent": " " * len(f"void {plan.name}_stage("),
         "step_indent": " " * len(f"void {plan.name}_step("),
+        **c_sweep_context(plan, fluxes),
     }
 
 

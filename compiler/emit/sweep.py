@@ -1,0 +1,32 @@
+"""What the sweep templates (c_sweep.*.j2, numpy_sweep.py.j2, fortran_sweep.f90.j2) need.
+
+A single-stage scheme without flux correction gets a sweep of its own (fluxes of
+face rows across neighbouring lines, per-cell dt/dx, thickness weighting, several
+tracers, OpenMP); multi-stage and flux-corrected schemes sweep line by line
+through their step. The face function and its loads are the step's own, so the
+values a sweep computes are the step's values.
+"""
+from __future__ import annotations
+
+SWEEP_CHUNK = 256
+"""Neighbouring lines a strided sweep handles together: two flux rows of a tracer
+group stay in L1/L2 and the inner loops are long enough to vectorise."""
+SWEEP_GROUP = 16
+"""Tracers whose fluxes one pass keeps (stack arrays of fixed size)."""
+
+
+def sweep_direct(plan) -> bool:
+    """True when the scheme sweeps with its own loops (widths, thickness, threads)."""
+    return plan.stages == 1 and not plan.fct
+
+
+def c_sweep_context(plan, fluxes) -> dict:
+    flux = fluxes[0]
+    return {"sweep": {
+        "direct": sweep_direct(plan),
+        "chunk": SWEEP_CHUNK,
+        "group": SWEEP_GROUP,
+        "flux": flux,
+        "uses_c": flux.uses_c,
+        "c_argument": "c[k] != 0 ? c[k] : 1" if flux.guard_c else "c[k]",
+    }}
