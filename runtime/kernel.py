@@ -77,6 +77,7 @@ class Kernel:
         self._run_step = run_step
         self._run_sweep = run_sweep
         self.sweep_widths = sweep_widths   # sweep() takes per-cell dt/dx and thicknesses
+        self.threads = lambda: 1           # threads a sweep may use (C with OpenMP: more)
         self._work: dict[int, np.ndarray] = {}
 
     def __repr__(self) -> str:
@@ -179,10 +180,12 @@ class Kernel:
 
 
 def load_kernel(scheme: Scheme, backend: str = "numpy", precision: str = "double",
-                opt: str | None = None) -> Kernel:
+                opt: str | None = None, openmp: bool = False) -> Kernel:
     """The scheme's kernel for one back end and precision (generated and cached on first use).
 
     opt (C only) is the optimisation flag, e.g. "-O2" or "-O3"; None keeps the build default.
+    openmp (C only): build with OpenMP where the compiler supports it, so sweeps share
+    their lines among OMP_NUM_THREADS threads (`kernel.threads()` says how many).
     """
     if backend not in BACKENDS:
         raise KernelError(f"unknown back end '{backend}'; choose one of {', '.join(BACKENDS)}")
@@ -193,13 +196,19 @@ def load_kernel(scheme: Scheme, backend: str = "numpy", precision: str = "double
         return Kernel(scheme.name, "numpy", precision, module.HALO, module.FACE_HALO,
                       module.STAGES, module.workspace_size, module.step, module.sweep,
                       module.SWEEP_WIDTHS)
-    return _c_kernel(scheme, precision, opt)
+    return _c_kernel(scheme, precision, opt, openmp)
 
 
-def _c_kernel(scheme: Scheme, precision: str, opt: str | None) -> Kernel:
-    from .build import compile_c
+def _c_kernel(scheme: Scheme, precision: str, opt: str | None, openmp: bool = False) -> Kernel:
+    from .build import compile_c, openmp_supported
 
-    ffi, lib = compile_c(scheme, precision) if opt is None else compile_c(scheme, precision, opt)
+    if openmp and not openmp_supported():
+        import warnings
+        warnings.warn("the C compiler does not build with -fopenmp; the kernel's sweeps "
+                      "run on one thread", RuntimeWarning, stacklevel=3)
+        openmp = False
+    flags = {} if opt is None else {"opt": opt}
+    ffi, lib = compile_c(scheme, precision, openmp=openmp, **flags)
     name = scheme.name
     c_step = getattr(lib, f"{name}_step")
     c_workspace = getattr(lib, f"{name}_workspace_size")
@@ -217,9 +226,11 @@ def _c_kernel(scheme: Scheme, precision: str, opt: str | None) -> Kernel:
 
     from .array_sweep import c_sweep_runner
 
-    return Kernel(name, "c", precision, halo, face_halo, stages, c_workspace, run_step,
-                  c_sweep_runner(ffi, lib, name, precision),
-                  bool(getattr(lib, f"{name}_SWEEP_WIDTHS")))
+    kernel = Kernel(name, "c", precision, halo, face_halo, stages, c_workspace, run_step,
+                    c_sweep_runner(ffi, lib, name, precision),
+                    bool(getattr(lib, f"{name}_SWEEP_WIDTHS")))
+    kernel.threads = getattr(lib, f"{name}_sweep_threads")
+    return kernel
 
 
 # ---- periodic domains -------------------------------------------------------------

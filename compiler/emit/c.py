@@ -376,7 +376,8 @@ def scale_words(printer: KernelPrinter) -> dict[str, str]:
     }
 
 
-def c_context(scheme: Scheme, precision: str = "double", verdicts: bool = True) -> dict:
+def c_context(scheme: Scheme, precision: str = "double", verdicts: bool = True,
+              openmp: bool = False) -> dict:
     """Everything the C templates need, printed."""
     plan = plan_kernel(scheme)
     printer = KernelPrinter(plan, precision)
@@ -454,16 +455,18 @@ def c_context(scheme: Scheme, precision: str = "double", verdicts: bool = True) 
         # continuation lines of the two long prototypes line up under "("
         "stage_indent": " " * len(f"void {plan.name}_stage("),
         "step_indent": " " * len(f"void {plan.name}_step("),
-        **c_sweep_context(plan, fluxes),
+        **c_sweep_context(plan, fluxes, openmp),
     }
 
 
-def c_sources(scheme: Scheme, precision: str = "double", verdicts: bool = True) -> dict[str, str]:
+def c_sources(scheme: Scheme, precision: str = "double", verdicts: bool = True,
+              openmp: bool = False) -> dict[str, str]:
     """{'NAME.h': header text, 'NAME.c': kernel text} for scheme at precision.
 
-    verdicts=False leaves the analysis out of the header comment.
+    verdicts=False leaves the analysis out of the header comment; openmp=True makes the
+    C file require OpenMP (its sweeps are threaded).
     """
-    context = c_context(scheme, precision, verdicts)
+    context = c_context(scheme, precision, verdicts, openmp)
     return {
         f"{scheme.name}.h": render("c_header.h.j2", **context),
         f"{scheme.name}.c": render("c_kernel.c.j2", **context),

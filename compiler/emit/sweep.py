@@ -20,9 +20,12 @@ def sweep_direct(plan) -> bool:
     return plan.stages == 1 and not plan.fct
 
 
-def c_sweep_context(plan, fluxes) -> dict:
+def c_sweep_context(plan, fluxes, openmp: bool = False) -> dict:
+    """openmp: the C file requires OpenMP (`build --openmp`); without it the sweep is
+    still threaded wherever the file is compiled with OpenMP."""
     flux = fluxes[0]
     return {"sweep": {
+        "openmp": openmp,
         "direct": sweep_direct(plan),
         "chunk": SWEEP_CHUNK,
         "group": SWEEP_GROUP,
