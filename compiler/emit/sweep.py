@@ -12,6 +12,9 @@ SWEEP_CHUNK = 1024
 """Neighbouring lines a strided sweep handles together (8 KiB of a double row per
 array): long runs of contiguous loads keep the hardware prefetchers streaming while
 the sweep walks down the rows (256 ran about 2x slower at 1024 x 1024)."""
+SWEEP_SEGMENT = 1024
+"""Cells of a contiguous line whose face velocity parts (Courant numbers, frames) are
+computed once and then used by every tracer in turn (a multiple of FLUX_BLOCK)."""
 SWEEP_PIECE = 128
 """The constant width the rest of a chunk is swept in (vectorised at -O2)."""
 SWEEP_GROUP = 8
@@ -33,6 +36,7 @@ def c_sweep_context(plan, fluxes, openmp: bool = False) -> dict:
         "direct": sweep_direct(plan),
         "chunk": SWEEP_CHUNK,
         "piece": SWEEP_PIECE,
+        "segment": SWEEP_SEGMENT,
         "group": SWEEP_GROUP,
         "flux": flux,
         "uses_c": flux.uses_c,
