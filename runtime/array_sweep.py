@@ -59,10 +59,13 @@ def run_sweep(kernel: Kernel, q, u_face, dt_dx, axis, halo, out, h_old, h_new):
     if h_old is None and h_new is not None or h_new is None and h_old is not None:
         raise KernelError(f"{name}: pass both h_old and h_new (layer thicknesses), or neither")
     per_cell = np.ndim(dt_dx) > 0
-    if (per_cell or h_old is not None) and not kernel.sweep_widths:
-        raise KernelError(f"{name}: per-cell dt/dx and thickness weighting need a single-stage "
-                          "scheme without flux correction; this one sweeps through its step "
-                          "(one dt/dx)")
+    if per_cell and not kernel.sweep_widths:
+        raise KernelError(f"{name}: per-cell dt/dx needs a scheme without flux correction; "
+                          "this one sweeps through its step (one dt/dx)")
+    if h_old is not None and not kernel.sweep_thickness:
+        raise KernelError(f"{name}: thickness weighting needs a single-stage scheme without "
+                          "flux correction (a multi-stage one would need the thickness of "
+                          "every stage)")
     if per_cell:
         dt_dx = _array(kernel, "dt_dx", np.asarray(dt_dx) if not isinstance(dt_dx, np.ndarray)
                        else dt_dx)

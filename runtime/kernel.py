@@ -65,7 +65,7 @@ class Kernel:
     """
 
     def __init__(self, name, backend, precision, halo, face_halo, stages, workspace_size,
-                 run_step, run_sweep=None, sweep_widths=False):
+                 run_step, run_sweep=None, sweep_widths=False, sweep_thickness=False):
         self.name = name
         self.backend = backend
         self.precision = precision
@@ -76,7 +76,8 @@ class Kernel:
         self._workspace_size = workspace_size
         self._run_step = run_step
         self._run_sweep = run_sweep
-        self.sweep_widths = sweep_widths   # sweep() takes per-cell dt/dx and thicknesses
+        self.sweep_widths = sweep_widths          # sweep() takes per-cell dt/dx
+        self.sweep_thickness = sweep_thickness    # sweep() takes layer thicknesses
         self.threads = lambda: 1           # threads a sweep may use (C with OpenMP: more)
         self._work: dict[int, np.ndarray] = {}
 
@@ -195,7 +196,7 @@ def load_kernel(scheme: Scheme, backend: str = "numpy", precision: str = "double
         module = numpy_module(scheme, precision)
         return Kernel(scheme.name, "numpy", precision, module.HALO, module.FACE_HALO,
                       module.STAGES, module.workspace_size, module.step, module.sweep,
-                      module.SWEEP_WIDTHS)
+                      module.SWEEP_WIDTHS, module.SWEEP_THICKNESS)
     return _c_kernel(scheme, precision, opt, openmp)
 
 
@@ -228,7 +229,8 @@ def _c_kernel(scheme: Scheme, precision: str, opt: str | None, openmp: bool = Fa
 
     kernel = Kernel(name, "c", precision, halo, face_halo, stages, c_workspace, run_step,
                     c_sweep_runner(ffi, lib, name, precision),
-                    bool(getattr(lib, f"{name}_SWEEP_WIDTHS")))
+                    bool(getattr(lib, f"{name}_SWEEP_WIDTHS")),
+                    bool(getattr(lib, f"{name}_SWEEP_THICKNESS")))
     kernel.threads = getattr(lib, f"{name}_sweep_threads")
     return kernel
 

@@ -74,6 +74,6 @@ def test_verify_grid_command_json_and_refusals():
     grids = json.loads(done.stdout)["grids"]
     assert grids["kind"] == "stretched" and len(grids["runs"]) == 3
     refused = subprocess.run([sys.executable, "-m", "fluxloom.runtime.cli", "verify",
-                              str(EXAMPLES / "vanleer_rk3.loom"), "--grid", "perturbed"],
+                              str(EXAMPLES / "lw_fct.loom"), "--grid", "perturbed"],
                              capture_output=True, text=True)
-    assert refused.returncode == 2 and "single-stage" in refused.stderr
+    assert refused.returncode == 2 and "flux correction" in refused.stderr

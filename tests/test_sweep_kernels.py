@@ -183,12 +183,17 @@ def test_thickness_form_conserves_mass_and_keeps_a_constant_constant(backend):
 
 def test_sweep_refuses_what_it_cannot_do():
     rk = load_kernel(load_scheme(EXAMPLES / "vanleer_rk3.loom"), "c")
+    fct = load_kernel(load_scheme(EXAMPLES / "lw_fct.loom"), "c")
     euler = load_kernel(load_scheme(EXAMPLES / "lw_vanleer.loom"), "c")
     q = np.zeros((8, 12))
     u = np.ones((8, 9))
+    rk_q = np.zeros((8, 8 + 2 * rk.halo))
     with pytest.raises(KernelError, match="single-stage"):
-        rk.sweep(np.zeros((8, 8 + 2 * rk.halo)), u, np.full(10, 0.1), 1,
-                 halo=(0, rk.halo))
+        rk.sweep(rk_q, u, 0.1, 1, halo=(0, rk.halo), h_old=np.ones_like(rk_q),
+                 h_new=np.ones_like(rk_q))
+    with pytest.raises(KernelError, match="flux correction"):
+        fct.sweep(np.zeros((8, 8 + 2 * fct.halo)), u, np.full(10, 0.1), 1,
+                  halo=(0, fct.halo))
     with pytest.raises(KernelError, match="ghost cells"):
         euler.sweep(q, u, 0.1, 1, halo=(0, 0))
     with pytest.raises(KernelError, match="n \\+ 1 faces"):
@@ -235,3 +240,64 @@ def test_long_lines_across_segments_and_blocks():
         apart = np.stack([c_kernel.sweep(np.ascontiguousarray(t), u, d, 1, halo=(0, 2), **kw)
                           for t in tracers])
         assert np.array_equal(a, apart)
+
+
+RANDOM_LINEAR_RK3 = """
+scheme random_linear_rk3 {
+  time ssp_rk3
+  flux = u * (q[0] + 0.4375 * (q[1] - q[0]) - 0.1875 * (q[0] - q[-1]))
+}
+"""
+
+
+def _own_ssp_rk3(q, u, d):
+    """Shu and Osher's SSP-RK3 (Shu and Osher 1988, J. Comput. Phys. 77:439, eq. 2.18;
+    [mem]) of dq/dt = -(F(j+1/2) - F(j-1/2)) / dx_j on a periodic line, an own stepper."""
+    def rate(v):
+        padded = np.concatenate((v[-2:], v, v[:2]))
+        left, right = padded[1:-2], padded[2:-1]
+        behind, ahead = padded[0:-3], padded[3:]
+        up = np.where(u >= 0, left, right)
+        down = np.where(u >= 0, right, left)
+        back = np.where(u >= 0, behind, ahead)
+        flux = u * (up + 0.4375 * (down - up) - 0.1875 * (up - back))
+        return -d[1:-1] * (flux[1:] - flux[:-1])
+    q1 = q + rate(q)
+    q2 = 0.75 * q + 0.25 * (q1 + rate(q1))
+    return q / 3 + 2 / 3 * (q2 + rate(q2))
+
+
+@pytest.mark.parametrize("backend", ["c", "numpy"])
+def test_multi_stage_sweep_with_per_cell_widths_against_an_own_rk3(backend):
+    kernel = load_kernel(scheme_from_text(RANDOM_LINEAR_RK3), backend)
+    rng = np.random.default_rng(31)
+    n = 50
+    q = rng.random(n)
+    u = rng.standard_normal(n + 1)
+    u[-1] = u[0]
+    widths = rng.uniform(0.5, 1.5, n)
+    d = 0.2 / np.concatenate((widths[-1:], widths, widths[:1]))
+    padded = np.zeros((2, n + 4))
+    padded[:, 2:n + 2] = q
+    fill_periodic_axis(padded, 1, 2)
+    got = kernel.sweep(padded, np.stack((u, u)), d, 1, halo=(0, 2))[:, 2:n + 2]
+    np.testing.assert_allclose(got[0], _own_ssp_rk3(q, u, d), rtol=1e-13, atol=1e-14)
+    assert np.array_equal(got[0], got[1])
+
+
+@pytest.mark.parametrize("stem", ["vanleer_rk3", "kappa_ws3", "centred4_ssp10",
+                                  "clamped_centred_rk4", "weno5_rk3"])
+def test_multi_stage_per_cell_widths_c_numpy_and_the_uniform_path(stem):
+    scheme = load_scheme(EXAMPLES / f"{stem}.loom")
+    c_kernel, np_kernel = load_kernel(scheme, "c"), load_kernel(scheme, "numpy")
+    rng = np.random.default_rng(6)
+    h, shape = c_kernel.halo, (5, 40)
+    q = rng.random((2,) + tuple(s + 2 * h for s in shape))
+    for axis in (0, 1):
+        u = _faces(rng, shape, axis) * 0.5
+        d = rng.uniform(0.2, 0.6, shape[axis] + 2)
+        a = c_kernel.sweep(q, u, d, axis)
+        np.testing.assert_allclose(a, np_kernel.sweep(q, u, d, axis), rtol=1e-13, atol=1e-14)
+        same = np.full(shape[axis] + 2, 0.4)
+        for kernel in (c_kernel, np_kernel):    # equal widths: the uniform path's bits
+            assert np.array_equal(kernel.sweep(q, u, same, axis), kernel.sweep(q, u, 0.4, axis))
