@@ -79,12 +79,12 @@ def check_split_options(args) -> tuple[int, str | None]:
                         "boundary fills, which are not built yet; use --boundary periodic",
                         file="--boundary")
     if dims == 3:
-        raise LoomError("--dims 3: the 3-D cases wait for the generated sweep kernels; "
+        raise LoomError("--dims 3: there are no 3-D cases yet (the sweeps take rank-3 arrays); "
                         "--dims 2 runs now (check --dims 3 analyses the 3-D split scheme)",
                         file="--dims")
     if dims > 1 and args.ranks is not None:
-        raise LoomError(f"--ranks with --dims {dims}: decomposed multi-dimensional runs wait "
-                        "for the generated sweep kernels; use --ranks with --dims 1",
+        raise LoomError(f"--ranks with --dims {dims}: decomposed multi-dimensional runs are "
+                        "not built yet; use --ranks with --dims 1",
                         file="--ranks")
     return dims, method
 
