@@ -74,8 +74,7 @@ def test_check_refuses_bad_dims(capsys, args, message):
 # ---- verify --dims 2: options -------------------------------------------------------------
 
 @pytest.mark.parametrize("args, message", [
-    (["--grid", "stretched"], "--grid stretched"),
-    (["--grid", "perturbed"], "per-cell widths"),
+    (["--dims", "2", "--grid", "stretched"], "--grid stretched with --dims 2"),
     (["--boundary", "wall"], "--boundary wall"),
     (["--dims", "3"], "--dims 3"),
     (["--dims", "2", "--ranks", "2"], "--ranks with --dims 2"),
