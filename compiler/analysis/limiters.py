@@ -281,13 +281,17 @@ def second_order_conditions() -> list[Condition]:
 def courant_sets(body: sympy.Expr) -> tuple[CourantSet, CourantSet]:
     """(TVD region, second-order region) as sets of 0 < c <= 1. Raises NotExact."""
     how = "exact: extremes over r as functions of c, piece by piece"
-    if C not in body.free_symbols:
-        sets = [parametric.separable_courant_set(sympy.Integer(1), body, [conds], how,
-                                                 c_top=REGION_TOP)
-                for conds in (region_conditions(), second_order_conditions())]
-    else:
-        sets = [parametric.courant_set(body, [conds], how, c_top=REGION_TOP)
-                for conds in (region_conditions(), second_order_conditions())]
+    try:
+        if C not in body.free_symbols:
+            sets = [parametric.separable_courant_set(sympy.Integer(1), body, [conds], how,
+                                                     c_top=REGION_TOP)
+                    for conds in (region_conditions(), second_order_conditions())]
+        else:
+            sets = [parametric.courant_set(body, [conds], how, c_top=REGION_TOP)
+                    for conds in (region_conditions(), second_order_conditions())]
+    except (ValueError, TypeError, sympy.PolynomialError) as err:
+        # constants outside the rational field (2**(27/145)) leave the exact method
+        raise parametric.NotExact(str(err)) from None
     return tuple(parametric.restrict(s, REGION_TOP) for s in sets)
 
 
@@ -460,7 +464,8 @@ def courant_curvature_at_one(body):
 # ---- sampling, where the body is not piecewise rational ---------------------------------
 
 def _sampled(name, body, value, left, right) -> LimiterFacts:
-    psi = sympy.lambdify(R, _numeric_ratio(body), modules="numpy")
+    # constants as floats: an exact integer past 64 bits would reach numpy as an object
+    psi = sympy.lambdify(R, _numeric_ratio(body).evalf(), modules="numpy")
     r = piecewise.sample_points()
     with numpy.errstate(all="ignore"):
         v = numpy.broadcast_to(psi(r), r.shape).astype(float)
@@ -525,7 +530,7 @@ def _numeric_ratio(body: sympy.Expr) -> sympy.Expr:
 def _sampled_courant(name, body, value, left, right) -> LimiterFacts:
     """A limiter of (r, c) outside the exact class: the region tested on a grid of
     (r, c), c in steps of 1/COURANT_SAMPLES; the sets are numeric, with that tolerance."""
-    psi = sympy.lambdify((R, C), _numeric_ratio(body), modules="numpy")
+    psi = sympy.lambdify((R, C), _numeric_ratio(body).evalf(), modules="numpy")
     r = piecewise.sample_points()
     pos = r > 0
     cs = numpy.arange(1, COURANT_SAMPLES + 1) / COURANT_SAMPLES
