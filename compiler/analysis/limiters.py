@@ -281,17 +281,13 @@ def second_order_conditions() -> list[Condition]:
 def courant_sets(body: sympy.Expr) -> tuple[CourantSet, CourantSet]:
     """(TVD region, second-order region) as sets of 0 < c <= 1. Raises NotExact."""
     how = "exact: extremes over r as functions of c, piece by piece"
-    try:
-        if C not in body.free_symbols:
-            sets = [parametric.separable_courant_set(sympy.Integer(1), body, [conds], how,
-                                                     c_top=REGION_TOP)
-                    for conds in (region_conditions(), second_order_conditions())]
-        else:
-            sets = [parametric.courant_set(body, [conds], how, c_top=REGION_TOP)
-                    for conds in (region_conditions(), second_order_conditions())]
-    except (ValueError, TypeError, sympy.PolynomialError) as err:
-        # constants outside the rational field (2**(27/145)) leave the exact method
-        raise parametric.NotExact(str(err)) from None
+    if C not in body.free_symbols:
+        sets = [parametric.separable_courant_set(sympy.Integer(1), body, [conds], how,
+                                                 c_top=REGION_TOP)
+                for conds in (region_conditions(), second_order_conditions())]
+    else:
+        sets = [parametric.courant_set(body, [conds], how, c_top=REGION_TOP)
+                for conds in (region_conditions(), second_order_conditions())]
     return tuple(parametric.restrict(s, REGION_TOP) for s in sets)
 
 
