@@ -6,6 +6,8 @@ and 0 <= psi <= min(2r, 2) for r > 0), not against fluxloom's own output.
 """
 from __future__ import annotations
 
+import sympy
+
 from fluxloom.compiler import scheme_from_text
 from fluxloom.compiler.analysis import analyse
 
@@ -51,3 +53,16 @@ def test_limiters_with_constants_outside_the_rational_field_are_sampled():
     assert found.sweby_tvd is False
     found = facts("(1e-3 / 12 - min(r, 1 / sqrt(123456789012345678901234567890)))^2")
     assert found.sweby_tvd is False
+
+
+def test_a_high_degree_coefficient_is_written_without_factoring():
+    # QUICKEST with c^52 in its curvature term (a fuzz mutation): the modified equation's
+    # coefficients have degree > 100 in c; the report prints them as they are rather than
+    # spending seconds factoring them. The value is unchanged (sympy: difference is 0).
+    from fluxloom.compiler.analysis.consistency import readable
+    from fluxloom.compiler.symbols import C
+
+    expr = (1 - C ** 52) * (C - 1) / 6 + C ** 3
+    assert readable(expr) == expr
+    low = (C - 1) * (C - 2) / 6
+    assert sympy.simplify(readable(low) - low) == 0 and "1 - c" in sympy.sstr(readable(low))

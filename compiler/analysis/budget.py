@@ -27,7 +27,7 @@ import time
 from dataclasses import dataclass
 
 DEFAULT_SECONDS = 4.0        # CPU seconds per analysis pass (`fluxloom check --budget`)
-WHOLE_FACTOR = 2.0           # the passes together get at most this many budgets: `check`
+WHOLE_FACTOR = 1.5           # the passes together get at most this many budgets: `check`
                              # ends within seconds however many passes run long
 FLOOR_SECONDS = 0.05         # a pass started after the whole budget is spent gets this much
 MEMORY_LIMIT_MB = 300.0      # growth of resident memory allowed within one pass

@@ -37,9 +37,19 @@ class Term:
         return sympy.sstr(readable(self.coefficient))
 
 
+READABLE_DEGREE = 12
+
+
 def readable(expr: sympy.Expr) -> sympy.Expr:
     """The same value with factors (c - a), a > 0, written as (a - c) where the signs
-    allow: u*dx*(1 - c)/2 rather than -dx*u*(c - 1)/2."""
+    allow: u*dx*(1 - c)/2 rather than -dx*u*(c - 1)/2. Coefficients of high degree in c
+    are left as they are: factoring them costs seconds and reads no better."""
+    try:
+        top, bottom = sympy.fraction(sympy.together(expr))
+        if max(sympy.degree(top, C), sympy.degree(bottom, C)) > READABLE_DEGREE:
+            return expr
+    except sympy.PolynomialError:
+        return expr
     coeff, factors = sympy.factor(expr).as_coeff_mul()
     factors = list(factors)
     flippable = [i for i, f in enumerate(factors)
