@@ -72,6 +72,17 @@ def rotation_faces(n: int, dtype) -> tuple[np.ndarray, np.ndarray]:
     return np.ascontiguousarray(u_y), np.ascontiguousarray(u_x)
 
 
+def _with_face_halo(faces: np.ndarray, axis: int, face_halo: int) -> np.ndarray:
+    """Faces extended periodically by face_halo per side along `axis` (flux correction)."""
+    if not face_halo:
+        return faces
+    moved = np.moveaxis(faces, axis, -1)
+    n = moved.shape[-1] - 1
+    left = moved[..., np.arange(-face_halo, 0) % n]
+    right = moved[..., np.arange(1, face_halo + 1) % n]
+    return np.ascontiguousarray(np.moveaxis(np.concatenate((left, moved, right), -1), -1, axis))
+
+
 class _Sweeps:
     """The generated sweep of one precision, called through cffi without argument checks."""
 
@@ -85,7 +96,9 @@ class _Sweeps:
         rng = np.random.default_rng(0)
         self.q = rng.random((tracers, extent, extent)).astype(self.dtype)
         self.out = np.empty_like(self.q)
-        self.faces = rotation_faces(n, self.dtype)       # per axis (0 = y, 1 = x)
+        face_halo = int(getattr(self.lib, f"{self.name}_FACE_HALO"))
+        self.faces = tuple(_with_face_halo(f, axis, face_halo)   # per axis (0 = y, 1 = x)
+                           for axis, f in enumerate(rotation_faces(n, self.dtype)))
         self.dt_dx = np.array([0.5], self.dtype)
         self.shape = self.ffi.new("size_t[]", [n, n])
         self.halo = self.ffi.new("size_t[]", [HALO, HALO])
