@@ -13,8 +13,9 @@ generated in every target (compiler/emit/boundaries.py), for numpy arrays of ran
 
 Testing a boundary bug: `FLUXLOOM_BOUNDARY_FAULT=wall-mirror` makes every wall fill in
 this module and in `generated_fills` take the cell one further inside (the mirror shifted
-by one cell), `wall-leak` leaves the wall's face velocity as it was (flux crosses the
-wall); verify --boundary wall must then disagree.
+by one cell), `wall-unfilled` leaves the wall's ghost cells at 0 (a halo never filled),
+`wall-leak` leaves the wall's face velocity as it was (flux crosses the wall); verify
+--boundary wall must then disagree wherever the scheme reads what the bug changed.
 """
 from __future__ import annotations
 
@@ -30,7 +31,7 @@ KINDS = ("periodic", "outflow", "wall", "inflow")
 LOW, HIGH = 0, 1
 MAX_RANK = 3
 FAULT_VARIABLE = "FLUXLOOM_BOUNDARY_FAULT"
-FAULTS = ("wall-mirror", "wall-leak")
+FAULTS = ("wall-mirror", "wall-unfilled", "wall-leak")
 
 
 class BoundaryError(LoomError):
@@ -93,7 +94,11 @@ def fill(kind: str, q: np.ndarray, axis: int, halo: int, side: int, values=None)
         block[...] = np.moveaxis(np.broadcast_to(np.asarray(values, q.dtype),
                                                  np.moveaxis(block, 0, axis).shape), axis, 0)
         return
-    view[ghosts] = view[halo + _interior_source(kind, side, d, n, injected_fault())]
+    fault = injected_fault()
+    if kind == "wall" and fault == "wall-unfilled":
+        view[ghosts] = 0
+        return
+    view[ghosts] = view[halo + _interior_source(kind, side, d, n, fault)]
 
 
 def wall_faces(u_face: np.ndarray, axis: int, face_halo: int, side: int) -> None:
@@ -199,7 +204,7 @@ class _Faulty:
         return getattr(self.inner, name)
 
     def wall(self, q, axis, halo, side):
-        if self.fault == "wall-mirror":
+        if self.fault in ("wall-mirror", "wall-unfilled"):
             fill("wall", q, axis, halo, side)      # the runtime's, which carries the bug
         else:
             self.inner.wall(q, axis, halo, side)

@@ -60,8 +60,9 @@ def add_split_options(parser) -> None:
                         help="cell widths of the runs (default uniform; stretched and perturbed "
                              "grids need the width-aware kernels, not built yet)")
     parser.add_argument("--boundary", choices=BOUNDARIES, default="periodic",
-                        help="domain edges (default periodic; wall and open need the boundary "
-                             "fills of the sweep kernels, not built yet)")
+                        help="domain edges: periodic (default), wall (also a wall-bounded "
+                             "basin: mass drift, mirror image) or open (also an inflow/outflow "
+                             "channel: outflow reflection); 2-D cases too with --dims 2")
 
 
 def check_split_options(args) -> tuple[int, str | None]:
@@ -73,10 +74,6 @@ def check_split_options(args) -> tuple[int, str | None]:
         raise LoomError(f"--grid {args.grid}: runs on non-uniform cells need kernels that take "
                         "per-cell widths, which are not built yet; use --grid uniform",
                         file="--grid")
-    if args.boundary != "periodic":
-        raise LoomError(f"--boundary {args.boundary}: wall and open edges need the kernels' "
-                        "boundary fills, which are not built yet; use --boundary periodic",
-                        file="--boundary")
     if dims == 3:
         raise LoomError("--dims 3: the 3-D cases wait for the generated sweep kernels; "
                         "--dims 2 runs now (check --dims 3 analyses the 3-D split scheme)",
@@ -143,6 +140,9 @@ def run(args) -> int:
         from ..multidim.findings import check_split_run
         from ..multidim.cases import GRIDS as CELLS_2D
         check_split_run(CELLS_2D, courant)
+    if args.boundary != "periodic":
+        from ..boundary_cases import boundary_steps
+        boundary_steps(courant)
     scheme = scheme_from_args(args)
     if dims > 1:
         prediction = Prediction.from_document(split_analysis_document(scheme, courant, dims,
@@ -165,6 +165,12 @@ def run(args) -> int:
         from ..multidim.findings import verify_split, with_split
         split = verify_split(kernel, prediction, method, courant, progress=say)
         verification = with_split(verification, split)
+    boundary = None
+    if args.boundary != "periodic":
+        from ..boundary_cases import verify_boundary, with_boundary
+        boundary = verify_boundary(scheme, prediction, args.boundary, args.backend,
+                                   args.precision, courant, dims, method, progress=say)
+        verification = with_boundary(verification, boundary)
     if args.report:
         written = write_verification(verification, Path(args.report), args.force)
         if split is not None:
@@ -179,6 +185,9 @@ def run(args) -> int:
         if split is not None:
             from ..multidim.report import split_json
             document.update(split_json(split))
+        if boundary is not None:
+            from ..boundary_cases import boundary_json
+            document.update(boundary_json(boundary))
         print(json.dumps(document, indent=2))
     else:
         print(verification_text(verification), end="")
@@ -186,4 +195,8 @@ def run(args) -> int:
             from ..multidim.report import split_text
             print()
             print(split_text(split), end="")
+        if boundary is not None:
+            from ..boundary_cases import boundary_text
+            print()
+            print(boundary_text(boundary), end="")
     return 0 if verification.agree else 1
