@@ -76,7 +76,6 @@ def test_check_refuses_bad_dims(capsys, args, message):
 @pytest.mark.parametrize("args, message", [
     (["--grid", "stretched"], "--grid stretched"),
     (["--grid", "perturbed"], "per-cell widths"),
-    (["--boundary", "wall"], "--boundary wall"),
     (["--dims", "3"], "--dims 3"),
     (["--dims", "2", "--ranks", "2"], "--ranks with --dims 2"),
     (["--split", "strang"], "give --dims 2 or 3"),
