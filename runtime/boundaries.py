@@ -235,14 +235,20 @@ class _NumpyFills:
         self.m.halo_inflow(q, axis, halo, side, np.asarray(values, q.dtype))
 
     def faces_wall(self, u_face, axis, face_halo, side):
-        self.m.faces_wall(u_face, axis, face_halo, side)
+        if face_halo != self.m.FACE_HALO:
+            raise BoundaryError(f"the generated faces helper takes FACE_HALO = "
+                                f"{self.m.FACE_HALO} faces beyond each end, not {face_halo}")
+        self.m.faces_wall(u_face, axis, side)
 
 
 class _CFills:
+    """The C helpers through cffi; q's halo along `axis` is the given one, the other axes
+    are passed as interior cells without ghosts (every line is filled either way)."""
+
     backend = "c"
 
-    def __init__(self, ffi, lib, name: str, precision: str):
-        self.ffi, self.lib, self.name = ffi, lib, name
+    def __init__(self, ffi, lib, name: str, precision: str, face_halo: int):
+        self.ffi, self.lib, self.name, self.face_halo = ffi, lib, name, face_halo
         self.ctype = "double[]" if precision == "double" else "float[]"
         self.dtype = np.dtype(np.float64 if precision == "double" else np.float32)
 
@@ -251,9 +257,18 @@ class _CFills:
             raise BoundaryError(f"the C fills take C-contiguous arrays of {self.dtype}")
         return self.ffi.from_buffer(self.ctype, a, require_writable=True)
 
+    def _layout(self, q, axis, halo):
+        shape = list(q.shape)
+        widths = [0] * q.ndim
+        if 0 <= axis < q.ndim:
+            shape[axis] -= 2 * halo
+            widths[axis] = halo
+        return self.ffi.new("size_t[]", shape), self.ffi.new("size_t[]", widths)
+
     def _copy(self, rule, q, axis, halo, side):
-        function = getattr(self.lib, f"{self.name}_halo_{rule}")
-        function(q.ndim, self.ffi.new("size_t[]", q.shape), axis, halo, side, self._array(q))
+        shape, widths = self._layout(q, axis, halo)
+        getattr(self.lib, f"{self.name}_halo_{rule}")(q.ndim, shape, widths, axis, side,
+                                                       self._array(q))
 
     def periodic(self, q, axis, halo, side):
         self._copy("periodic", q, axis, halo, side)
@@ -265,17 +280,22 @@ class _CFills:
         self._copy("wall", q, axis, halo, side)
 
     def inflow(self, q, axis, halo, side, values):
-        shape = list(q.shape)
-        shape[axis] = halo
-        slab = np.ascontiguousarray(np.broadcast_to(np.asarray(values, self.dtype), shape))
+        slab_shape = list(q.shape)
+        slab_shape[axis] = halo
+        slab = np.ascontiguousarray(np.broadcast_to(np.asarray(values, self.dtype), slab_shape))
+        shape, widths = self._layout(q, axis, halo)
         getattr(self.lib, f"{self.name}_halo_inflow")(
-            q.ndim, self.ffi.new("size_t[]", q.shape), axis, halo, side, self._array(q),
+            q.ndim, shape, widths, axis, side, self._array(q),
             self.ffi.from_buffer(self.ctype, slab))
 
     def faces_wall(self, u_face, axis, face_halo, side):
+        if face_halo != self.face_halo:
+            raise BoundaryError(f"the generated faces helper takes FACE_HALO = "
+                                f"{self.face_halo} faces beyond each end, not {face_halo}")
+        shape = list(u_face.shape)
+        shape[axis] -= 1 + 2 * face_halo
         getattr(self.lib, f"{self.name}_faces_wall")(
-            u_face.ndim, self.ffi.new("size_t[]", u_face.shape), axis, face_halo, side,
-            self._array(u_face))
+            u_face.ndim, self.ffi.new("size_t[]", shape), axis, side, self._array(u_face))
 
 
 def generated_fills(scheme, backend: str, precision: str = "double"):
@@ -287,7 +307,8 @@ def generated_fills(scheme, backend: str, precision: str = "double"):
     elif backend == "c":
         from .build import compile_c
         ffi, lib = compile_c(scheme, precision)
-        fills = _CFills(ffi, lib, scheme.name, precision)
+        from fluxloom.compiler.emit.plan import plan_kernel
+        fills = _CFills(ffi, lib, scheme.name, precision, plan_kernel(scheme).face_halo)
     else:
         raise BoundaryError(f"unknown back end '{backend}'")
     fault = injected_fault()

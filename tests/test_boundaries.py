@@ -71,7 +71,7 @@ def test_copy_fills_agree_with_numpy_padding(all_fills, target):
 
 
 @pytest.mark.parametrize("target", ["numpy", "c", "runtime"])
-def test_inflow_and_wall_faces_agree_with_slicing(all_fills, target):
+def test_inflow_agrees_with_slicing(all_fills, target):
     fills = all_fills[target]
     rng = np.random.default_rng(11)
     for shape, axis, halo, n in _cases(rng, 3):
@@ -87,15 +87,22 @@ def test_inflow_and_wall_faces_agree_with_slicing(all_fills, target):
             expected[tuple(index)] = values
             fills.inflow(q, axis, halo, side, values)
             assert np.array_equal(q, expected)
-    for shape, axis, face_halo, n in _cases(rng, 3):
-        if face_halo > 2 or n < 2:
-            continue
+
+@pytest.mark.parametrize("stem, face_halo", [("lw_fct", 2), ("upwind", 0)])
+@pytest.mark.parametrize("backend", ["numpy", "c", "runtime"])
+def test_wall_faces_agree_with_a_hand_built_mirror(stem, face_halo, backend):
+    scheme = load_scheme(EXAMPLES / f"{stem}.loom")
+    fills = RuntimeFills() if backend == "runtime" else generated_fills(scheme, backend)
+    rng = np.random.default_rng(13)
+    for shape, axis, _, n in _cases(rng, 3):
+        shape = list(shape)
+        shape[axis] = n + 1 + 2 * face_halo
         for side in (0, 1):
             u = rng.standard_normal(shape)
             got = u.copy()
             fills.faces_wall(got, axis, face_halo, side)
             moved = np.moveaxis(u.copy(), axis, 0)
-            b = face_halo if side == 0 else len(moved) - 1 - face_halo
+            b = face_halo if side == 0 else face_halo + n
             moved[b] = 0.0
             step = -1 if side == 0 else 1
             for k in range(1, face_halo + 1):
@@ -150,6 +157,12 @@ def _fortran_case(index: int, rank: int, shape, call: str, extra_shape=None) -> 
     return decl, body
 
 
+def _halo_list(rank: int, axis: int, halo: int) -> str:
+    """A Fortran array constructor of ghost widths per axis: `halo` along axis, 1 elsewhere
+    (the other axes' widths are not used by a fill along axis)."""
+    return "(/ " + ", ".join(str(halo) if a == axis else "1" for a in range(rank)) + " /)"
+
+
 def test_fortran_module_fills_agree_with_numpy_padding(tmp_path):
     """The Fortran module's procedures, natural indexing (axis 1 = the first index, arrays in
     Fortran order), against np.pad on the same logical arrays; compiled with gfortran."""
@@ -179,12 +192,14 @@ def test_fortran_module_fills_agree_with_numpy_padding(tmp_path):
                     cut = [slice(None)] * len(shape)
                     cut[axis] = slice(first, first + halo)
                     want[tuple(cut)] = values
-                    call = f"call {call_name}(a{index}, {axis + 1}, {halo}, {side_name}, v{index})"
+                    call = (f"call {call_name}(a{index}, {_halo_list(len(shape), axis, halo)}, "
+                            f"{axis + 1}, {side_name}, v{index})")
                     decl, code = _fortran_case(index, len(shape), shape, call, slab_shape)
                     inputs += [q, values]
                 else:
                     want = _padded_reference(q, axis, halo, n, kind, (side,))
-                    call = f"call {call_name}(a{index}, {axis + 1}, {halo}, {side_name})"
+                    call = (f"call {call_name}(a{index}, {_halo_list(len(shape), axis, halo)}, "
+                            f"{axis + 1}, {side_name})")
                     decl, code = _fortran_case(index, len(shape), shape, call)
                     inputs.append(q)
                 declarations.append(decl)
@@ -204,7 +219,7 @@ def test_fortran_module_fills_agree_with_numpy_padding(tmp_path):
             for k in (1, 2):
                 moved[b + step * k] = -moved[b - step * k]
             side_name = f"{name}_side_{'low' if side == 0 else 'high'}"
-            call = f"call {name}_faces_wall(a{index}, {axis + 1}, {name}_face_halo, {side_name})"
+            call = f"call {name}_faces_wall(a{index}, {axis + 1}, {side_name})"
             decl, code = _fortran_case(index, rank, shape, call)
             declarations.append(decl)
             body.append(code)
