@@ -116,10 +116,11 @@ def compile_source(label: str, source: str, declarations: str, opt: str = "-O2")
     """Compile (or reuse) any C source as a cffi module named by its hash; (ffi, lib)."""
     flags = (*BUILD_FLAGS, *shlex.split(opt))
     name = _hashed_name(label, source, flags)
-    with _lock:
+    cache = cache_dir()  # checked on every call: a broken FLUXLOOM_CACHE is reported even
+    with _lock:          # when this process already holds the kernel
         module = _loaded.get(name)
         if module is None:
-            module = _load_or_build(cache_dir(), name, source, declarations, flags)
+            module = _load_or_build(cache, name, source, declarations, flags)
             _loaded[name] = module
     return module.ffi, module.lib
 

@@ -112,3 +112,14 @@ def test_the_written_numpy_module_runs_on_its_own(tmp_path):
     module.step(n, q_in, out, u, 0.4)
     h = module.HALO
     np.testing.assert_array_equal(out[h:-h], kernel.step(q_in, u, 0.4)[h:-h])
+
+
+def test_a_long_output_path_is_named_in_full(tmp_path, capsys):
+    """A refused overwrite names the file whole, however deep the folder."""
+    deep = tmp_path / ("folder_" * 12) / ("nested_" * 12)
+    deep.mkdir(parents=True)
+    assert build(VANLEER, "-o", deep) == 0
+    (deep / "lw_vanleer.c").write_text("/* mine */\n")
+    capsys.readouterr()
+    assert build(VANLEER, "-o", deep) == 2
+    assert str(deep / "lw_vanleer.c") in capsys.readouterr().err
