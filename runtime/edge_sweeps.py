@@ -18,7 +18,7 @@ import numpy as np
 
 from fluxloom.compiler.emit.plan import plan_kernel
 
-from .boundaries import HIGH, LOW, BoundaryError, Edges, generated_fills
+from .boundaries import HIGH, LOW, BoundaryError, Edges, check_edges, generated_fills
 from .kernel import DTYPES, numpy_module
 
 
@@ -68,6 +68,7 @@ class EdgeSweep:
 
     def __call__(self, axis: int, q: np.ndarray, u_face: np.ndarray, dt_dx: float,
                  edges: Edges, time: float = 0.0) -> np.ndarray:
+        check_edges(edges)
         h = self.halo
         n = q.shape[axis] - 2 * h
         across = tuple(slice(h, s - h) if b != axis else slice(None)

@@ -12,8 +12,14 @@ import pytest
 from conftest import EXAMPLES
 
 from fluxloom.compiler import load_scheme
+from fluxloom.compiler.check import LONGEST_FORTRAN_SUFFIX
 from fluxloom.compiler.emit import c_files
-from fluxloom.runtime.boundaries import RuntimeFills, generated_fills
+from fluxloom.compiler.emit.boundaries import FORTRAN_SUFFIXES
+from fluxloom.runtime.boundaries import (BoundaryError, Edge, RuntimeFills, generated_fills,
+                                         line_fill)
+from fluxloom.runtime.edge_sweeps import EdgeSweep, extend_faces
+from fluxloom.runtime.kernel import load_kernel
+from fluxloom.runtime.sweeps import LineSweep
 
 PAD_MODES = {"periodic": "wrap", "outflow": "edge", "wall": "symmetric"}
 SCHEME = EXAMPLES / "lw_fct.loom"     # FACE_HALO 2: the faces helper mirrors faces beyond
@@ -254,3 +260,36 @@ def test_generated_c_with_fills_compiles_warning_free(tmp_path):
         subprocess.run([gcc, "-std=c99", "-O2", "-Wall", "-Wextra", "-Wpedantic", "-Wshadow",
                         "-Wconversion", "-Werror", "-c", f"{scheme.name}.c"], cwd=tmp_path,
                        check=True, capture_output=True, text=True)
+
+
+def test_fortran_names_fit_every_scheme_name_the_front_end_accepts():
+    assert all(len(suffix) <= len(LONGEST_FORTRAN_SUFFIX) for suffix in FORTRAN_SUFFIXES)
+
+
+def test_fortran_module_compiles_in_single_precision(tmp_path):
+    scheme = load_scheme(SCHEME)
+    (tmp_path / "mod.f90").write_text(c_files(scheme, "float")[f"{scheme.name}_mod.f90"])
+    subprocess.run([shutil.which("gfortran"), "-std=f2003", "-Wall", "-Werror", "-c", "mod.f90"],
+                   cwd=tmp_path, check=True, capture_output=True, text=True)
+
+
+def test_line_fill_gives_line_sweep_the_same_edges():
+    """LineSweep with the runtime's wall/inflow/outflow fill equals EdgeSweep with the
+    generated ones (a single-stage kernel: LineSweep's fill then holds at every stage)."""
+    scheme = load_scheme(EXAMPLES / "lw_vanleer.loom")
+    edges = ((Edge("inflow", 0.5), Edge("outflow")), (Edge("wall"), Edge("wall")))
+    rng = np.random.default_rng(3)
+    interior = rng.random((12, 9))
+    u = np.full((13, 9), 0.7)
+    v = rng.uniform(-0.5, 0.5, (12, 10))
+    edge_sweep = EdgeSweep(scheme, "numpy")
+    v_walled = extend_faces(edge_sweep.fills, v, 1, 0, edges)
+    line_sweep = LineSweep(load_kernel(scheme, "numpy"), line_fill(lambda axis: edges[axis]))
+    expected = line_sweep(1, line_sweep(0, interior, u, 0.6), v_walled, 0.6)
+    q = edge_sweep.padded(interior)
+    edge_sweep(0, q, u, 0.6, edges)
+    edge_sweep(1, q, v_walled, 0.6, edges)
+    assert np.array_equal(edge_sweep.interior(q), expected)
+    assert v_walled[:, 0].max() == 0 == v_walled[:, -1].min()
+    with pytest.raises(BoundaryError, match="periodic partner"):
+        edge_sweep(0, q, u, 0.6, ((Edge("periodic"), Edge("wall")), edges[1]))
