@@ -19,7 +19,6 @@ from ..constants import nearest, shortest_text
 from ..diagnostics import LoomError
 from ..ir import Scheme
 from ..symbols import C, R, LimiterApplication, limiter_name_of, offset_of, q
-from .boundaries import boundaries
 from .environment import render
 from .limited import FLOOR_EXPONENT, LimiterFormCall
 from .plan import FaceProgram, KernelPlan, banner_lines, plan_kernel
@@ -420,7 +419,6 @@ def c_context(scheme: Scheme, precision: str = "double", verdicts: bool = True) 
     helpers = sorted(printer.helpers_used)
     return {
         "plan": plan,
-        "boundaries": boundaries(),
         "name": plan.name,
         "real": printer.ctype,
         "precision": precision,

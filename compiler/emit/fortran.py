@@ -15,7 +15,6 @@ from ..constants import nearest, shortest_text
 from ..diagnostics import LoomError
 from ..ir import Scheme
 from .c import check_precision
-from .boundaries import boundaries
 from .environment import render
 from .plan import banner_lines, plan_kernel
 
@@ -90,6 +89,5 @@ def fortran_source(scheme: Scheme, precision: str = "double",
     params = [{"name": fortran_identifier(f"{name}_param_{p}"), "value": printer.doprint(v)}
               for p, v in plan.params]
     text = render("fortran_module.f90.j2", name=name, plan=plan, kind=kind, params=params,
-                  boundaries=boundaries(),
                   banner=comment_lines(banner_lines(scheme, precision, verdicts)))
     return {f"{name}_mod.f90": text}

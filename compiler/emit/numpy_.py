@@ -22,7 +22,6 @@ from ..ir import Scheme
 from ..symbols import C, R, LimiterApplication, limiter_name_of, offset_of
 from ..time_methods.low_storage import StageUpdate
 from . import environment
-from .boundaries import boundaries
 from .limited import FLOOR_EXPONENT, LimiterFormCall, Quotient
 from .plan import FaceProgram, banner_lines, plan_kernel
 
@@ -418,5 +417,4 @@ def numpy_source(scheme: Scheme, precision: str = "double", banner=None) -> str:
     banner: the header lines; by default the shared banner with the analysis
     verdicts (the run-time loader passes a shorter one to skip the analysis).
     """
-    return environment.render("numpy_kernel.py.j2", m=numpy_module(scheme, precision, banner),
-                              boundaries=boundaries())
+    return environment.render("numpy_kernel.py.j2", m=numpy_module(scheme, precision, banner))
