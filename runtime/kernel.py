@@ -65,7 +65,7 @@ class Kernel:
     """
 
     def __init__(self, name, backend, precision, halo, face_halo, stages, workspace_size,
-                 run_step):
+                 run_step, run_sweep=None, sweep_widths=False, sweep_thickness=False):
         self.name = name
         self.backend = backend
         self.precision = precision
@@ -75,6 +75,10 @@ class Kernel:
         self.stages = stages
         self._workspace_size = workspace_size
         self._run_step = run_step
+        self._run_sweep = run_sweep
+        self.sweep_widths = sweep_widths          # sweep() takes per-cell dt/dx
+        self.sweep_thickness = sweep_thickness    # sweep() takes layer thicknesses
+        self.threads = lambda: 1           # threads a sweep may use (C with OpenMP: more)
         self._work: dict[int, np.ndarray] = {}
 
     def __repr__(self) -> str:
@@ -125,6 +129,15 @@ class Kernel:
         self._run_step(n, q, out, u_face, dt_dx, self._workspace(n))
         return out
 
+    def sweep(self, q, u_face, dt_dx, axis, halo=None, out=None, h_old=None, h_new=None):
+        """Every line of an array of rank 1 to 3 along `axis`: the generated NAME_sweep.
+
+        See runtime/array_sweep.py for the arguments; returns `out` (a copy of q
+        with the interior of every interior line advanced, when not given)."""
+        from .array_sweep import run_sweep
+
+        return run_sweep(self, q, u_face, dt_dx, axis, halo, out, h_old, h_new)
+
     def _check_dt_dx(self, dt_dx) -> float:
         try:
             value = float(dt_dx)
@@ -168,10 +181,12 @@ class Kernel:
 
 
 def load_kernel(scheme: Scheme, backend: str = "numpy", precision: str = "double",
-                opt: str | None = None) -> Kernel:
+                opt: str | None = None, openmp: bool = False) -> Kernel:
     """The scheme's kernel for one back end and precision (generated and cached on first use).
 
     opt (C only) is the optimisation flag, e.g. "-O2" or "-O3"; None keeps the build default.
+    openmp (C only): build with OpenMP where the compiler supports it, so sweeps share
+    their lines among OMP_NUM_THREADS threads (`kernel.threads()` says how many).
     """
     if backend not in BACKENDS:
         raise KernelError(f"unknown back end '{backend}'; choose one of {', '.join(BACKENDS)}")
@@ -180,14 +195,21 @@ def load_kernel(scheme: Scheme, backend: str = "numpy", precision: str = "double
     if backend == "numpy":
         module = numpy_module(scheme, precision)
         return Kernel(scheme.name, "numpy", precision, module.HALO, module.FACE_HALO,
-                      module.STAGES, module.workspace_size, module.step)
-    return _c_kernel(scheme, precision, opt)
+                      module.STAGES, module.workspace_size, module.step, module.sweep,
+                      module.SWEEP_WIDTHS, module.SWEEP_THICKNESS)
+    return _c_kernel(scheme, precision, opt, openmp)
 
 
-def _c_kernel(scheme: Scheme, precision: str, opt: str | None) -> Kernel:
-    from .build import compile_c
+def _c_kernel(scheme: Scheme, precision: str, opt: str | None, openmp: bool = False) -> Kernel:
+    from .build import compile_c, openmp_supported
 
-    ffi, lib = compile_c(scheme, precision) if opt is None else compile_c(scheme, precision, opt)
+    if openmp and not openmp_supported():
+        import warnings
+        warnings.warn("the C compiler does not build with -fopenmp; the kernel's sweeps "
+                      "run on one thread", RuntimeWarning, stacklevel=3)
+        openmp = False
+    flags = {} if opt is None else {"opt": opt}
+    ffi, lib = compile_c(scheme, precision, openmp=openmp, **flags)
     name = scheme.name
     c_step = getattr(lib, f"{name}_step")
     c_workspace = getattr(lib, f"{name}_workspace_size")
@@ -203,7 +225,14 @@ def _c_kernel(scheme: Scheme, precision: str, opt: str | None) -> Kernel:
                ffi.from_buffer(ctype, u_face), dt_dx,
                null if work is None else ffi.from_buffer(ctype, work, require_writable=True))
 
-    return Kernel(name, "c", precision, halo, face_halo, stages, c_workspace, run_step)
+    from .array_sweep import c_sweep_runner
+
+    kernel = Kernel(name, "c", precision, halo, face_halo, stages, c_workspace, run_step,
+                    c_sweep_runner(ffi, lib, name, precision),
+                    bool(getattr(lib, f"{name}_SWEEP_WIDTHS")),
+                    bool(getattr(lib, f"{name}_SWEEP_THICKNESS")))
+    kernel.threads = getattr(lib, f"{name}_sweep_threads")
+    return kernel
 
 
 # ---- periodic domains -------------------------------------------------------------

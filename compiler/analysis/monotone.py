@@ -104,7 +104,7 @@ NUMERIC_STEP = 1e-4
 def _numeric_monotone(values) -> CourantSet:
     import numpy
 
-    funcs = [sympy.lambdify(C, v, modules="numpy") for v in values]
+    funcs = [sympy.lambdify(C, v.evalf(), modules="numpy") for v in values]  # floats, not big ints
     cs = numpy.arange(1, 80001) * NUMERIC_STEP
     ok = numpy.ones_like(cs, dtype=bool)
     for f in funcs:

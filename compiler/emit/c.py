@@ -22,6 +22,7 @@ from ..symbols import C, R, LimiterApplication, limiter_name_of, offset_of, q
 from .environment import render
 from .limited import FLOOR_EXPONENT, LimiterFormCall
 from .plan import FaceProgram, KernelPlan, banner_lines, plan_kernel
+from .sweep import c_sweep_context
 
 PRECISIONS = {"double": float64, "float": float32}
 FLUX_BLOCK = 128
@@ -375,7 +376,8 @@ def scale_words(printer: KernelPrinter) -> dict[str, str]:
     }
 
 
-def c_context(scheme: Scheme, precision: str = "double", verdicts: bool = True) -> dict:
+def c_context(scheme: Scheme, precision: str = "double", verdicts: bool = True,
+              openmp: bool = False) -> dict:
     """Everything the C templates need, printed."""
     plan = plan_kernel(scheme)
     printer = KernelPrinter(plan, precision)
@@ -453,15 +455,18 @@ def c_context(scheme: Scheme, precision: str = "double", verdicts: bool = True) 
         # continuation lines of the two long prototypes line up under "("
         "stage_indent": " " * len(f"void {plan.name}_stage("),
         "step_indent": " " * len(f"void {plan.name}_step("),
+        **c_sweep_context(plan, fluxes, openmp),
     }
 
 
-def c_sources(scheme: Scheme, precision: str = "double", verdicts: bool = True) -> dict[str, str]:
+def c_sources(scheme: Scheme, precision: str = "double", verdicts: bool = True,
+              openmp: bool = False) -> dict[str, str]:
     """{'NAME.h': header text, 'NAME.c': kernel text} for scheme at precision.
 
-    verdicts=False leaves the analysis out of the header comment.
+    verdicts=False leaves the analysis out of the header comment; openmp=True makes the
+    C file require OpenMP (its sweeps are threaded).
     """
-    context = c_context(scheme, precision, verdicts)
+    context = c_context(scheme, precision, verdicts, openmp)
     return {
         f"{scheme.name}.h": render("c_header.h.j2", **context),
         f"{scheme.name}.c": render("c_kernel.c.j2", **context),

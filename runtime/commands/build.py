@@ -29,6 +29,9 @@ def register(sub) -> None:
     parser.add_argument("--precision", choices=PRECISIONS, default="double",
                         help="real type fixed at generation (default: double)")
     add_set_option(parser)
+    parser.add_argument("--openmp", action="store_true",
+                        help="C target: the kernel requires OpenMP and threads its sweeps "
+                             "across lines (compile and link NAME.c with -fopenmp)")
     parser.add_argument("-o", "--output", metavar="DIR", required=True,
                         help="directory to write into (created if missing)")
     parser.add_argument("--force", action="store_true",
@@ -36,11 +39,11 @@ def register(sub) -> None:
     parser.set_defaults(run=run)
 
 
-def generated_files(scheme, target: str, precision: str) -> dict[str, str]:
+def generated_files(scheme, target: str, precision: str, openmp: bool = False) -> dict[str, str]:
     """{file name: text} for one target, in a fixed order."""
     files: dict[str, str] = {}
     if target in ("c", "all"):
-        files.update(c_files(scheme, precision))
+        files.update(c_files(scheme, precision, openmp=openmp))
     if target in ("numpy", "all"):
         files[f"{scheme.name}.py"] = numpy_source(scheme, precision)
     return dict(sorted(files.items()))
@@ -76,7 +79,10 @@ def plan_writes(directory: Path, files: dict[str, str], force: bool) -> list[tup
 
 def run(args) -> int:
     scheme = scheme_from_args(args)
-    files = generated_files(scheme, args.target, args.precision)
+    if args.openmp and args.target == "numpy":
+        raise LoomError("--openmp threads the C kernel's sweeps; use it with --target c or all",
+                        file="--openmp")
+    files = generated_files(scheme, args.target, args.precision, args.openmp)
     directory = Path(args.output)
     plan = plan_writes(directory, files, args.force)
     try:

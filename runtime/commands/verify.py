@@ -57,8 +57,9 @@ BOUNDARIES = ("periodic", "wall", "open")
 def add_split_options(parser) -> None:
     add_split_option(parser)
     parser.add_argument("--grid", choices=GRIDS, default="uniform",
-                        help="cell widths of the runs (default uniform; stretched and perturbed "
-                             "grids need the width-aware kernels, not built yet)")
+                        help="also measure convergence on non-uniform cells (smoothly "
+                             "stretched, a = 0.2 and 0.4, or 10%% random widths) beside the "
+                             "uniform grid, through the sweep's per-cell dt/dx (default uniform)")
     parser.add_argument("--boundary", choices=BOUNDARIES, default="periodic",
                         help="domain edges: periodic (default), wall (also a wall-bounded "
                              "basin: mass drift, mirror image) or open (also an inflow/outflow "
@@ -70,17 +71,17 @@ def check_split_options(args) -> tuple[int, str | None]:
     from fluxloom.compiler import LoomError
 
     dims, method = parse_dims_split(args.dims, args.split)
-    if args.grid != "uniform":
-        raise LoomError(f"--grid {args.grid}: runs on non-uniform cells need kernels that take "
-                        "per-cell widths, which are not built yet; use --grid uniform",
+    if args.grid != "uniform" and dims > 1:
+        raise LoomError(f"--grid {args.grid} with --dims {dims}: the 2-D cases run on uniform "
+                        "cells; --grid measures 1-D convergence on non-uniform cells",
                         file="--grid")
     if dims == 3:
-        raise LoomError("--dims 3: the 3-D cases wait for the generated sweep kernels; "
+        raise LoomError("--dims 3: there are no 3-D cases yet (the sweeps take rank-3 arrays); "
                         "--dims 2 runs now (check --dims 3 analyses the 3-D split scheme)",
                         file="--dims")
     if dims > 1 and args.ranks is not None:
-        raise LoomError(f"--ranks with --dims {dims}: decomposed multi-dimensional runs wait "
-                        "for the generated sweep kernels; use --ranks with --dims 1",
+        raise LoomError(f"--ranks with --dims {dims}: decomposed multi-dimensional runs are "
+                        "not built yet; use --ranks with --dims 1",
                         file="--ranks")
     return dims, method
 
@@ -150,6 +151,9 @@ def run(args) -> int:
     else:
         prediction = predict(scheme, courant)
     kernel = load_for_measuring(scheme, args.backend, args.precision)
+    if args.grid != "uniform":
+        from ..grid_findings import check_grid_kernel
+        check_grid_kernel(kernel, args.grid)
     say = progress_printer(sys.stderr.isatty() and not args.json, f"verify {scheme.name}")
     verification = verify_kernel(kernel, prediction, options, progress=say)
     decomposed = None
@@ -165,6 +169,11 @@ def run(args) -> int:
         from ..multidim.findings import verify_split, with_split
         split = verify_split(kernel, prediction, method, courant, progress=say)
         verification = with_split(verification, split)
+    grids = None
+    if args.grid != "uniform":
+        from ..grid_findings import verify_grids, with_grids
+        grids = verify_grids(kernel, prediction, args.grid, courant, progress=say)
+        verification = with_grids(verification, grids)
     boundary = None
     if args.boundary != "periodic":
         from ..boundary_cases import verify_boundary, with_boundary
@@ -185,6 +194,8 @@ def run(args) -> int:
         if split is not None:
             from ..multidim.report import split_json
             document.update(split_json(split))
+        if grids is not None:
+            document["grids"] = grids.to_json()
         if boundary is not None:
             from ..boundary_cases import boundary_json
             document.update(boundary_json(boundary))
@@ -195,6 +206,10 @@ def run(args) -> int:
             from ..multidim.report import split_text
             print()
             print(split_text(split), end="")
+        if grids is not None:
+            from ..grid_findings import grids_text
+            print()
+            print(grids_text(grids), end="")
         if boundary is not None:
             from ..boundary_cases import boundary_text
             print()
