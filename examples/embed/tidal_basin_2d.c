@@ -14,11 +14,9 @@
  * (KERNEL(faces_wall)). One step is Strang split: x for dt/2, y for dt, x for dt/2,
  * the ghost cells of the swept axis filled before every sweep.
  *
- * The sweeps call the 1-D step once per line and tracer (a scratch line per call):
- * `sweep_axis` below is the one place to change for a kernel that advances every
- * line of every tracer in one call. The grid is uniform here (STRETCH 0): the 1-D
- * step takes one dt/dx per line; a kernel with per-cell widths takes the stretched
- * grid that `STRETCH` describes (finer cells at the mouth).
+ * The grid is stretched along the basin (finer cells at the mouth, STRETCH). Each
+ * sweep is one call of the generated KERNEL(sweep): every line of all three tracers,
+ * per-cell dt/dx along x (a face's Courant number from its upwind cell).
  *
  * Build with the Makefile (SCHEME names the generated kernel, a `time euler` one:
  * the fills before each sweep then hold at every stage).
@@ -44,7 +42,7 @@ static const double WIDTH = 5000.0;        /* m */
 static const double TIDE = 44712.0;        /* s, 12.42 h */
 static const double MOUTH_CURRENT = 0.6;   /* m/s, the fastest tidal current at the mouth */
 static const double EDDY = 0.15;           /* m/s, the residual eddy's scale */
-static const double STRETCH = 0.0;         /* x(s) = L (s - STRETCH sin(pi s) / pi) */
+static const double STRETCH = 0.6;         /* x(s) = L (s - STRETCH sin(pi s) / pi) */
 static const double SEA[TRACERS] = {35.0, 0.0, 1.0};
 static const double pi = 3.14159265358979323846;
 
@@ -55,7 +53,8 @@ struct basin {
     double xf[NX + 1], dx[NX], dy;  /* x faces and widths; y is uniform */
     real *q, *next;
     real *u, *v;                    /* u[j * (NX + 1) + f]: x faces; v[f * NX + i]: y faces */
-    real *line_in, *line_out, *line_u, *work;
+    real dt_dx[NX + 2];             /* dt over the widths of x cells -1 .. NX */
+    real *work;
 };
 
 /* The tidal exchange (in along one shore, out along the other, nothing at the head)
@@ -118,33 +117,25 @@ static void fill_edges(struct basin *b, int axis)
 }
 
 /* Every line of every tracer along `axis` for time step dt: b->next from b->q (interior
- * cells of interior lines), one 1-D step per line (through a scratch line along y). */
+ * cells of interior lines), in one call. */
 static void sweep_axis(struct basin *b, int axis, double dt)
 {
-    const size_t h = b->halo;
-    for (size_t t = 0; t < TRACERS; ++t) {
-        if (axis == 1) {        /* x: the lines are contiguous */
-            const real dt_dx = (real)(dt / b->dx[0]);
-            for (size_t j = 0; j < NY; ++j) {
-                const size_t row = (t * b->ey + h + j) * b->ex;
-                KERNEL(step)(NX, b->q + row, b->next + row, b->u + j * (NX + 1), dt_dx, b->work);
-            }
-            continue;
+    const size_t shape[2] = {NY, NX}, halo[2] = {b->halo, b->halo};
+    int status;
+    if (axis == 1) {
+        for (size_t c = 0; c < NX + 2; ++c) {   /* the ghost cells take the end cells' widths */
+            b->dt_dx[c] = (real)(dt / b->dx[c == 0 ? 0 : c > NX ? NX - 1 : c - 1]);
         }
+        status = KERNEL(sweep)(2, shape, halo, 1, TRACERS, b->q, b->next, b->u, b->dt_dx, 1,
+                               NULL, NULL, b->work);
+    } else {
         const real dt_dy = (real)(dt / b->dy);
-        for (size_t i = 0; i < NX; ++i) {
-            const size_t column = t * b->ey * b->ex + h + i;
-            for (size_t k = 0; k < NY + 2 * h; ++k) {
-                b->line_in[k] = b->q[column + k * b->ex];
-            }
-            for (size_t f = 0; f <= NY; ++f) {
-                b->line_u[f] = b->v[f * NX + i];
-            }
-            KERNEL(step)(NY, b->line_in, b->line_out, b->line_u, dt_dy, b->work);
-            for (size_t k = h; k < h + NY; ++k) {
-                b->next[column + k * b->ex] = b->line_out[k];
-            }
-        }
+        status = KERNEL(sweep)(2, shape, halo, 0, TRACERS, b->q, b->next, b->v, &dt_dy, 0,
+                               NULL, NULL, b->work);
+    }
+    if (status != 0) {
+        fprintf(stderr, "the sweep refused its arguments (status %d)\n", status);
+        exit(1);
     }
 }
 
@@ -190,13 +181,9 @@ int main(int argc, char **argv)
     b.next = calloc(cells, sizeof *b.next);
     b.u = calloc(NY * (NX + 1), sizeof *b.u);
     b.v = calloc((NY + 1) * NX, sizeof *b.v);
-    b.line_in = calloc(NY + 2 * b.halo, sizeof *b.line_in);
-    b.line_out = calloc(NY + 2 * b.halo, sizeof *b.line_out);
-    b.line_u = calloc(NY + 1, sizeof *b.line_u);
-    b.work = calloc(KERNEL(workspace_size)(NX > NY ? NX : NY), sizeof *b.work);
-    if (!b.q || !b.next || !b.u || !b.v || !b.line_in || !b.line_out || !b.line_u || !b.work
-        || KERNEL(FACE_HALO) != 0 || KERNEL(STAGES) != 1 || KERNEL(HALO) > 8) {
-        fprintf(stderr, "out of memory, or not a single-stage kernel without flux correction\n");
+    b.work = calloc(KERNEL(sweep_workspace_size)(NX > NY ? NX : NY) + 1, sizeof *b.work);
+    if (!b.q || !b.next || !b.u || !b.v || !b.work || !KERNEL(SWEEP_WIDTHS) || KERNEL(HALO) > 8) {
+        fprintf(stderr, "out of memory, or a kernel whose sweep takes no per-cell widths\n");
         return 1;
     }
     for (size_t t = 0; t < TRACERS; ++t) {
@@ -251,9 +238,6 @@ int main(int argc, char **argv)
     free(b.next);
     free(b.u);
     free(b.v);
-    free(b.line_in);
-    free(b.line_out);
-    free(b.line_u);
     free(b.work);
     return 0;
 }

@@ -7,9 +7,8 @@
 ! the sea's values where the water comes in and zero gradient where it goes out) and
 ! the wall faces zeroed.
 !
-! `sweep_axis` calls the 1-D step once per line and tracer: the one place to change for
-! a kernel that advances every line of every tracer in one call. The grid is uniform
-! (stretch = 0): the 1-D step takes one dt/dx per line.
+! The grid is stretched along the basin (finer cells at the mouth); each sweep is one
+! call of tidewater_sweep: every line of all three tracers, per-cell dt/dx along x.
 program tidal_basin_2d
   use, intrinsic :: iso_c_binding, only: c_double, c_size_t
   use tidewater_mod
@@ -20,14 +19,15 @@ program tidal_basin_2d
   integer, parameter :: tracers = 3, nx = 80, ny = 20, steps_per_tide = 400
   real(c_double), parameter :: length = 20000.0_c_double, width = 5000.0_c_double
   real(c_double), parameter :: tide = 44712.0_c_double, mouth_current = 0.6_c_double
-  real(c_double), parameter :: eddy = 0.15_c_double, stretch = 0.0_c_double
+  real(c_double), parameter :: eddy = 0.15_c_double, stretch = 0.6_c_double
   real(c_double), parameter :: pi = 3.14159265358979323846_c_double
   real(c_double), parameter :: sea(tracers) = [35.0_c_double, 0.0_c_double, 1.0_c_double]
 
   real(wp) :: q(1 - h:nx + h, 1 - h:ny + h, tracers), next(1 - h:nx + h, 1 - h:ny + h, tracers)
   real(wp) :: u(0:nx, ny), v(nx, 0:ny)
   real(wp) :: inflow(h, tracers)
-  real(wp), allocatable :: work(:), line_in(:), line_out(:), line_u(:)
+  real(wp), allocatable :: work(:)
+  real(wp) :: dt_dx(0:nx + 1)
   real(c_double) :: xf(0:nx), dx(nx), dy, dt, t, x, y, sx, initial(tracers)
   integer :: i, j, k, s, steps, tr, axes(3)
   real(c_double) :: fractions(3)
@@ -39,9 +39,7 @@ program tidal_basin_2d
     xf(i) = length * (sx - stretch * sin(pi * sx) / pi)
   end do
   dx = xf(1:nx) - xf(0:nx - 1)
-  allocate (work(tidewater_workspace_size(int(max(nx, ny), c_size_t))))
-  allocate (line_in(1 - h:max(nx, ny) + h), line_out(1 - h:max(nx, ny) + h))
-  allocate (line_u(0:max(nx, ny)))
+  allocate (work(tidewater_sweep_work(int(max(nx, ny), c_size_t)) + 1))
   do tr = 1, tracers
     inflow(:, tr) = real(sea(tr), wp)
   end do
@@ -158,34 +156,21 @@ contains
     end if
   end subroutine fill_edges
 
-  ! every line of every tracer along axis for time step dtp: next from q
+  ! every line of every tracer along axis for time step dtp: next from q, in one call
   subroutine sweep_axis(axis, dtp)
     integer, intent(in) :: axis
     real(c_double), intent(in) :: dtp
-    integer :: line, trc, n
+    integer :: status, c
     if (axis == 1) then
-      n = nx
-      do trc = 1, tracers
-        do line = 1, ny
-          line_in(1 - h:nx + h) = q(:, line, trc)
-          line_u(0:nx) = u(:, line)
-          call tidewater_step(int(n, c_size_t), line_in, line_out, line_u, &
-              real(dtp / dx(1), wp), work)
-          next(1:nx, line, trc) = line_out(1:nx)
-        end do
+      do c = 0, nx + 1          ! the ghost cells take the end cells' widths
+        dt_dx(c) = real(dtp / dx(min(max(c, 1), nx)), wp)
       end do
+      status = tidewater_sweep([nx, ny], [h, h], 1, tracers, q, next, u, dt_dx, work)
     else
-      n = ny
-      do trc = 1, tracers
-        do line = 1, nx
-          line_in(1 - h:ny + h) = q(line, :, trc)
-          line_u(0:ny) = v(line, :)
-          call tidewater_step(int(n, c_size_t), line_in, line_out, line_u, &
-              real(dtp / dy, wp), work)
-          next(line, 1:ny, trc) = line_out(1:ny)
-        end do
-      end do
+      status = tidewater_sweep([nx, ny], [h, h], 2, tracers, q, next, v, &
+          [real(dtp / dy, wp)], work)
     end if
+    if (status /= 0) stop 'the sweep refused its arguments'
   end subroutine sweep_axis
 
   real(c_double) function total(trc)
