@@ -11,14 +11,20 @@ import functools
 
 import jinja2
 
+from .boundaries import boundaries
+
 TEMPLATE_PACKAGE = "fluxloom.compiler.emit"
 TEMPLATE_FOLDER = "templates"
 
 
 @functools.lru_cache(maxsize=None)
 def template_environment() -> jinja2.Environment:
-    """Return the shared Environment loading ``compiler/emit/templates/``."""
-    return jinja2.Environment(
+    """Return the shared Environment loading ``compiler/emit/templates/``.
+
+    `boundaries` (the halo fill helpers' rules, compiler/emit/boundaries.py) is a
+    global: the same data for every target and scheme, read by the boundaries_*
+    templates each kernel template includes."""
+    environment = jinja2.Environment(
         loader=jinja2.PackageLoader(TEMPLATE_PACKAGE, TEMPLATE_FOLDER),
         undefined=jinja2.StrictUndefined,
         trim_blocks=True,
@@ -26,6 +32,8 @@ def template_environment() -> jinja2.Environment:
         keep_trailing_newline=True,
         autoescape=False,
     )
+    environment.globals["boundaries"] = boundaries()
+    return environment
 
 
 def render(template_name: str, **context: object) -> str:

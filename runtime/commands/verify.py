@@ -61,8 +61,9 @@ def add_split_options(parser) -> None:
                              "stretched, a = 0.2 and 0.4, or 10%% random widths) beside the "
                              "uniform grid, through the sweep's per-cell dt/dx (default uniform)")
     parser.add_argument("--boundary", choices=BOUNDARIES, default="periodic",
-                        help="domain edges (default periodic; wall and open need the boundary "
-                             "fills of the sweep kernels, not built yet)")
+                        help="domain edges: periodic (default), wall (also a wall-bounded "
+                             "basin: mass drift, mirror image) or open (also an inflow/outflow "
+                             "channel: outflow reflection); 2-D cases too with --dims 2")
 
 
 def check_split_options(args) -> tuple[int, str | None]:
@@ -74,10 +75,6 @@ def check_split_options(args) -> tuple[int, str | None]:
         raise LoomError(f"--grid {args.grid} with --dims {dims}: the 2-D cases run on uniform "
                         "cells; --grid measures 1-D convergence on non-uniform cells",
                         file="--grid")
-    if args.boundary != "periodic":
-        raise LoomError(f"--boundary {args.boundary}: wall and open edges need the kernels' "
-                        "boundary fills, which are not built yet; use --boundary periodic",
-                        file="--boundary")
     if dims == 3:
         raise LoomError("--dims 3: there are no 3-D cases yet (the sweeps take rank-3 arrays); "
                         "--dims 2 runs now (check --dims 3 analyses the 3-D split scheme)",
@@ -144,6 +141,9 @@ def run(args) -> int:
         from ..multidim.findings import check_split_run
         from ..multidim.cases import GRIDS as CELLS_2D
         check_split_run(CELLS_2D, courant)
+    if args.boundary != "periodic":
+        from ..boundary_cases import boundary_steps
+        boundary_steps(courant)
     scheme = scheme_from_args(args)
     if dims > 1:
         prediction = Prediction.from_document(split_analysis_document(scheme, courant, dims,
@@ -174,6 +174,12 @@ def run(args) -> int:
         from ..grid_findings import verify_grids, with_grids
         grids = verify_grids(kernel, prediction, args.grid, courant, progress=say)
         verification = with_grids(verification, grids)
+    boundary = None
+    if args.boundary != "periodic":
+        from ..boundary_cases import verify_boundary, with_boundary
+        boundary = verify_boundary(scheme, prediction, args.boundary, args.backend,
+                                   args.precision, courant, dims, method, progress=say)
+        verification = with_boundary(verification, boundary)
     if args.report:
         written = write_verification(verification, Path(args.report), args.force)
         if split is not None:
@@ -190,6 +196,9 @@ def run(args) -> int:
             document.update(split_json(split))
         if grids is not None:
             document["grids"] = grids.to_json()
+        if boundary is not None:
+            from ..boundary_cases import boundary_json
+            document.update(boundary_json(boundary))
         print(json.dumps(document, indent=2))
     else:
         print(verification_text(verification), end="")
@@ -201,4 +210,8 @@ def run(args) -> int:
             from ..grid_findings import grids_text
             print()
             print(grids_text(grids), end="")
+        if boundary is not None:
+            from ..boundary_cases import boundary_text
+            print()
+            print(boundary_text(boundary), end="")
     return 0 if verification.agree else 1
