@@ -105,7 +105,7 @@ def compile_c(scheme: Scheme, precision: str = "double", opt: str = "-O2"):
 
     opt holds the optimisation flags, split like a shell would ("-O3 -march=native").
     """
-    sources = c_sources(scheme, precision, verdicts=False)
+    sources = c_sources(scheme, precision)
     header, kernel = sources[f"{scheme.name}.h"], sources[f"{scheme.name}.c"]
     # One translation unit: the header text stands in for the #include.
     source = kernel.replace(f'#include "{scheme.name}.h"', header, 1)

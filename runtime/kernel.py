@@ -15,11 +15,14 @@ import types
 import numpy as np
 
 from fluxloom.compiler import LoomError
+from fluxloom.compiler.emit import targets
 from fluxloom.compiler.emit.numpy_ import numpy_source
-from fluxloom.compiler.emit.plan import banner_lines, plan_kernel
+from fluxloom.compiler.emit.plan import plan_kernel
 from fluxloom.compiler.ir import Scheme
+from fluxloom.compiler.keyed import fingerprint_cache
 
-BACKENDS = ("numpy", "c")
+BACKENDS = targets.BACKENDS
+"""The targets that run in-process (compiler/emit/targets.py: `runs`)."""
 DTYPES = {"double": np.dtype(np.float64), "float": np.dtype(np.float32)}
 C_TYPES = {"double": "double[]", "float": "float[]"}
 
@@ -33,25 +36,25 @@ class KernelError(LoomError):
 
 # ---- numpy modules, generated once per scheme fingerprint and precision ------
 
-_MODULES: dict[tuple[str, str], types.ModuleType] = {}
 _MODULES_LOCK = threading.Lock()
 
 
 def numpy_module(scheme: Scheme, precision: str = "double") -> types.ModuleType:
     """The generated numpy module, executed from its source once and cached."""
-    key = (scheme.fingerprint, precision)
-    with _MODULES_LOCK:
-        module = _MODULES.get(key)
-        if module is None:
-            # The analysis verdicts only matter in files written for people (`build`).
-            source = numpy_source(scheme, precision, banner_lines(scheme, precision, verdicts=False))
-            filename = f"<fluxloom {scheme.name} {precision} {scheme.fingerprint}>"
-            # Tracebacks through generated code then show its lines.
-            linecache.cache[filename] = (len(source), None, source.splitlines(True), filename)
-            module = types.ModuleType(f"fluxloom_generated_{scheme.name}_{precision}")
-            module.__file__ = filename
-            exec(compile(source, filename, "exec"), module.__dict__)
-            _MODULES[key] = module
+    with _MODULES_LOCK:  # one execution per key even when threads race
+        return _numpy_module(scheme, precision)
+
+
+@fingerprint_cache(maxsize=None)
+def _numpy_module(scheme: Scheme, precision: str) -> types.ModuleType:
+    # No verdicts in the docstring: they only matter in files written for people (`build`).
+    source = numpy_source(scheme, precision)
+    filename = f"<fluxloom {scheme.name} {precision} {scheme.fingerprint}>"
+    # Tracebacks through generated code then show its lines.
+    linecache.cache[filename] = (len(source), None, source.splitlines(True), filename)
+    module = types.ModuleType(f"fluxloom_generated_{scheme.name}_{precision}")
+    module.__file__ = filename
+    exec(compile(source, filename, "exec"), module.__dict__)
     return module
 
 
@@ -162,7 +165,7 @@ class Kernel:
         if value.dtype != self.dtype:
             raise KernelError(f"{self.name}: {what} has dtype {value.dtype}; this {self.precision} "
                               f"kernel takes {self.dtype} (convert with .astype(np.{self.dtype}))")
-        if self.backend == "c" and not value.flags.c_contiguous:
+        if targets.target(self.backend).runs != "python" and not value.flags.c_contiguous:
             raise KernelError(f"{self.name}: {what} must be contiguous (use np.ascontiguousarray)")
         return value
 
@@ -177,17 +180,24 @@ def load_kernel(scheme: Scheme, backend: str = "numpy", precision: str = "double
         raise KernelError(f"unknown back end '{backend}'; choose one of {', '.join(BACKENDS)}")
     if precision not in DTYPES:
         raise KernelError(f"unknown precision '{precision}'; choose double or float")
-    if backend == "numpy":
-        module = numpy_module(scheme, precision)
-        return Kernel(scheme.name, "numpy", precision, module.HALO, module.FACE_HALO,
-                      module.STAGES, module.workspace_size, module.step)
-    return _c_kernel(scheme, precision, opt)
+    return LOADERS[targets.target(backend).runs](scheme, backend, precision, opt)
 
 
-def _c_kernel(scheme: Scheme, precision: str, opt: str | None) -> Kernel:
+def _python_kernel(scheme: Scheme, backend: str, precision: str, opt: str | None) -> Kernel:
+    module = numpy_module(scheme, precision)
+    return Kernel(scheme.name, backend, precision, module.HALO, module.FACE_HALO,
+                  module.STAGES, module.workspace_size, module.step)
+
+
+def _cffi_kernel(scheme: Scheme, backend: str, precision: str, opt: str | None) -> Kernel:
     from .build import compile_c
 
     ffi, lib = compile_c(scheme, precision) if opt is None else compile_c(scheme, precision, opt)
+    return _abi_kernel(scheme, backend, precision, ffi, lib)
+
+
+def _abi_kernel(scheme: Scheme, backend: str, precision: str, ffi, lib) -> Kernel:
+    """A Kernel over a library exporting the C header's functions (any compiler)."""
     name = scheme.name
     c_step = getattr(lib, f"{name}_step")
     c_workspace = getattr(lib, f"{name}_workspace_size")
@@ -203,7 +213,11 @@ def _c_kernel(scheme: Scheme, precision: str, opt: str | None) -> Kernel:
                ffi.from_buffer(ctype, u_face), dt_dx,
                null if work is None else ffi.from_buffer(ctype, work, require_writable=True))
 
-    return Kernel(name, "c", precision, halo, face_halo, stages, c_workspace, run_step)
+    return Kernel(name, backend, precision, halo, face_halo, stages, c_workspace, run_step)
+
+
+LOADERS = {"python": _python_kernel, "cffi": _cffi_kernel}
+"""How each kind of target (compiler/emit/targets.py: `runs`) is loaded."""
 
 
 # ---- periodic domains -------------------------------------------------------------

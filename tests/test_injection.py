@@ -30,7 +30,6 @@ import pytest
 from fluxloom.compiler import scheme_from_text
 from fluxloom.compiler.emit import c_files
 from fluxloom.compiler.emit.numpy_ import numpy_source
-from fluxloom.compiler.emit.plan import banner_lines
 from fluxloom.runtime.kernel import load_kernel
 
 from test_emit_c import STRICT, need
@@ -101,7 +100,7 @@ def harmless(name: str):
 def module_text(scheme) -> str:
     """The numpy module with the banner of run-time builds (no analysis: faster, and the
     user's text is all there)."""
-    return numpy_source(scheme, "double", banner_lines(scheme, "double", verdicts=False))
+    return numpy_source(scheme, "double")
 
 
 def without_comments_c(path, cwd) -> str:
@@ -114,7 +113,7 @@ def without_comments_c(path, cwd) -> str:
 def test_c_files_compile_strictly_and_are_the_harmless_code(tmp_path):
     files = []
     for scheme, _ in VARIANTS:
-        for name, text in c_files(scheme, "double", verdicts=False).items():
+        for name, text in c_files(scheme, "double").items():
             (tmp_path / name).write_text(text, encoding="utf-8", errors="surrogatepass")
             files.append(name)
     flags = [f for f in STRICT if not f.startswith("-O")] + ["-O0"]  # the text, not the code
@@ -124,7 +123,7 @@ def test_c_files_compile_strictly_and_are_the_harmless_code(tmp_path):
     for scheme, _ in VARIANTS:
         reference = harmless(scheme.name)
         (tmp_path / "ref").mkdir(exist_ok=True)
-        for name, text in c_files(reference, "double", verdicts=False).items():
+        for name, text in c_files(reference, "double").items():
             (tmp_path / "ref" / name).write_text(text)
         for name in (f"{scheme.name}.c", f"{scheme.name}.h"):
             assert (without_comments_c(name, tmp_path)
@@ -144,12 +143,12 @@ def test_fortran_modules_compile_and_are_the_harmless_code(tmp_path):
     names = []
     for scheme, _ in VARIANTS:
         name = f"{scheme.name}_mod.f90"
-        text = c_files(scheme, "double", verdicts=False)[name]
+        text = c_files(scheme, "double")[name]
         assert text.isascii()
         (tmp_path / name).write_text(text)
         names.append(name)
         code = [line for line in text.splitlines() if not line.lstrip().startswith("!")]
-        reference = c_files(harmless(scheme.name), "double", verdicts=False)[name]
+        reference = c_files(harmless(scheme.name), "double")[name]
         assert code == [line for line in reference.splitlines()
                         if not line.lstrip().startswith("!")]
         assert all(len(line) <= 132 for line in text.splitlines())

@@ -375,7 +375,7 @@ def scale_words(printer: KernelPrinter) -> dict[str, str]:
     }
 
 
-def c_context(scheme: Scheme, precision: str = "double", verdicts: bool = True) -> dict:
+def c_context(scheme: Scheme, precision: str = "double", verdicts=()) -> dict:
     """Everything the C templates need, printed."""
     plan = plan_kernel(scheme)
     printer = KernelPrinter(plan, precision)
@@ -456,10 +456,10 @@ def c_context(scheme: Scheme, precision: str = "double", verdicts: bool = True) 
     }
 
 
-def c_sources(scheme: Scheme, precision: str = "double", verdicts: bool = True) -> dict[str, str]:
+def c_sources(scheme: Scheme, precision: str = "double", verdicts=()) -> dict[str, str]:
     """{'NAME.h': header text, 'NAME.c': kernel text} for scheme at precision.
 
-    verdicts=False leaves the analysis out of the header comment.
+    verdicts: the analysis verdicts as lines for the header comment (given by the caller).
     """
     context = c_context(scheme, precision, verdicts)
     return {
@@ -468,7 +468,16 @@ def c_sources(scheme: Scheme, precision: str = "double", verdicts: bool = True) 
     }
 
 
+def files(scheme: Scheme, precision: str = "double", verdicts=()) -> dict[str, str]:
+    """{'NAME.h', 'NAME.c'} (the target registry's entry point)."""
+    return c_sources(scheme, precision, verdicts)
+
+
 def c_declarations(scheme: Scheme, precision: str = "double") -> str:
     """The header's declarations in the form cffi's cdef accepts."""
-    context = c_context(scheme, precision, verdicts=False)
+    context = c_context(scheme, precision)
     return render("c_cdef.h.j2", **context)
+
+
+PRINTER = KernelPrinter
+"""The target's printer (the registry reads it: compiler/emit/targets.py)."""

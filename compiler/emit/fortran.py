@@ -77,7 +77,7 @@ def fortran_identifier(name: str) -> str:
 
 
 def fortran_source(scheme: Scheme, precision: str = "double",
-                   verdicts: bool = True) -> dict[str, str]:
+                   verdicts=()) -> dict[str, str]:
     """{'NAME_mod.f90': module text}."""
     check_precision(precision)
     plan = plan_kernel(scheme)
@@ -91,3 +91,11 @@ def fortran_source(scheme: Scheme, precision: str = "double",
     text = render("fortran_module.f90.j2", name=name, plan=plan, kind=kind, params=params,
                   banner=comment_lines(banner_lines(scheme, precision, verdicts)))
     return {f"{name}_mod.f90": text}
+
+
+files = fortran_source
+"""The target registry's entry point: {'NAME_mod.f90'}."""
+
+
+PRINTER = ConstantPrinter
+"""The target's printer (the registry reads it: compiler/emit/targets.py)."""

@@ -347,7 +347,7 @@ def _divides(body: sympy.Expr) -> bool:
                for node in sympy.preorder_traversal(body))
 
 
-def numpy_module(scheme: Scheme, precision: str = "double", banner=None) -> NumpyModule:
+def numpy_module(scheme: Scheme, precision: str = "double", verdicts=()) -> NumpyModule:
     """Lower a scheme (through the shared kernel plan) to the template's data."""
     check_precision(precision)
     plan = plan_kernel(scheme)
@@ -379,7 +379,7 @@ def numpy_module(scheme: Scheme, precision: str = "double", banner=None) -> Nump
     uses_c = any(p.uses_c for p in programs)
     names = [o.name for o in offsets]
     stage_buffers = min(plan.stages - 1, 2)
-    banner = tuple(banner) if banner is not None else banner_lines(scheme, precision)
+    banner = banner_lines(scheme, precision, verdicts)
     return NumpyModule(
         name=plan.name,
         name_literal=printer.escape_text(plan.name),
@@ -411,10 +411,19 @@ def numpy_module(scheme: Scheme, precision: str = "double", banner=None) -> Nump
     )
 
 
-def numpy_source(scheme: Scheme, precision: str = "double", banner=None) -> str:
+def numpy_source(scheme: Scheme, precision: str = "double", verdicts=()) -> str:
     """The generated module's text: same scheme and precision, same bytes.
 
-    banner: the header lines; by default the shared banner with the analysis
-    verdicts (the run-time loader passes a shorter one to skip the analysis).
+    verdicts: the analysis verdicts as lines for the docstring (given by the caller;
+    the run-time loader passes none).
     """
-    return environment.render("numpy_kernel.py.j2", m=numpy_module(scheme, precision, banner))
+    return environment.render("numpy_kernel.py.j2", m=numpy_module(scheme, precision, verdicts))
+
+
+def files(scheme: Scheme, precision: str = "double", verdicts=()) -> dict[str, str]:
+    """{'NAME.py': the module} (the target registry's entry point)."""
+    return {f"{scheme.name}.py": numpy_source(scheme, precision, verdicts)}
+
+
+PRINTER = NumpyKernelPrinter
+"""The target's printer (the registry reads it: compiler/emit/targets.py)."""

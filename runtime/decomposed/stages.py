@@ -61,13 +61,11 @@ def kernel_sources(scheme, backend: str = "numpy", precision: str = "double",
              "fingerprint": scheme.fingerprint}
     if backend == "numpy":
         from fluxloom.compiler.emit.numpy_ import numpy_source
-        from fluxloom.compiler.emit.plan import banner_lines
 
-        banner = banner_lines(scheme, precision, verdicts=False)
-        return {**found, "source": numpy_source(scheme, precision, banner)}
+        return {**found, "source": numpy_source(scheme, precision)}
     from fluxloom.compiler.emit.c import c_declarations, c_sources
 
-    files = c_sources(scheme, precision, verdicts=False)
+    files = c_sources(scheme, precision)
     header, kernel = files[f"{scheme.name}.h"], files[f"{scheme.name}.c"]
     # one translation unit, the header text standing in for its #include (as compile_c does)
     unit = kernel.replace(f'#include "{scheme.name}.h"', header, 1)
