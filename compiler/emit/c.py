@@ -19,9 +19,11 @@ from ..constants import nearest, shortest_text
 from ..diagnostics import LoomError
 from ..ir import Scheme
 from ..symbols import C, R, LimiterApplication, limiter_name_of, offset_of, q
+from ..upwind import both_cells
 from .environment import render
 from .limited import FLOOR_EXPONENT, LimiterFormCall
-from .plan import FaceProgram, KernelPlan, banner_lines, plan_kernel
+from .plan import (EULER, FaceProgram, KernelPlan, StageStep, banner_lines, plan_kernel,
+                   print_stage_sum, stage_buffers, stage_steps, step_calls)
 
 PRECISIONS = {"double": float64, "float": float32}
 FLUX_BLOCK = 128
@@ -241,7 +243,7 @@ def flux_function(printer: KernelPrinter, program: FaceProgram, suffix: str) -> 
     params = [f"{printer.ctype} {n}" for n in names]
     if program.uses_c:
         params.append(f"{printer.ctype} c")
-    loads = tuple((n, k, 1 - k) for n, k in zip(names, program.offsets))
+    loads = tuple((n, *both_cells(k)) for n, k in zip(names, program.offsets))
     return FluxFunction(suffix, ", ".join(params) or "void", statements, result,
                         program.guard_c, program.uses_c, loads)
 
@@ -271,38 +273,23 @@ class StageCode:
     writes: tuple[tuple[str, str], ...]
 
 
-def stage_expression(printer: KernelPrinter, update) -> StageCode:
-    """C for one stage update (out, then register writes, as the update orders them).
+def stage_expression(printer: KernelPrinter, step: StageStep) -> StageCode:
+    """C for one stage update (out, then register writes, as the plan orders them)."""
+    def operand(name) -> str:
+        if name == EULER:
+            return "(state[j] - dq)"
+        if isinstance(name, tuple):
+            kind, k = name
+            return f"{register_name(k)}_old" if kind == "saved" else f"{register_name(k)}[j]"
+        return {"start": "start[j]", "state": "state[j]"}[name]
 
-    Inside the loop `dq` is dt_dx * (F(j+1/2) - F(j-1/2)), so dt * L(q) = -dq.
-    """
-    def register(k: int) -> str:
-        return f"{register_name(k)}_old" if k in update.saved else f"{register_name(k)}[j]"
-
-    def combo(c):
-        terms = [(coef, name) for coef, name in
-                 [(c.start, "start[j]"), (c.stage, "state[j]")] +
-                 [(w, register(k)) for k, w in c.registers] if coef != 0]
-        rate = c.rate
-        if rate != 0 and any(coef == rate and name == "state[j]" for coef, name in terms):
-            # stage + rate*dL with equal weights: one forward-Euler step, weighted
-            terms = [(coef, "(state[j] - dq)" if name == "state[j]" else name)
-                     for coef, name in terms]
-            rate = 0
-        parts = [name if coef == 1 else f"{_coefficient(printer, coef)}*{name}"
-                 for coef, name in terms]
-        text = " + ".join(parts)
-        if len(parts) == 1 and text.startswith("(") and text.endswith(")"):
-            text = text[1:-1]
-        if rate != 0:
-            term = "dq" if rate == 1 else f"{_coefficient(printer, rate)}*dq"
-            text = f"{text} - {term}" if text else f"-{term}"
-        return text
+    def combo(total) -> str:
+        return print_stage_sum(total, operand, lambda value: _coefficient(printer, value))
 
     saves = tuple(f"const {printer.ctype} {register_name(k)}_old = {register_name(k)}[j];"
-                  for k in update.saved)
-    writes = tuple((f"{register_name(k)}[j]", combo(c)) for k, c in update.writes)
-    return StageCode(saves, combo(update.out), writes)
+                  for k in step.saved)
+    writes = tuple((f"{register_name(k)}[j]", combo(c)) for k, c in step.writes)
+    return StageCode(saves, combo(step.out), writes)
 
 
 def block_signature(ctype: str, plan: KernelPlan, uses_start: bool):
@@ -336,30 +323,6 @@ def wrap_list(items, first_column: int, indent: int, width: int = 96) -> str:
         column += len(piece)
     lines.append(", ".join(current))
     return ("\n" + " " * indent).join(lines)
-
-
-@dataclass(frozen=True)
-class StageCall:
-    stage: int
-    source: str
-    target: str
-    refresh: bool
-
-
-def step_calls(plan: KernelPlan) -> tuple[StageCall, ...]:
-    """Which arrays each stage reads and writes in the periodic whole-step function."""
-    buffers = ("stage_a", "stage_b")
-    calls = []
-    for s in range(plan.stages):
-        source = "q_in" if s == 0 else buffers[(s - 1) % 2]
-        last = s == plan.stages - 1
-        target = "q_out" if last else buffers[s % 2]
-        calls.append(StageCall(s, source, target, not last))
-    return tuple(calls)
-
-
-def stage_buffers(plan: KernelPlan) -> int:
-    return min(plan.stages - 1, 2)
 
 
 def scale_words(printer: KernelPrinter) -> dict[str, str]:
@@ -399,8 +362,8 @@ def c_context(scheme: Scheme, precision: str = "double", verdicts=()) -> dict:
                       "result": result,
                       "parameters": ", ".join(f"{printer.ctype} {a}" for a in arguments)})
     stages = []
-    for s, update in enumerate(plan.stage_updates):
-        code = stage_expression(printer, update)
+    for s, step in enumerate(stage_steps(plan)):
+        code = stage_expression(printer, step)
         stages.append({"index": s, "out": code.out, "saves": code.saves, "writes": code.writes,
                        "clip": plan.clip is not None and s == plan.stages - 1})
     uses_start = plan.uses_start

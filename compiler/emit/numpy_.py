@@ -21,6 +21,7 @@ from ..diagnostics import LoomError
 from ..ir import Scheme
 from ..symbols import C, R, LimiterApplication, limiter_name_of, offset_of
 from ..time_methods.low_storage import StageUpdate
+from ..upwind import both_cells
 from . import environment
 from .limited import FLOOR_EXPONENT, LimiterFormCall, Quotient
 from .plan import FaceProgram, banner_lines, plan_kernel
@@ -374,7 +375,9 @@ def numpy_module(scheme: Scheme, precision: str = "double", verdicts=()) -> Nump
         quiet=any(_divides(v) or v.has(Quotient) for v in
                   (form.program.result, *(value for _, value in form.program.temporaries))))
         for form in plan.limiter_forms)
-    offsets = tuple(Offset(q_name(k), _shift(k - 1), _shift(-k)) for k in plan.offsets)
+    # face i of a block lies between array cells HALO + i - 1 and HALO + i
+    offsets = tuple(Offset(q_name(k), *(_shift(cell - 1) for cell in both_cells(k)))
+                    for k in plan.offsets)
     programs = [plan.flux] + ([plan.low_flux] if plan.low_flux is not None else [])
     uses_c = any(p.uses_c for p in programs)
     names = [o.name for o in offsets]

@@ -100,14 +100,6 @@ class KernelPlan:
         return tuple(sorted(found))
 
 
-def reach(offsets) -> int:
-    """Ghost cells per side for both faces of every interior cell.
-
-    Face j+1/2 reads cell j+k (u >= 0) or j+1-k (u < 0) for offset k.
-    """
-    return max((max(abs(k), abs(k - 1)) for k in offsets), default=1)
-
-
 def kernel_halo(scheme: Scheme) -> int:
     """Ghost cells per side the caller fills.
 
@@ -115,8 +107,8 @@ def kernel_halo(scheme: Scheme) -> int:
     FCT_EXTRA_FACES more cells on each side than the fluxes alone.
     """
     if scheme.correct == "fct":
-        return scheme.halo + FCT_EXTRA_FACES
-    return scheme.halo
+        return scheme.stencil_reach + FCT_EXTRA_FACES
+    return scheme.stencil_reach
 
 
 def face_halo(scheme: Scheme) -> int:
@@ -222,6 +214,96 @@ def plan_kernel(scheme: Scheme) -> KernelPlan:
         exchange=ExchangeSchedule(kernel_halo(scheme), face_halo(scheme), len(stepping.updates),
                                   fct),
     )
+
+
+# ---- stage updates as sums the compiled kernels print -------------------------
+
+EULER = "euler"
+"""The operand state - dq: one forward-Euler step from the stage state."""
+
+
+@dataclass(frozen=True)
+class StageSum:
+    """One combination of a stage update in the order compiled kernels evaluate it:
+    sum of weight * operand, left to right, then `- rate * dq` where dq is
+    dt/dx (F(j+1/2) - F(j-1/2)), so dt L(q) = -dq. Operands: "start", "state",
+    EULER (state - dq, when the state's weight equals the rate's), ("register", k)
+    and ("saved", k) (register k as it was before this stage overwrote it)."""
+
+    terms: tuple[tuple[sympy.Expr, object], ...]
+    rate: sympy.Expr
+
+
+@dataclass(frozen=True)
+class StageStep:
+    """One stage: the registers to copy first, q_out's sum, then register writes."""
+
+    saved: tuple[int, ...]
+    out: StageSum
+    writes: tuple[tuple[int, StageSum], ...]
+
+
+def stage_sum(update: StageUpdate, combination) -> StageSum:
+    def register(k: int):
+        return ("saved", k) if k in update.saved else ("register", k)
+
+    terms = [(coef, operand) for coef, operand in
+             [(combination.start, "start"), (combination.stage, "state")] +
+             [(w, register(k)) for k, w in combination.registers] if coef != 0]
+    rate = combination.rate
+    if rate != 0 and any(coef == rate and operand == "state" for coef, operand in terms):
+        # stage + rate*dL with equal weights: one forward-Euler step, weighted
+        terms = [(coef, EULER if operand == "state" else operand) for coef, operand in terms]
+        rate = sympy.Integer(0)
+    return StageSum(tuple(terms), rate)
+
+
+def stage_steps(plan) -> tuple[StageStep, ...]:
+    """Every stage of the plan's time method as sums (compiler/time_methods/low_storage.py)."""
+    return tuple(StageStep(u.saved, stage_sum(u, u.out),
+                           tuple((k, stage_sum(u, c)) for k, c in u.writes))
+                 for u in plan.stage_updates)
+
+
+def print_stage_sum(total: StageSum, operand_text, coefficient_text) -> str:
+    """A StageSum as text in any target's syntax (operand_text: operand -> text)."""
+    parts = [operand_text(operand) if coef == 1 else f"{coefficient_text(coef)}*{operand_text(operand)}"
+             for coef, operand in total.terms]
+    text = " + ".join(parts)
+    if len(parts) == 1 and text.startswith("(") and text.endswith(")"):
+        text = text[1:-1]
+    if total.rate != 0:
+        term = "dq" if total.rate == 1 else f"{coefficient_text(total.rate)}*dq"
+        text = f"{text} - {term}" if text else f"-{term}"
+    return text
+
+
+def stage_buffers(plan) -> int:
+    """Stage arrays (with halos) a whole step keeps in workspace: 0, 1 or 2."""
+    return min(plan.stages - 1, 2)
+
+
+@dataclass(frozen=True)
+class StageCall:
+    """A whole step's call of one stage: which array it reads and writes, and whether the
+    output's halo is refreshed (periodically) for the next stage."""
+
+    stage: int
+    source: str
+    target: str
+    refresh: bool
+
+
+def step_calls(plan) -> tuple[StageCall, ...]:
+    """Which arrays each stage reads and writes in the periodic whole-step function."""
+    buffers = ("stage_a", "stage_b")
+    calls = []
+    for s in range(plan.stages):
+        source = "q_in" if s == 0 else buffers[(s - 1) % 2]
+        last = s == plan.stages - 1
+        target = "q_out" if last else buffers[s % 2]
+        calls.append(StageCall(s, source, target, not last))
+    return tuple(calls)
 
 
 # ---- the descriptive comment every generated file starts with -------------
