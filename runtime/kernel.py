@@ -216,7 +216,20 @@ def _abi_kernel(scheme: Scheme, backend: str, precision: str, ffi, lib) -> Kerne
     return Kernel(name, backend, precision, halo, face_halo, stages, c_workspace, run_step)
 
 
-LOADERS = {"python": _python_kernel, "cffi": _cffi_kernel}
+def _shared_kernel(scheme: Scheme, backend: str, precision: str, opt: str | None) -> Kernel:
+    """A target that builds its own shared library with the C header's functions."""
+    from fluxloom.compiler.emit.c import c_declarations
+
+    from .build import compile_shared
+
+    emitter = targets.target(backend).emitter()
+    (source,) = emitter.files(scheme, precision).values()
+    ffi, lib = compile_shared(f"{scheme.name}_{backend}", source, emitter.SOURCE_SUFFIX,
+                              emitter.COMPILE, c_declarations(scheme, precision))
+    return _abi_kernel(scheme, backend, precision, ffi, lib)
+
+
+LOADERS = {"python": _python_kernel, "cffi": _cffi_kernel, "shared": _shared_kernel}
 """How each kind of target (compiler/emit/targets.py: `runs`) is loaded."""
 
 

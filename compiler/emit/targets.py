@@ -50,6 +50,8 @@ TARGETS: tuple[Target, ...] = (
     Target("fortran-interface", "Fortran 2003 module NAME_mod.f90 of bind(C) interfaces "
            "to the C kernel", "fortran"),
     Target("numpy", "numpy module NAME.py", "numpy_", runs="python"),
+    Target("fortran", "native Fortran 2008 kernel module NAME_kernel.f90 (no C compiler "
+           "needed)", "fortran_kernel", runs="shared"),
 )
 BY_NAME = {t.name: t for t in TARGETS}
 NAMES = tuple(BY_NAME)
