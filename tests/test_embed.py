@@ -112,3 +112,13 @@ def test_fortran_host_agrees_with_the_c_host(hosts):
     assert fortran["steps"] == c["steps"]
     assert np.max(np.abs(fortran["profile"] - c["profile"])) < 1e-13
     assert fortran["mass_final"] == pytest.approx(fortran["mass_initial"], rel=1e-13)
+
+
+def test_native_fortran_host_agrees_with_the_c_host(hosts):
+    """The host built with gfortran alone (native Fortran kernel) against the C host."""
+    native = run_host(hosts / "tidal_basin_native")
+    c = run_host(hosts / "tidal_basin_tidewater")
+    assert native["scheme"] == c["scheme"] == "tidewater"
+    assert native["steps"] == c["steps"]
+    assert np.max(np.abs(native["profile"] - c["profile"])) < 1e-13
+    assert native["mass_final"] == pytest.approx(native["mass_initial"], rel=1e-13)
