@@ -24,6 +24,8 @@ def expected_names(name: str, target: str = "all") -> set[str]:
         names |= {f"{name}.h", f"{name}.c", f"{name}_mod.f90"}
     if target in ("numpy", "all"):
         names.add(f"{name}.py")
+    if target in ("fortran", "all"):
+        names.add(f"{name}_kernel.f90")
     return names
 
 
@@ -112,3 +114,21 @@ def test_the_written_numpy_module_runs_on_its_own(tmp_path):
     module.step(n, q_in, out, u, 0.4)
     h = module.HALO
     np.testing.assert_array_equal(out[h:-h], kernel.step(q_in, u, 0.4)[h:-h])
+
+
+def test_build_targets_are_the_registry(tmp_path, capsys):
+    """`build --target` offers every registry target and writes its file set."""
+    from fluxloom.compiler.emit.targets import TARGETS, build_set
+
+    spec = EXAMPLES / "upwind.loom"
+    for each in TARGETS:
+        out = tmp_path / each.name
+        assert build(spec, "--target", each.name, "-o", out) == 0
+        expected = set()
+        for member in build_set(each.name):
+            expected |= set(member.files(load_scheme(spec)))
+        assert {p.name for p in out.iterdir()} == expected
+    assert {"upwind_kernel.f90"} == set(build_set("fortran")[0].files(load_scheme(spec)))
+    with pytest.raises(SystemExit):
+        build(spec, "--target", "cobol", "-o", tmp_path / "x")
+    capsys.readouterr()
