@@ -7,20 +7,18 @@ writes `fabs`/`0.5` for double and `fabsf`/`0.5F` for float. Everything else
 """
 from __future__ import annotations
 
-from contextlib import contextmanager
 from dataclasses import dataclass
 
 import sympy
 from sympy.codegen.ast import float32, float64, real
 from sympy.printing.c import C99CodePrinter
-from sympy.printing.precedence import PRECEDENCE
 
 from ..constants import nearest, shortest_text
-from ..diagnostics import LoomError
 from ..ir import Scheme
 from ..symbols import C, R, LimiterApplication, limiter_name_of, offset_of, q
 from ..upwind import both_cells
 from .environment import render
+from .printing import PlanPrinting, check_precision
 from .limited import FLOOR_EXPONENT, LimiterFormCall
 from .plan import (EULER, FaceProgram, KernelPlan, StageStep, banner_lines, plan_kernel,
                    print_stage_sum, stage_buffers, stage_steps, step_calls)
@@ -33,13 +31,7 @@ traffic and arithmetic overlap: at 10^6-10^7 cells 128 ran about 1.5x faster tha
 (`fluxloom bench`), and no slower from cache."""
 
 
-def check_precision(precision: str) -> None:
-    if precision not in PRECISIONS:
-        raise LoomError(f"unknown precision '{precision}' (use 'double' or 'float')",
-                        file="--precision")
-
-
-class KernelPrinter(C99CodePrinter):
+class KernelPrinter(PlanPrinting, C99CodePrinter):
     """Prints IR expressions as C for one scheme at one precision.
 
     User names never print as themselves: params are the header's macros
@@ -113,15 +105,6 @@ class KernelPrinter(C99CodePrinter):
         text = shortest_text(nearest(value, self.precision), self.precision)
         return text + "F" if self.precision == "float" else text
 
-    @contextmanager
-    def reading(self, renames: dict):
-        """Print each symbol of renames as its replacement (a scaled face's copies)."""
-        self.renames = renames
-        try:
-            yield
-        finally:
-            self.renames = {}
-
     def _print_ParamSymbol(self, expr):
         if expr in self.renames:
             return self._print(self.renames[expr])
@@ -192,21 +175,16 @@ class KernelPrinter(C99CodePrinter):
     def _fold(self, name: str, args) -> str:
         # Ternary helpers instead of fmin/fmax: those are library calls without
         # -ffinite-math-only and block vectorisation.
-        args = sorted(args, key=sympy.default_sort_key)
-        text = self._print(args[-1])
-        for arg in reversed(args[:-1]):
-            text = f"{self.helper(name)}({self._print(arg)}, {text})"
-        return text
+        return self.fold(self.helper(name), args)
 
     def _print_sign(self, expr):
         return self._call("sign", expr.args[0])
 
     def _print_Pow(self, expr):
-        base, exp = expr.base, expr.exp
-        if exp.is_Integer and 2 <= abs(int(exp)) <= 4:
-            factor = self.parenthesize(base, PRECEDENCE["Mul"])
-            product = "*".join([factor] * abs(int(exp)))
-            if exp > 0:
+        count = self.small_power(expr)
+        if count:
+            product = self.repeated_product(expr.base, count)
+            if expr.exp > 0:
                 return f"({product})"
             return f"{self._print(sympy.Integer(1))}/({product})"
         return super()._print_Pow(expr)

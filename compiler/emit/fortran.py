@@ -12,9 +12,8 @@ from sympy.printing.fortran import FCodePrinter
 
 from ..check import FORTRAN_NAME_LIMIT
 from ..constants import nearest, shortest_text
-from ..diagnostics import LoomError
 from ..ir import Scheme
-from .c import check_precision
+from .printing import check_precision
 from .environment import render
 from .plan import banner_lines, plan_kernel
 

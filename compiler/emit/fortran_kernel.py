@@ -15,21 +15,19 @@ comparing reals with == or /=: "x /= 0" is written `loom_nonzero(x)`,
 """
 from __future__ import annotations
 
-from contextlib import contextmanager
 from dataclasses import dataclass
 
 import sympy
 from sympy.printing.fortran import FCodePrinter
-from sympy.printing.precedence import PRECEDENCE
 
 from ..constants import nearest, shortest_text
 from ..ir import Scheme
-from ..symbols import C, R, LimiterApplication, limiter_name_of, offset_of, q
+from ..symbols import C, R, LimiterApplication, limiter_name_of, q
 from ..upwind import both_cells
-from .c import check_precision
 from .environment import render
 from .fortran import ConstantPrinter, comment_lines, fortran_identifier
 from .limited import FLOOR_EXPONENT, LimiterFormCall
+from .printing import PlanPrinting, check_precision
 from .plan import (EULER, FaceProgram, StageSum, banner_lines, plan_kernel, print_stage_sum,
                    stage_buffers, stage_steps, step_calls)
 
@@ -40,7 +38,7 @@ COMPILE = ("gfortran", "-std=f2008", "-O2", "-fPIC", "-shared")
 SOURCE_SUFFIX = ".f90"
 
 
-class FortranKernelPrinter(FCodePrinter):
+class FortranKernelPrinter(PlanPrinting, FCodePrinter):
     """IR expressions as Fortran 2008 of kind rk, one scheme at one precision.
 
     Params print as the module's NAME_param_p, limiters as NAME_limiter_f, found by
@@ -82,14 +80,6 @@ class FortranKernelPrinter(FCodePrinter):
             return (f"{self.name}_{form.kind}_{form.limiter_name}"
                     f"({', '.join(self._print(a) for a in expr.args)})")
         return super()._print(expr, **kwargs)
-
-    @contextmanager
-    def reading(self, renames: dict):
-        self.renames = renames
-        try:
-            yield
-        finally:
-            self.renames = {}
 
     def _print_ParamSymbol(self, expr):
         if expr in self.renames:
@@ -144,12 +134,7 @@ class FortranKernelPrinter(FCodePrinter):
         return self._fold("max", expr.args)
 
     def _fold(self, name: str, args) -> str:
-        # nested pairs in the C kernel's order, so both round and select alike
-        args = sorted(args, key=sympy.default_sort_key)
-        text = self._print(args[-1])
-        for arg in reversed(args[:-1]):
-            text = f"{name}({self._print(arg)}, {text})"
-        return text
+        return self.fold(name, args)  # nested pairs in the C kernel's order
 
     def _print_Abs(self, expr):
         return f"abs({self._print(expr.args[0])})"
@@ -161,9 +146,9 @@ class FortranKernelPrinter(FCodePrinter):
         base, exp = expr.base, expr.exp
         if exp == sympy.S.Half:
             return f"sqrt({self._print(base)})"
-        if exp.is_Integer and 2 <= abs(int(exp)) <= 4:
-            factor = self.parenthesize(base, PRECEDENCE["Mul"])
-            product = "*".join([factor] * abs(int(exp)))
+        count = self.small_power(expr)
+        if count:
+            product = self.repeated_product(base, count)
             return f"({product})" if exp > 0 else f"{self.real_literal(1)}/({product})"
         return super()._print_Pow(expr)
 

@@ -9,7 +9,6 @@ domain), and lets a block whose faces share one velocity sign read every
 """
 from __future__ import annotations
 
-from contextlib import contextmanager
 from dataclasses import dataclass, replace
 
 import sympy
@@ -17,12 +16,12 @@ from sympy.printing.numpy import NumPyPrinter
 from sympy.printing.precedence import PRECEDENCE
 
 from ..constants import nearest
-from ..diagnostics import LoomError
 from ..ir import Scheme
 from ..symbols import C, R, LimiterApplication, limiter_name_of, offset_of
 from ..time_methods.low_storage import StageUpdate
 from ..upwind import both_cells
 from . import environment
+from .printing import PlanPrinting, check_precision
 from .limited import FLOOR_EXPONENT, LimiterFormCall, Quotient
 from .plan import FaceProgram, banner_lines, plan_kernel
 
@@ -38,7 +37,7 @@ enough for numpy to reuse temporaries in place (it does so from 256 KiB)."""
 ITEM_BYTES = {"double": 8, "float": 4}
 
 
-class NumpyKernelPrinter(NumPyPrinter):
+class NumpyKernelPrinter(PlanPrinting, NumPyPrinter):
     """Prints IR expressions as numpy code over whole arrays of faces.
 
     Strict like its parent: a construct with no `_print_` method raises
@@ -100,15 +99,6 @@ class NumpyKernelPrinter(NumPyPrinter):
         # `import numpy as np` in the generated module.
         return super()._module_format(fqn, register).replace("numpy.", "np.", 1)
 
-    @contextmanager
-    def reading(self, renames: dict):
-        """Print each symbol of renames as its replacement (a scaled face's copies)."""
-        self.renames = renames
-        try:
-            yield
-        finally:
-            self.renames = {}
-
     def _print_ParamSymbol(self, expr):
         if expr in self.renames:
             return self._print(self.renames[expr])
@@ -169,11 +159,7 @@ class NumpyKernelPrinter(NumPyPrinter):
 
     def _nested(self, func, args):
         # Arrays first, constants last: min(0, r) -> np.minimum(r, 0).
-        args = sorted(args, key=lambda a: (a.is_number, sympy.default_sort_key(a)))
-        text = self._print(args[-1])
-        for arg in reversed(args[:-1]):
-            text = f"{func}({self._print(arg)}, {text})"
-        return text
+        return self.fold(func, args, key=lambda a: (a.is_number, sympy.default_sort_key(a)))
 
     def _print_Abs(self, expr):
         return f"np.abs({self._print(expr.args[0])})"
@@ -185,10 +171,10 @@ class NumpyKernelPrinter(NumPyPrinter):
         base, exp = expr.args
         if exp == sympy.S.Half:
             return f"np.sqrt({self._print(base)})"
-        if exp.is_Integer and 2 <= abs(int(exp)) <= 4:
+        count = self.small_power(expr)
+        if count:
             # Repeated products, bracketed so that y/x**2 stays y/(x*x).
-            factor = self.parenthesize(base, PRECEDENCE["Mul"])
-            product = "*".join([factor] * abs(int(exp)))
+            product = self.repeated_product(base, count)
             return f"({product})" if exp > 0 else f"(1/({product}))"
         if exp == -1:
             return f"(1/{self.parenthesize(base, PRECEDENCE['Mul'])})"
@@ -332,12 +318,6 @@ def _register_slices(registers: int) -> tuple[tuple[str, str], ...]:
     return tuple((f"acc{k}", "work[lo:hi]" if k == 0 else
                   ("work[n + lo:n + hi]" if k == 1 else f"work[{k} * n + lo:{k} * n + hi]"))
                  for k in range(registers))
-
-
-def check_precision(precision: str) -> None:
-    if precision not in PRECISIONS:
-        raise LoomError(f"unknown precision '{precision}' (use 'double' or 'float')",
-                        file="--precision")
 
 
 def _divides(body: sympy.Expr) -> bool:
