@@ -29,6 +29,7 @@ import pytest
 
 from fluxloom.compiler import scheme_from_text
 from fluxloom.compiler.emit import c_files
+from fluxloom.compiler.emit.targets import target
 from fluxloom.compiler.emit.numpy_ import numpy_source
 from fluxloom.runtime.kernel import load_kernel
 
@@ -139,20 +140,27 @@ def test_c_files_compile_strictly_and_are_the_harmless_code(tmp_path):
         assert ".init_array" not in sections and ".ctors" not in sections
 
 
-def test_fortran_modules_compile_and_are_the_harmless_code(tmp_path):
+FORTRAN_FILES = (("_mod.f90", "-std=f2003", lambda scheme: c_files(scheme, "double")),
+                 ("_kernel.f90", "-std=f2008",
+                  lambda scheme: target("fortran").files(scheme, "double")))
+"""The Fortran interface module and the native Fortran kernel: file suffix, standard, files."""
+
+
+@pytest.mark.parametrize("suffix, standard, files", FORTRAN_FILES, ids=["interface", "native"])
+def test_fortran_modules_compile_and_are_the_harmless_code(tmp_path, suffix, standard, files):
     names = []
     for scheme, _ in VARIANTS:
-        name = f"{scheme.name}_mod.f90"
-        text = c_files(scheme, "double")[name]
+        name = f"{scheme.name}{suffix}"
+        text = files(scheme)[name]
         assert text.isascii()
         (tmp_path / name).write_text(text)
         names.append(name)
         code = [line for line in text.splitlines() if not line.lstrip().startswith("!")]
-        reference = c_files(harmless(scheme.name), "double")[name]
+        reference = files(harmless(scheme.name))[name]
         assert code == [line for line in reference.splitlines()
                         if not line.lstrip().startswith("!")]
         assert all(len(line) <= 132 for line in text.splitlines())
-    done = subprocess.run([need("gfortran"), "-std=f2003", "-Wall", "-Wextra", "-Werror", "-c",
+    done = subprocess.run([need("gfortran"), standard, "-Wall", "-Wextra", "-Werror", "-c",
                            *names], cwd=tmp_path, capture_output=True, text=True)
     assert done.returncode == 0 and done.stderr == "", done.stderr[:2000]
 
