@@ -211,7 +211,7 @@ class _Passes:
 def _numeric_stability(ls) -> Stability:
     from .stability import numeric_set
 
-    stable = numeric_set(ls, ls.numeric_direct())
+    stable = numeric_set(ls, ls.numeric_direct(), why="the exact step went past the budget")
     return Stability(ls.label, "(not formed: the exact step went past the budget)",
                      "(not formed)", None, stable)
 
