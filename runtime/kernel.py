@@ -17,7 +17,7 @@ import numpy as np
 from fluxloom.compiler import LoomError
 from fluxloom.compiler.emit import targets
 from fluxloom.compiler.emit.numpy_ import numpy_source
-from fluxloom.compiler.emit.plan import plan_kernel
+from fluxloom.compiler.emit.plan import exported_symbol, plan_kernel
 from fluxloom.compiler.ir import Scheme
 from fluxloom.compiler.keyed import fingerprint_cache
 
@@ -199,8 +199,8 @@ def _cffi_kernel(scheme: Scheme, backend: str, precision: str, opt: str | None) 
 def _abi_kernel(scheme: Scheme, backend: str, precision: str, ffi, lib) -> Kernel:
     """A Kernel over a library exporting the C header's functions (any compiler)."""
     name = scheme.name
-    c_step = getattr(lib, f"{name}_step")
-    c_workspace = getattr(lib, f"{name}_workspace_size")
+    c_step = getattr(lib, exported_symbol(name, "step", precision))
+    c_workspace = getattr(lib, exported_symbol(name, "workspace_size", precision))
     plan = plan_kernel(scheme)  # the same plan the C source was rendered from
     halo = int(getattr(lib, f"{name}_HALO", plan.halo))
     face_halo = int(getattr(lib, f"{name}_FACE_HALO", plan.face_halo))

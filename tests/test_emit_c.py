@@ -347,10 +347,10 @@ def test_kernels_are_reentrant_across_threads():
     u = rng.uniform(-1, 1, n + 1)
 
     def run(q):
-        out, work = np.zeros_like(q), np.empty(lib.lw_vanleer_workspace_size(n))
+        out, work = np.zeros_like(q), np.empty(lib.lw_vanleer_workspace_size_f64(n))
         for _ in range(20):
-            lib.lw_vanleer_step(n, pointer(ffi, q), pointer(ffi, out), pointer(ffi, u), 0.4,
-                                pointer(ffi, work))
+            lib.lw_vanleer_step_f64(n, pointer(ffi, q), pointer(ffi, out), pointer(ffi, u), 0.4,
+                                    pointer(ffi, work))
             q = out.copy()
             fill_periodic(q, h)
         return q

@@ -19,6 +19,7 @@ from conftest import EXAMPLES
 
 from fluxloom.compiler import load_scheme
 from fluxloom.compiler.emit.c import c_declarations
+from fluxloom.compiler.emit.plan import exported_symbols
 from fluxloom.compiler.emit.targets import BACKENDS, target
 from fluxloom.runtime.kernel import fill_periodic, load_kernel, periodic_faces
 
@@ -74,9 +75,11 @@ def test_every_example_compiles_strictly_and_agrees_with_the_c_kernel(tmp_path, 
         u[-1] = u[0]
         u_face = periodic_faces(u, c_kernel.face_halo)
         ctype = f"{precision}[]"
-        work = np.zeros(max(int(getattr(lib, f"{scheme.name}_workspace_size")(n)), 1), dtype)
+        symbol = exported_symbols(scheme.name, precision)
+        work = np.zeros(max(int(getattr(lib, symbol[f"{scheme.name}_workspace_size"])(n)), 1),
+                        dtype)
         by_fortran = q.copy()
-        getattr(lib, f"{scheme.name}_step")(
+        getattr(lib, symbol[f"{scheme.name}_step"])(
             n, ffi.from_buffer(ctype, q), ffi.from_buffer(ctype, by_fortran),
             ffi.from_buffer(ctype, u_face), 0.45, ffi.from_buffer(ctype, work))
         by_c = c_kernel.step(q, u_face, 0.45)

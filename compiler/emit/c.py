@@ -20,7 +20,8 @@ from ..upwind import both_cells
 from .environment import render
 from .printing import PlanPrinting, check_precision
 from .limited import FLOOR_EXPONENT, LimiterFormCall
-from .plan import (EULER, FaceProgram, KernelPlan, StageStep, banner_lines, plan_kernel,
+from .plan import (EULER, FaceProgram, KernelPlan, StageStep, banner_lines, exported_symbols,
+                   plan_kernel,
                    print_stage_sum, stage_buffers, stage_steps, step_calls)
 
 PRECISIONS = {"double": float64, "float": float32}
@@ -372,6 +373,7 @@ def c_context(scheme: Scheme, precision: str = "double", verdicts=()) -> dict:
         "banner": tuple(printer.escape_text(line) for line in banner_lines(scheme, precision,
                                                                           verdicts)),
         "scheme_literal": printer.escape_text(plan.name),
+        "symbols": exported_symbols(plan.name, precision),
         "params": params,
         "helpers": helpers,
         "limiters": limiters,

@@ -28,7 +28,8 @@ from .environment import render
 from .fortran import ConstantPrinter, comment_lines, fortran_identifier
 from .limited import FLOOR_EXPONENT, LimiterFormCall
 from .printing import PlanPrinting, check_precision
-from .plan import (EULER, FaceProgram, StageSum, banner_lines, plan_kernel, print_stage_sum,
+from .plan import (EULER, FaceProgram, StageSum, banner_lines, exported_symbols, plan_kernel,
+                   print_stage_sum,
                    stage_buffers, stage_steps, step_calls)
 
 KINDS = {"double": "real64", "float": "real32"}
@@ -77,7 +78,7 @@ class FortranKernelPrinter(PlanPrinting, FCodePrinter):
             return self._print_LimiterApplication(expr)
         if isinstance(expr, LimiterFormCall):
             form = type(expr)
-            return (f"{self.name}_{form.kind}_{form.limiter_name}"
+            return (f"{form.kind}_{form.limiter_name}"
                     f"({', '.join(self._print(a) for a in expr.args)})")
         return super()._print(expr, **kwargs)
 
@@ -99,7 +100,7 @@ class FortranKernelPrinter(PlanPrinting, FCodePrinter):
         name = limiter_name_of(expr)
         if name not in self.limiter_names:
             raise AssertionError(f"limiter {name} is called but not in the plan")
-        return f"{self.name}_limiter_{name}({', '.join(self._print(a) for a in expr.args)})"
+        return f"limiter_{name}({', '.join(self._print(a) for a in expr.args)})"
 
     def _print_Ratio(self, expr):
         return f"{self.helper('ratio')}({self._print(expr.args[0])}, {self._print(expr.args[1])})"
@@ -199,7 +200,7 @@ def _flux_loop(printer: FortranKernelPrinter, name: str, program: FaceProgram,
                suffix: str) -> tuple[Function, FluxLoop]:
     names = [printer._print(q(k)) for k in program.offsets]
     arguments = names + (["c"] if program.uses_c else [])
-    function = _function(printer, f"{name}_face{suffix}", arguments, program,
+    function = _function(printer, f"face{suffix}", arguments, program,
                          f"g{suffix} of the face flux u * g in the upwind frame: q_0 the upwind "
                          "cell, q_1 the downwind cell" + (", c = |u| dt/dx" if program.uses_c
                                                           else ""))
@@ -210,7 +211,7 @@ def _flux_loop(printer: FortranKernelPrinter, name: str, program: FaceProgram,
         cells = [both_cells(k)[0 if forward else 1] for k in program.offsets]
         loads = [f"q(i + {cell})" if cell > 0 else (f"q(i - {-cell})" if cell < 0 else "q(i)")
                  for cell in cells]
-        return printer.wrap(f"flux(i) = u * {name}_face{suffix}({', '.join(loads + c_argument)})")
+        return printer.wrap(f"flux(i) = u * face{suffix}({', '.join(loads + c_argument)})")
 
     return function, FluxLoop(suffix, program.uses_c, call(True), call(False))
 
@@ -237,13 +238,13 @@ def fortran_kernel_context(scheme: Scheme, precision: str = "double", verdicts=(
     functions = []
     for form in plan.limiter_forms:
         functions.append(_function(
-            printer, f"{name}_{form.kind}_{form.name}", ("a", "b", "c") if form.courant
+            printer, f"{form.kind}_{form.name}", ("a", "b", "c") if form.courant
             else ("a", "b"), form.program,
             f"limiter {printer.escape_text(form.name)}: psi(ratio(a, b))"
             + (" * b" if form.kind == "slope" else "") + ", finite for all finite a and b"))
     for lim in plan.limiters:
         arguments = ("r", "c") if scheme.limiter(lim.name).courant else ("r",)
-        functions.append(_function(printer, f"{name}_limiter_{lim.name}", arguments,
+        functions.append(_function(printer, f"limiter_{lim.name}", arguments,
                                    lim.program, f"limiter {printer.escape_text(lim.name)}"
                                                 f"({', '.join(arguments)})"))
     loops = []
@@ -269,7 +270,7 @@ def fortran_kernel_context(scheme: Scheme, precision: str = "double", verdicts=(
     buffers = stage_buffers(plan)
     banner = comment_lines(banner_lines(scheme, precision, verdicts))
     return {
-        "name": name, "plan": plan, "kind": KINDS[precision], "c_kind": C_KINDS[precision], "banner": banner,
+        "name": name, "plan": plan, "symbols": exported_symbols(name, precision), "kind": KINDS[precision], "c_kind": C_KINDS[precision], "banner": banner,
         "exchange": plan.exchange.lines, "params": params, "functions": functions,
         "loops": loops, "stages": stages, "saved": saved, "clip": clip,
         "registers": plan.registers, "uses_start": plan.uses_start,

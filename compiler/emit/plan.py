@@ -34,6 +34,23 @@ from .exchange import ExchangeSchedule
 from .limited import LimiterForm, safe_limiters
 from .scaled_face import scaled_face
 
+PRECISION_TAGS = {"double": "f64", "float": "f32"}
+EXPORTED_FUNCTIONS = ("workspace_size", "fill_periodic", "stage", "step")
+"""The functions every compiled target exports. Their link symbols carry the precision
+(`exported_symbol`); the C header maps the plain names onto them, so a host compiled
+with a double header and linked with a float object fails to link."""
+
+
+def exported_symbol(name: str, function: str, precision: str) -> str:
+    """The link symbol of a kernel function: NAME_step_f64, NAME_workspace_size_f32, ..."""
+    return f"{name}_{function}_{PRECISION_TAGS[precision]}"
+
+
+def exported_symbols(name: str, precision: str) -> dict[str, str]:
+    """{plain name: link symbol} of every exported function."""
+    return {f"{name}_{f}": exported_symbol(name, f, precision) for f in EXPORTED_FUNCTIONS}
+
+
 FCT_EXTRA_FACES = 2
 """Extra face velocities (and faces) per side an FCT step evaluates."""
 

@@ -91,7 +91,9 @@ def stage_kernel(sources: dict) -> StageKernel:
     from ..build import compile_source
 
     ffi, lib = compile_source(name, sources["source"], sources["declarations"], sources["opt"])
-    c_stage = getattr(lib, f"{name}_stage")
+    from fluxloom.compiler.emit.plan import exported_symbol
+
+    c_stage = getattr(lib, exported_symbol(name, "stage", precision))
     ctype = C_TYPES[precision]
 
     def run_c_stage(stage, n, q_start, q_stage, q_out, u_face, dt_dx, work):
@@ -102,7 +104,8 @@ def stage_kernel(sources: dict) -> StageKernel:
 
     return StageKernel(name, "c", precision, int(getattr(lib, f"{name}_HALO")),
                        int(getattr(lib, f"{name}_FACE_HALO")), int(getattr(lib, f"{name}_STAGES")),
-                       getattr(lib, f"{name}_workspace_size"), run_c_stage)
+                       getattr(lib, exported_symbol(name, "workspace_size", precision)),
+                       run_c_stage)
 
 
 def load_stage_kernel(scheme, backend: str = "numpy", precision: str = "double",
