@@ -20,9 +20,9 @@ from ..upwind import both_cells
 from .environment import render
 from .printing import PlanPrinting, check_precision
 from .limited import FLOOR_EXPONENT, LimiterFormCall
-from .plan import (EULER, FaceProgram, KernelPlan, StageStep, banner_lines, exported_symbols,
-                   plan_kernel,
-                   print_stage_sum, stage_buffers, stage_steps, step_calls)
+from .plan import (EULER, FaceProgram, KernelPlan, StageStep, banner_lines, clamp,
+                   exported_symbols, plan_kernel, print_stage_sum, stage_buffers, stage_steps,
+                   step_calls)
 
 PRECISIONS = {"double": float64, "float": float32}
 FLUX_BLOCK = 128
@@ -166,6 +166,20 @@ class KernelPrinter(PlanPrinting, C99CodePrinter):
         if name not in self.limiter_names:
             raise AssertionError(f"limiter {name} is called but not in the plan")
         return f"{self.plan.name}_limiter_{name}({', '.join(self._print(a) for a in expr.args)})"
+
+    def _print_Piecewise(self, expr):
+        """Nested selects on one line, c0 ? e0 : (c1 ? e1 : e2) (the plan's clamp)."""
+        *pieces, (otherwise, _) = expr.args
+        text = self._operand(otherwise)
+        for depth, (value, condition) in enumerate(reversed(pieces)):
+            rest = f"({text})" if depth else text
+            text = (f"{self._operand(condition.lhs)} {condition.rel_op} "
+                    f"{self._operand(condition.rhs)} ? {self._operand(value)} : {rest}")
+        return text
+
+    def _operand(self, expr) -> str:
+        text = self._print(expr)
+        return f"({text})" if text.startswith("-") else text
 
     def _print_Min(self, expr):
         return self._fold("min", expr.args)
@@ -392,6 +406,7 @@ def c_context(scheme: Scheme, precision: str = "double", verdicts=()) -> dict:
         "stage_calls": step_calls(plan),
         "stage_buffers": stage_buffers(plan),
         "clip": clip,
+        "clamped": None if plan.clip is None else printer._print(clamp(plan.clip)),
         "block": FLUX_BLOCK,
         # continuation lines of the two long prototypes line up under "("
         "stage_indent": " " * len(f"void {plan.name}_stage("),

@@ -28,9 +28,8 @@ from .environment import render
 from .fortran import ConstantPrinter, comment_lines, fortran_identifier
 from .limited import FLOOR_EXPONENT, LimiterFormCall
 from .printing import PlanPrinting, check_precision
-from .plan import (EULER, FaceProgram, StageSum, banner_lines, exported_symbols, plan_kernel,
-                   print_stage_sum,
-                   stage_buffers, stage_steps, step_calls)
+from .plan import (EULER, FaceProgram, StageSum, banner_lines, clamp, exported_symbols,
+                   plan_kernel, print_stage_sum, stage_buffers, stage_steps, step_calls)
 
 KINDS = {"double": "real64", "float": "real32"}
 C_KINDS = {"double": "c_double", "float": "c_float"}
@@ -273,6 +272,7 @@ def fortran_kernel_context(scheme: Scheme, precision: str = "double", verdicts=(
         "name": name, "plan": plan, "symbols": exported_symbols(name, precision), "kind": KINDS[precision], "c_kind": C_KINDS[precision], "banner": banner,
         "exchange": plan.exchange.lines, "params": params, "functions": functions,
         "loops": loops, "stages": stages, "saved": saved, "clip": clip,
+        "clamped": None if plan.clip is None else printer._print(clamp(plan.clip)),
         "registers": plan.registers, "uses_start": plan.uses_start,
         "stage_buffers": buffers, "stage_calls": step_calls(plan),
         "helpers": sorted(printer.helpers_used),

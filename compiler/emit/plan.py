@@ -233,6 +233,19 @@ def plan_kernel(scheme: Scheme) -> KernelPlan:
     )
 
 
+# ---- the clip step ---------------------------------------------------------------
+
+CLIPPED = sympy.Symbol("value", real=True)
+"""The value the clip step holds in [LO, HI] (each target names it `value`)."""
+
+
+def clamp(clip) -> sympy.Expr:
+    """The clip step as one expression every target prints: LO where value < LO, HI where
+    value > HI, else value (a NaN stays NaN)."""
+    low, high = clip
+    return sympy.Piecewise((low, CLIPPED < low), (high, CLIPPED > high), (CLIPPED, True))
+
+
 # ---- stage updates as sums the compiled kernels print -------------------------
 
 EULER = "euler"
