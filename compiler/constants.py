@@ -62,11 +62,17 @@ def literal(text: str, span: Span | None = None, where: str | None = None) -> sy
     return sympy.Rational(value.numerator, value.denominator)
 
 
-def check_power(base: sympy.Expr, exponent: sympy.Expr, span: Span | None) -> None:
-    """Refuse base ^ exponent before computing it when the exact result would be huge."""
+def check_power(base: sympy.Expr, exponent: sympy.Expr, span: Span | None,
+                written: sympy.Expr | None = None) -> None:
+    """Refuse base ^ exponent before computing it when the exact result would be huge;
+    `written` is the exponent as the spec wrote it when params gave it its value."""
     if not exponent.is_number:
         return
     if abs(exponent) > MAX_EXPONENT:
+        if written is not None and written != exponent:
+            raise LoomError(f"exponent {written} = {exponent} is too large (at most "
+                            f"{MAX_EXPONENT}: a param used as an exponent is bounded like a "
+                            "number)", span)
         raise LoomError(f"exponent {exponent} is too large (at most {MAX_EXPONENT} here)", span)
     if base.is_Rational and exponent.is_Rational:
         bits = abs(int(base.p)).bit_length() + int(base.q).bit_length()

@@ -72,12 +72,13 @@ def printable(text: str, keep: str = "") -> str:
 
 
 def _shorten(message: str) -> str:
-    """Very long words (a 5000-digit number, a name pasted many times) cut in the middle."""
-    return _LONG_WORD.sub(lambda m: f"{m.group(0)[:30]}...({len(m.group(0))} characters)..."
-                          f"{m.group(0)[-10:]}", message)
+    """Very long words (a 5000-digit number, a name pasted many times) cut in the middle;
+    a file path of ordinary length (up to 400 characters) is kept whole."""
+    return _LONG_WORD.sub(lambda m: f"{m.group(0)[:60]}...({len(m.group(0))} characters)..."
+                          f"{m.group(0)[-60:]}", message)
 
 
-_LONG_WORD = re.compile(r"[^\s']{81,}")
+_LONG_WORD = re.compile(r"[^\s']{401,}")
 
 
 def split_lines(text: str) -> list[str]:

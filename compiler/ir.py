@@ -17,10 +17,9 @@ from . import constants
 from . import syntax as ast
 from .check import integer_offset
 from .diagnostics import LoomError, Span, did_you_mean
-from .upwind import stencil_reach
-from .limits import MAX_EXPONENT  # keeps exact arithmetic on constants from running away
 from .symbols import (C, R, U, Ratio, limiter_calls, limiter_function, limiter_name_of, offsets_in,
                       param_symbol, q)
+from .upwind import stencil_reach
 
 SMOOTH_BREAKERS = (sympy.Abs, sympy.Min, sympy.Max, sympy.sign, Ratio)
 
@@ -157,10 +156,15 @@ class Scheme:
             constants.check_range(value, None, "--set", what=f"value of param '{p.name}'")
             values[p.symbol] = value
             params.append(replace(p, value=value))
+        exprs = [("the flux", self.face), ("the low_flux", self.low_face)]
+        exprs += [(f"limiter '{lim.name}'", lim.body) for lim in self.limiters]
+        for what, expr in exprs:
+            if expr is not None:
+                _check_defined(expr, values, what, None, "--set")
         for base, exponent in self.param_powers:
-            base, exponent = base.xreplace(values), exponent.xreplace(values)
             try:
-                constants.check_power(base, exponent, None)
+                constants.check_power(base.xreplace(values), exponent.xreplace(values), None,
+                                      exponent)
             except LoomError as err:
                 raise LoomError(err.message, file="--set") from None
         clip = self.clip
@@ -261,13 +265,19 @@ class _Lowerer:
             return
         if exponent.free_symbols and exponent.free_symbols <= set(self.param_values):
             constants.check_power(base.xreplace(self.param_values),
-                                  exponent.xreplace(self.param_values), node.right.span)
+                                  exponent.xreplace(self.param_values), node.right.span, exponent)
             self.param_powers.append((base, exponent))
 
     def constant(self, node: ast.Expr, what: str) -> tuple[sympy.Expr, sympy.Expr]:
         """(value, definition): a constant made of numbers and earlier params."""
         definition = self.expr(node)
-        value = definition.xreplace(self.param_values)
+        try:
+            value = definition.xreplace(self.param_values)
+        except (ValueError, TypeError, ZeroDivisionError):
+            value = sympy.nan  # min/max of an infinity (a division by a param that is 0)
+        if value.has(sympy.zoo, sympy.nan, sympy.oo, -sympy.oo):
+            raise LoomError(f"{what} is not a finite number with the params' values "
+                            "(a division by a param that is 0?)", node.span)
         if not value.is_number:
             raise LoomError(f"{what} must be a real constant", node.span)
         constants.check_range(value, node.span, what=what)
@@ -309,11 +319,13 @@ def lower(spec: ast.Spec) -> Scheme:
         elif isinstance(stmt, ast.LimiterDef):
             body = low.expr(stmt.body, {stmt.args[0].id: R})  # 'c' is C from the environment
             low.check_kernel_constants(body, stmt.body)
+            _check_defined(body, low.param_values, f"limiter '{stmt.name.id}'", stmt.body.span)
             limiters.append(Limiter(stmt.name.id, body, courant=len(stmt.args) == 2))
             low.limiters[stmt.name.id] = limiter_function(stmt.name.id)
         elif isinstance(stmt, ast.Flux):
             flux = low.expr(stmt.value)
             low.check_kernel_constants(flux, stmt.value)
+            _check_defined(flux, low.param_values, f"the {stmt.kind}", stmt.value.span)
             g = _face_of(flux, stmt)
             if stmt.kind == "flux":
                 face = g
@@ -331,6 +343,24 @@ def lower(spec: ast.Spec) -> Scheme:
     return Scheme(spec.name.id, about, time, face, low_face, correct, clip,
                   tuple(params), tuple(limiters), spec.file,
                   clip_definition if clip is not None else None, tuple(low.param_powers))
+
+
+def _check_defined(expr: sympy.Expr, values: dict, what: str, span: Span | None,
+                   file: str | None = None) -> None:
+    """Params with their values must leave expr finite: a division by a param that is 0
+    would put an infinity (or NaN) into every kernel."""
+    if not values or not expr.free_symbols & set(values):
+        return
+    try:
+        value = expr.subs(values)
+        undefined = value.has(sympy.zoo, sympy.nan, sympy.oo, -sympy.oo)
+    except (ValueError, TypeError, ZeroDivisionError):
+        undefined = True  # sympy refuses min/max of an infinity
+    if undefined:
+        given = ", ".join(f"{s} = {v}" for s, v in sorted(values.items(), key=lambda kv: str(kv[0]))
+                          if s in expr.free_symbols)
+        raise LoomError(f"{what} has no finite value with {given} (a division by a param "
+                        "that is 0?)", span, **({"file": file} if file else {}))
 
 
 def _face_of(flux: sympy.Expr, stmt: ast.Flux) -> sympy.Expr:
@@ -426,27 +456,6 @@ def apply_overrides(scheme: Scheme, overrides: dict[str, sympy.Expr]) -> Scheme:
             have = f"; it has {', '.join(known)}" if known else "; it has no params"
             raise LoomError(f"--set {name}: scheme '{scheme.name}' has no param '{name}'"
                             f"{did_you_mean(name, known)}{have}", file="--set")
-    _check_param_exponents(scheme, overrides)
     return scheme.with_params(overrides)
 
 
-def too_large_exponent(value: sympy.Expr) -> bool:
-    return bool(value.is_number and value.is_real and abs(value) > MAX_EXPONENT)
-
-
-def _check_param_exponents(scheme: Scheme, overrides: dict[str, sympy.Expr]) -> None:
-    """An override must keep every exponent that uses it within MAX_EXPONENT."""
-    if not overrides:
-        return
-    values = {p.symbol: overrides.get(p.name, p.value) for p in scheme.params}
-    exprs = [scheme.face] + [e for e in (scheme.low_face,) if e is not None]
-    exprs += [lim.body for lim in scheme.limiters]
-    for expr in exprs:
-        for power in expr.atoms(sympy.Pow):
-            if power.exp.free_symbols & set(values):
-                value = power.exp.xreplace(values)
-                if too_large_exponent(value):
-                    used = ", ".join(sorted(str(s) for s in power.exp.free_symbols))
-                    raise LoomError(f"--set: {used} makes the exponent {power.exp} = {value}, "
-                                    f"more than {MAX_EXPONENT} (a param used as an exponent is "
-                                    "bounded like a number)", file="--set")

@@ -117,10 +117,11 @@ def compile_source(label: str, source: str, declarations: str, opt: str = "-O2")
     """Compile (or reuse) any C source as a cffi module named by its hash; (ffi, lib)."""
     flags = (*BUILD_FLAGS, *shlex.split(opt))
     name = _hashed_name(label, source, flags)
-    with _lock:
+    cache = cache_dir()  # checked on every call: a broken FLUXLOOM_CACHE is reported even
+    with _lock:          # when this process already holds the kernel
         module = _loaded.get(name)
         if module is None:
-            module = _load_or_build(cache_dir(), name, source, declarations, flags)
+            module = _load_or_build(cache, name, source, declarations, flags)
             _loaded[name] = module
     return module.ffi, module.lib
 
@@ -261,10 +262,10 @@ def compile_shared(label: str, source: str, suffix: str, command: tuple[str, ...
     library exporting the C header's functions; cffi's (ffi, lib) over it (ABI mode).
     Cached and checked like the C builds (same folder, digest, atomic rename)."""
     name = _hashed_name(label, source, tuple(command))
+    cache = cache_dir()  # checked on every call, as in compile_source
     with _lock:
         found = _loaded.get(name)
         if found is None:
-            cache = cache_dir()
             entry = cache / name
             library = entry / f"{name}.so"
             if not _verified(entry, library):

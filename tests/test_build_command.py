@@ -205,3 +205,14 @@ def test_a_bad_name_is_a_clear_error(tmp_path, capsys):
     err = capsys.readouterr().err
     assert "--name: error: scheme name 'int' is a C keyword" in err and "Traceback" not in err
     assert not any(tmp_path.iterdir())
+
+
+def test_a_long_output_path_is_named_in_full(tmp_path, capsys):
+    """A refused overwrite names the file whole, however deep the folder."""
+    deep = tmp_path / ("folder_" * 12) / ("nested_" * 12)
+    deep.mkdir(parents=True)
+    assert build(VANLEER, "-o", deep) == 0
+    (deep / "lw_vanleer.c").write_text("/* mine */\n")
+    capsys.readouterr()
+    assert build(VANLEER, "-o", deep) == 2
+    assert str(deep / "lw_vanleer.c") in capsys.readouterr().err

@@ -13,6 +13,7 @@ import sys
 from fractions import Fraction
 
 import numpy as np
+import sympy
 import pytest
 
 from fluxloom.compiler import LoomError, parse_overrides, scheme_from_text
@@ -190,3 +191,25 @@ def test_huge_constants_are_refused_within_a_small_memory_cap():
     assert done.stdout.split("\n")[:-1] == ["refused 2 " + str(c) for c in (22, 38, 36, 22)], \
         done.stdout
     assert resource.getrlimit(resource.RLIMIT_AS)  # the cap was the child's only
+
+
+# A param of value 0 under a division has no value (common practice, no source): the
+# front end must say so where it is written, and `--set` likewise, never an internal error.
+@pytest.mark.parametrize("text, line", [
+    ("scheme z {\n  param k0 = 0\n  param y = max(0, 2 / k0)\n  flux = u * q[0]\n}\n", 3),
+    ("scheme z {\n  param k0 = 0\n  flux = u * q[0] * (1 + max(0, 1 / k0))\n}\n", 3),
+    ("scheme z {\n  param k0 = 0\n  let r = ratio(q[0] - q[-1], q[1] - q[0])\n"
+     "  limiter f(x) = max(0, min(1, x / k0))\n  flux = u * (q[0] + f(r) * (q[1] - q[0]))\n}\n", 4),
+])
+def test_a_division_by_a_param_that_is_zero_is_located(text, line):
+    with pytest.raises(LoomError) as caught:
+        scheme_from_text(text, "z.loom")
+    assert "no finite value" in caught.value.message or "not a finite number" in caught.value.message
+    assert caught.value.span.line == line
+
+
+def test_set_giving_a_param_zero_under_a_division_is_refused():
+    text = "scheme z {\n  param k0 = 1\n  flux = u * q[0] * (1 + max(0, 1 / k0) / 8)\n}\n"
+    assert scheme_from_text(text, "z.loom", {"k0": sympy.Integer(2)}).params[0].value == 2
+    with pytest.raises(LoomError, match="no finite value with k0 = 0"):
+        scheme_from_text(text, "z.loom", {"k0": sympy.Integer(0)})
