@@ -91,7 +91,8 @@ def check_kernel_name(name: ast.Name) -> None:
 
 def check(spec: ast.Spec) -> None:
     """Raise LoomError for the first semantic problem in spec."""
-    check_kernel_name(spec.name)
+    name = spec.name
+    check_kernel_name(name)
 
     seen: dict[str, ast.Statement] = {}
     time_method = "euler"
