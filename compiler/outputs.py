@@ -23,6 +23,8 @@ def verdict_lines(scheme: Scheme) -> tuple[str, ...]:
 
 
 def target_files(scheme: Scheme, target: str, precision: str = "double",
-                 verdicts: bool = True) -> dict[str, str]:
-    """{file name: text} of `build --target target`; verdicts=False leaves the analysis out."""
-    return files_for(target, scheme, precision, verdict_lines(scheme) if verdicts else ())
+                 verdicts: bool = True, **options) -> dict[str, str]:
+    """{file name: text} of `build --target target`; verdicts=False leaves the analysis out;
+    options go to the targets that take them (c: openmp)."""
+    return files_for(target, scheme, precision, verdict_lines(scheme) if verdicts else (),
+                     **options)

@@ -101,16 +101,41 @@ def _extension_suffix() -> str:
     return importlib.machinery.EXTENSION_SUFFIXES[0]
 
 
-def compile_c(scheme: Scheme, precision: str = "double", opt: str = "-O2"):
+def compile_c(scheme: Scheme, precision: str = "double", opt: str = "-O2",
+              openmp: bool = False):
     """Compile (or reuse) the C kernel of scheme; returns cffi's (ffi, lib).
 
     opt holds the optimisation flags, split like a shell would ("-O3 -march=native").
+    openmp=True generates the kernel for OpenMP and builds it with OPENMP_FLAG (the
+    caller checks `openmp_supported()` first).
     """
-    sources = c_sources(scheme, precision)
+    sources = c_sources(scheme, precision, openmp=openmp)
     header, kernel = sources[f"{scheme.name}.h"], sources[f"{scheme.name}.c"]
     # One translation unit: the header text stands in for the #include.
     source = kernel.replace(f'#include "{scheme.name}.h"', header, 1)
+    if openmp:
+        opt = f"{opt} {OPENMP_FLAG}"
     return compile_source(scheme.name, source, c_declarations(scheme, precision), opt)
+
+
+OPENMP_FLAG = "-fopenmp"
+_openmp_support: list[bool] = []
+
+
+def openmp_supported() -> bool:
+    """True when the C compiler builds and links a program with OPENMP_FLAG (checked once)."""
+    with _lock:
+        if not _openmp_support:
+            probe = ("#include <omp.h>\nint fluxloom_openmp_probe(void) "
+                     "{ return omp_get_max_threads(); }\n")
+            try:
+                _load_or_build(cache_dir(), _hashed_name("openmp_probe", probe, (OPENMP_FLAG,)),
+                               probe, "int fluxloom_openmp_probe(void);",
+                               (*BUILD_FLAGS, OPENMP_FLAG))
+                _openmp_support.append(True)
+            except LoomError:
+                _openmp_support.append(False)
+    return _openmp_support[0]
 
 
 def compile_source(label: str, source: str, declarations: str, opt: str = "-O2"):
@@ -217,7 +242,9 @@ def _alive(pid: int) -> bool:
 def _build(cache: Path, name: str, source: str, declarations: str, flags) -> None:
     ffi = cffi.FFI()
     ffi.cdef(declarations)
-    ffi.set_source(name, source, extra_compile_args=list(flags))
+    # OpenMP is a link flag too (the runtime library)
+    ffi.set_source(name, source, extra_compile_args=list(flags),
+                   extra_link_args=[f for f in flags if f == OPENMP_FLAG])
     try:
         workdir = Path(tempfile.mkdtemp(prefix=f"{TEMP_PREFIX}{os.getpid()}-", dir=cache))
     except OSError as err:

@@ -68,7 +68,7 @@ class Kernel:
     """
 
     def __init__(self, name, backend, precision, halo, face_halo, stages, workspace_size,
-                 run_step):
+                 run_step, run_sweep=None, sweep_widths=False, sweep_thickness=False):
         self.name = name
         self.backend = backend
         self.precision = precision
@@ -78,6 +78,10 @@ class Kernel:
         self.stages = stages
         self._workspace_size = workspace_size
         self._run_step = run_step
+        self._run_sweep = run_sweep
+        self.sweep_widths = sweep_widths          # sweep() takes per-cell dt/dx
+        self.sweep_thickness = sweep_thickness    # sweep() takes layer thicknesses
+        self.threads = lambda: 1           # threads a sweep may use (C with OpenMP: more)
         self._work: dict[int, np.ndarray] = {}
 
     def __repr__(self) -> str:
@@ -128,6 +132,15 @@ class Kernel:
         self._run_step(n, q, out, u_face, dt_dx, self._workspace(n))
         return out
 
+    def sweep(self, q, u_face, dt_dx, axis, halo=None, out=None, h_old=None, h_new=None):
+        """Every line of an array of rank 1 to 3 along `axis`: the generated NAME_sweep.
+
+        See runtime/array_sweep.py for the arguments; returns `out` (a copy of q
+        with the interior of every interior line advanced, when not given)."""
+        from .array_sweep import run_sweep
+
+        return run_sweep(self, q, u_face, dt_dx, axis, halo, out, h_old, h_new)
+
     def _check_dt_dx(self, dt_dx) -> float:
         try:
             value = float(dt_dx)
@@ -171,33 +184,51 @@ class Kernel:
 
 
 def load_kernel(scheme: Scheme, backend: str = "numpy", precision: str = "double",
-                opt: str | None = None) -> Kernel:
+                opt: str | None = None, openmp: bool = False) -> Kernel:
     """The scheme's kernel for one back end and precision (generated and cached on first use).
 
     opt (C only) is the optimisation flag, e.g. "-O2" or "-O3"; None keeps the build default.
+    openmp (C only): build with OpenMP where the compiler supports it, so sweeps share
+    their lines among OMP_NUM_THREADS threads (`kernel.threads()` says how many).
     """
     if backend not in BACKENDS:
         raise KernelError(f"unknown back end '{backend}'; choose one of {', '.join(BACKENDS)}")
     if precision not in DTYPES:
         raise KernelError(f"unknown precision '{precision}'; choose double or float")
-    return LOADERS[targets.target(backend).runs](scheme, backend, precision, opt)
+    return LOADERS[targets.target(backend).runs](scheme, backend, precision, opt, openmp)
 
 
-def _python_kernel(scheme: Scheme, backend: str, precision: str, opt: str | None) -> Kernel:
+def _python_kernel(scheme: Scheme, backend: str, precision: str, opt: str | None,
+                   openmp: bool = False) -> Kernel:
     module = numpy_module(scheme, precision)
     return Kernel(scheme.name, backend, precision, module.HALO, module.FACE_HALO,
-                  module.STAGES, module.workspace_size, module.step)
+                  module.STAGES, module.workspace_size, module.step, module.sweep,
+                  module.SWEEP_WIDTHS, module.SWEEP_THICKNESS)
 
 
-def _cffi_kernel(scheme: Scheme, backend: str, precision: str, opt: str | None) -> Kernel:
-    from .build import compile_c
+def _cffi_kernel(scheme: Scheme, backend: str, precision: str, opt: str | None,
+                 openmp: bool = False) -> Kernel:
+    from .array_sweep import c_sweep_runner
+    from .build import compile_c, openmp_supported
 
-    ffi, lib = compile_c(scheme, precision) if opt is None else compile_c(scheme, precision, opt)
-    return _abi_kernel(scheme, backend, precision, ffi, lib)
+    if openmp and not openmp_supported():
+        import warnings
+        warnings.warn("the C compiler does not build with -fopenmp; the kernel's sweeps "
+                      "run on one thread", RuntimeWarning, stacklevel=3)
+        openmp = False
+    flags = {} if opt is None else {"opt": opt}
+    ffi, lib = compile_c(scheme, precision, openmp=openmp, **flags)
+    kernel = _abi_kernel(scheme, backend, precision, ffi, lib,
+                         c_sweep_runner(ffi, lib, scheme.name, precision),
+                         bool(getattr(lib, f"{scheme.name}_SWEEP_WIDTHS")),
+                         bool(getattr(lib, f"{scheme.name}_SWEEP_THICKNESS")))
+    kernel.threads = getattr(lib, f"{scheme.name}_sweep_threads")
+    return kernel
 
 
-def _abi_kernel(scheme: Scheme, backend: str, precision: str, ffi, lib) -> Kernel:
-    """A Kernel over a library exporting the C header's functions (any compiler)."""
+def _abi_kernel(scheme: Scheme, backend: str, precision: str, ffi, lib, *sweep) -> Kernel:
+    """A Kernel over a library exporting the C header's functions (any compiler); sweep:
+    (run_sweep, widths, thickness) where the library has the sweep kernel."""
     name = scheme.name
     c_step = getattr(lib, exported_symbol(name, "step", precision))
     c_workspace = getattr(lib, exported_symbol(name, "workspace_size", precision))
@@ -213,20 +244,33 @@ def _abi_kernel(scheme: Scheme, backend: str, precision: str, ffi, lib) -> Kerne
                ffi.from_buffer(ctype, u_face), dt_dx,
                null if work is None else ffi.from_buffer(ctype, work, require_writable=True))
 
-    return Kernel(name, backend, precision, halo, face_halo, stages, c_workspace, run_step)
+    return Kernel(name, backend, precision, halo, face_halo, stages, c_workspace, run_step,
+                  *sweep)
 
 
-def _shared_kernel(scheme: Scheme, backend: str, precision: str, opt: str | None) -> Kernel:
-    """A target that builds its own shared library with the C header's functions."""
-    from fluxloom.compiler.emit.c import c_declarations
-
+def _shared_kernel(scheme: Scheme, backend: str, precision: str, opt: str | None,
+                   openmp: bool = False) -> Kernel:
+    """A target that builds its own shared library with the C header's functions (no
+    sweep kernel: `Kernel.sweep` is then unavailable)."""
     from .build import compile_shared
 
     emitter = targets.target(backend).emitter()
     (source,) = emitter.files(scheme, precision).values()
     ffi, lib = compile_shared(f"{scheme.name}_{backend}", source, emitter.SOURCE_SUFFIX,
-                              emitter.COMPILE, c_declarations(scheme, precision))
+                              emitter.COMPILE, step_declarations(scheme, precision))
     return _abi_kernel(scheme, backend, precision, ffi, lib)
+
+
+def step_declarations(scheme: Scheme, precision: str) -> str:
+    """The C header's declarations without the sweep kernel's (for targets without it)."""
+    from fluxloom.compiler.emit.c import c_declarations
+
+    name = scheme.name
+    sweep = (f"{name}_sweep(", f"{name}_sweep_workspace_size(", f"{name}_sweep_threads(",
+             f"{name}_SWEEP_")
+    text = c_declarations(scheme, precision)
+    return "\n".join(line for line in text.splitlines()
+                      if not any(mark in line for mark in sweep)) + "\n"
 
 
 LOADERS = {"python": _python_kernel, "cffi": _cffi_kernel, "shared": _shared_kernel}

@@ -5,8 +5,8 @@ rank 1 to 3 along `axis` by one step of the 1-D kernel: it copies each line into
 a scratch line with `kernel.halo` ghost cells per side, lets a boundary fill
 callable fill the ghosts, and calls `kernel.step` once per line. It is slow (one
 kernel call per line, Python in between) and exists to be replaced: generated
-`NAME_sweep` kernels advance a whole array in one call, and this path stays as
-the reference they must match.
+`NAME_sweep` kernels advance a whole array in one call (`KernelSweep` below, what
+`verify --dims 2` runs), and this path stays as the reference they must match.
 
 Arrays are in C order, `q[i, j]` with axis 0 = x and axis 1 = y (axis 2 = z).
 Face velocities along `axis` have the shape of q with one more entry along axis:
@@ -100,6 +100,50 @@ class LineSweep:
             raise KernelError(f"{self.kernel.name}: face velocities along the swept axis have "
                               f"shape {faces.shape} (swept axis last); expected {expected}")
         return np.ascontiguousarray(faces.reshape(math.prod(across), faces.shape[-1]))
+
+
+class KernelSweep:
+    """The generated sweep (`Kernel.sweep`, NAME_sweep in C) with LineSweep's interface:
+    `(axis, q, u_face, dt_dx) -> q_new` on arrays without ghost cells, the ghosts along the
+    swept axis filled periodically. One call per sweep, every line at once."""
+
+    reference_path = False
+
+    def __init__(self, kernel: Kernel):
+        self.kernel = kernel
+        self.calls = 0      # sweep calls made
+
+    def __repr__(self) -> str:
+        return f"<KernelSweep {self.kernel!r}>"
+
+    def __call__(self, axis: int, q: np.ndarray, u_face: np.ndarray, dt_dx: float) -> np.ndarray:
+        kernel = self.kernel
+        if not isinstance(q, np.ndarray) or not 1 <= q.ndim <= MAX_RANK:
+            raise KernelError(f"{kernel.name}: a sweep takes arrays of rank 1 to {MAX_RANK}")
+        if not 0 <= axis < q.ndim:
+            raise KernelError(f"{kernel.name}: axis {axis} is not an axis of an array of rank "
+                              f"{q.ndim}")
+        halo = [0] * q.ndim
+        halo[axis] = kernel.halo
+        padded = np.pad(q, [(h, h) for h in halo])
+        if padded.dtype != kernel.dtype:
+            raise KernelError(f"{kernel.name}: q has dtype {q.dtype}; this {kernel.precision} "
+                              f"kernel takes {kernel.dtype}")
+        moved = np.moveaxis(padded, axis, -1)
+        _fill_ghosts(moved, kernel.halo)
+        out = kernel.sweep(padded, np.ascontiguousarray(u_face), dt_dx, axis, tuple(halo))
+        self.calls += 1
+        index = [slice(None)] * q.ndim
+        index[axis] = slice(kernel.halo, kernel.halo + q.shape[axis])
+        return np.ascontiguousarray(out[tuple(index)])
+
+
+def _fill_ghosts(moved: np.ndarray, halo: int) -> None:
+    """Periodic ghosts at both ends of the last axis of a view, in place."""
+    n = moved.shape[-1] - 2 * halo
+    if halo and n > 0:
+        moved[..., :halo] = moved[..., halo + np.arange(-halo, 0) % n]
+        moved[..., halo + n:] = moved[..., halo + np.arange(halo) % n]
 
 
 @dataclass(frozen=True)

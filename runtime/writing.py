@@ -21,9 +21,10 @@ from fluxloom.compiler import LoomError
 from fluxloom.compiler.outputs import target_files
 
 
-def generated_files(scheme, target: str, precision: str, verdicts: bool = True) -> dict[str, str]:
+def generated_files(scheme, target: str, precision: str, openmp: bool = False,
+                    verdicts: bool = True) -> dict[str, str]:
     """{file name: text} for one target (and its companions, or 'all'), in a fixed order."""
-    return target_files(scheme, target, precision, verdicts)
+    return target_files(scheme, target, precision, verdicts, openmp=openmp)
 
 
 BANNER_LINES = 60   # the banner sits at the top of every generated file

@@ -161,3 +161,18 @@ def test_the_budget_does_not_change_verdicts_given_enough_time(fresh_cache):
     for doc in (first, second):
         doc.pop("budget")
     assert first == second and not analysis.analyse(scheme, budget_seconds=60).over_budget
+
+
+def test_the_passes_together_get_at_most_a_few_budgets():
+    """Once earlier passes have used the analysis's whole budget, a later pass gets only
+    the floor: it is cut short and says why (each pass is endless work here)."""
+    passes = analysis._Passes(0.2)
+    first = passes.run("first", lambda: endless_sympy(), undecided=lambda: "undecided")
+    assert first == "undecided"
+    passes.end = passes.clock()  # as if the first pass had used everything
+    second = passes.run("second", lambda: endless_sympy(), lambda: endless_sympy(),
+                        "a fallback that never ends", lambda: "undecided")
+    assert second == "undecided"
+    (_, how, note), = [entry for entry in passes.over if entry[0] == "second"]
+    assert how == "undecided" and "whole budget" in note
+    assert f"{budget.FLOOR_SECONDS:g} s per pass" in note

@@ -95,3 +95,34 @@ def test_bench_without_counterpart_and_bad_options(capsys):
     assert "none (generated kernels only)" in out and "generated numpy" in out
     assert main(["bench", str(EXAMPLES / "upwind.loom"), "--cells", "3"]) == 2
     assert "--cells must be at least" in capsys.readouterr().err
+
+
+def test_handwritten_sweeps_compute_the_generated_sweeps():
+    """The 2-D bench compares like with like: the hand-written plain C sweeps of the van
+    Leer scheme give the generated sweep's values along both axes (numpy back end)."""
+    from fluxloom.runtime.sweep_bench import _handwritten, rotation_faces
+
+    kernel = load_kernel(load_scheme(EXAMPLES / "lw_vanleer.loom"), "numpy")
+    n = 40
+    rng = np.random.default_rng(3)
+    q = rng.random((n + 4, n + 4))
+    u_y, u_x = rotation_faces(n, np.float64)
+    ffi, lib = _handwritten()
+    ptr = lambda a: ffi.from_buffer("double[]", a)    # noqa: E731
+    for axis, faces, function in ((1, u_x, lib.hand_sweep_x), (0, u_y, lib.hand_sweep_y)):
+        want = kernel.sweep(q, faces, 0.45, axis)
+        got = q.copy()
+        function(n, n, ptr(q), ptr(got), ptr(faces), 0.45, ptr(np.zeros(n + 1)))
+        np.testing.assert_allclose(got[2:-2, 2:-2], want[2:-2, 2:-2], rtol=1e-13, atol=1e-15)
+
+
+def test_bench_dims_2_reports_every_ratio(capsys):
+    assert main(["bench", str(EXAMPLES / "lw_vanleer.loom"), "--dims", "2", "--size", "64",
+                 "--threads", "2", "--tracers", "3", "--json"]) == 0
+    found = json.loads(capsys.readouterr().out)
+    assert found["n"] == 64 and found["tracers"] == 3 and found["threads"] == 2
+    whats = [t["what"] for t in found["targets"]]
+    assert len(whats) == 10 and all(t["value"] is not None for t in found["targets"])
+    assert {"generated_x", "handwritten_y", "copy", "threads_x", "tracers_one_call_y",
+            "float_x"} <= set(found["seconds"])
+    assert "shared" in found["note"]

@@ -146,8 +146,13 @@ def test_fortran_reads_the_params_the_c_header_and_numpy_hold(tmp_path):
     program.append("end program show")
     (tmp_path / "show.f90").write_text("\n".join(program) + "\n")
     modules = [f"{n}_mod.f90" for n in names]
+    # the modules' natural-indexing sweep wrappers call the C kernels: link them
+    for n in names:
+        subprocess.run([need("gcc"), "-std=c99", "-c", f"{n}.c"], cwd=tmp_path, check=True,
+                       capture_output=True)
     subprocess.run([need("gfortran"), "-std=f2008", "-Wall", "-Werror", *modules, "show.f90",
-                    "-o", "show"], cwd=tmp_path, check=True, capture_output=True)
+                    *(f"{n}.o" for n in names), "-o", "show"], cwd=tmp_path, check=True,
+                   capture_output=True)
     run = subprocess.run([str(tmp_path / "show")], capture_output=True, text=True, check=True)
     assert [int(v) for v in run.stdout.split()] == expected
 

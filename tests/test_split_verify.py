@@ -17,7 +17,7 @@ from fluxloom.runtime.kernel import load_kernel
 from fluxloom.runtime.multidim import findings as split_findings
 from fluxloom.runtime.multidim.findings import verify_split
 from fluxloom.runtime.prediction import Prediction
-from fluxloom.runtime.sweeps import LineSweep
+from fluxloom.runtime.sweeps import KernelSweep
 
 EXAMPLES = Path(__file__).resolve().parents[1] / "examples"
 SMOOTH = ("swirl_hump",)
@@ -74,8 +74,7 @@ def test_check_refuses_bad_dims(capsys, args, message):
 # ---- verify --dims 2: options -------------------------------------------------------------
 
 @pytest.mark.parametrize("args, message", [
-    (["--grid", "stretched"], "--grid stretched"),
-    (["--grid", "perturbed"], "per-cell widths"),
+    (["--dims", "2", "--grid", "stretched"], "--grid stretched with --dims 2"),
     (["--boundary", "wall"], "--boundary wall"),
     (["--dims", "3"], "--dims 3"),
     (["--dims", "2", "--ranks", "2"], "--ranks with --dims 2"),
@@ -149,7 +148,7 @@ def test_lie_splitting_is_not_second_order():
     assert {f.verdict for f in judged if f.check == "convergence"} == {"disagree"}
 
 
-class _LeakySweep(LineSweep):
+class _LeakySweep(KernelSweep):
     """A sweep that loses a little mass: a kernel bug conservation must catch."""
 
     def __call__(self, axis, q, u_face, dt_dx):
@@ -161,7 +160,7 @@ def test_a_sweep_that_loses_mass_is_caught(monkeypatch):
     prediction = Prediction.from_document(_document("upwind", "lie"))
     fair = verify_split(kernel, prediction, "lie", 0.5, grids=(16, 32))
     assert set(_verdicts(fair, "conservation").values()) == {"agree"}
-    monkeypatch.setattr(split_findings, "LineSweep", _LeakySweep)
+    monkeypatch.setattr(split_findings, "KernelSweep", _LeakySweep)
     leaky = verify_split(kernel, prediction, "lie", 0.5, grids=(16, 32))
     assert set(_verdicts(leaky, "conservation").values()) == {"disagree"}
 

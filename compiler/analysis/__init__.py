@@ -195,14 +195,27 @@ class _Passes:
     """Runs each pass under the budget and keeps what went past it."""
 
     def __init__(self, seconds: float):
+        import time
+
         self.seconds = seconds
+        self.clock = time.process_time
+        self.end = self.clock() + budget.WHOLE_FACTOR * seconds  # all passes together
         self.over: list[tuple[str, str, str]] = []
 
     def run(self, what: str, exact, fallback=None, how: str = "", undecided=None):
-        outcome = budget.attempt(self.seconds, exact, fallback, how, undecided)
+        seconds = self._left()
+        outcome = budget.attempt(seconds, exact, fallback, how, undecided, self._left)
+        if outcome.how != "exact" and seconds < self.seconds:
+            outcome = budget.Outcome(outcome.value, outcome.how, outcome.note + (
+                f"; the passes before it had used the analysis's whole budget "
+                f"({budget.WHOLE_FACTOR:g} x {self.seconds:g} s)"))
         if outcome.how != "exact":
             self.over.append((what, outcome.how, outcome.note))
         return outcome.value
+
+    def _left(self) -> float:
+        """This pass's budget: its own, or what is left of the whole analysis's."""
+        return max(min(self.seconds, self.end - self.clock()), budget.FLOOR_SECONDS)
 
     def reason(self, what: str) -> str:
         return next((note for name, _, note in self.over if name == what), "budget exceeded")

@@ -26,7 +26,10 @@ import threading
 import time
 from dataclasses import dataclass
 
-DEFAULT_SECONDS = 5.0        # CPU seconds per analysis pass (`fluxloom check --budget`)
+DEFAULT_SECONDS = 4.0        # CPU seconds per analysis pass (`fluxloom check --budget`)
+WHOLE_FACTOR = 2.0           # the passes together get at most this many budgets: `check`
+                             # ends within seconds however many passes run long
+FLOOR_SECONDS = 0.05         # a pass started after the whole budget is spent gets this much
 MEMORY_LIMIT_MB = 300.0      # growth of resident memory allowed within one pass
 TICK = 0.05                  # CPU seconds between checks by the timer
 
@@ -129,8 +132,9 @@ class Outcome:
 
 
 def attempt(seconds: float, exact, fallback=None, fallback_how: str = "",
-            undecided=None) -> Outcome:
-    """exact() within `seconds`; past it fallback() (its own `seconds`), then undecided()."""
+            undecided=None, fallback_seconds=None) -> Outcome:
+    """exact() within `seconds`; past it fallback() (its own `seconds`, or what the
+    callable `fallback_seconds` gives when it starts), then undecided()."""
     try:
         with deadline(seconds) as d:
             return Outcome(exact(), "exact", "")
@@ -141,7 +145,7 @@ def attempt(seconds: float, exact, fallback=None, fallback_how: str = "",
     note = f"budget exceeded (the exact step took {why}; budget {seconds:g} s per pass)"
     if fallback is not None:
         try:
-            with deadline(seconds) as d:
+            with deadline(seconds if fallback_seconds is None else fallback_seconds()) as d:
                 return Outcome(fallback(), "fallback", f"{note}; {fallback_how}")
         except BudgetExceeded as stop:
             if stop.deadline is not d:

@@ -323,7 +323,7 @@ def numeric_linearisation(g: sympy.Expr) -> JacobianLinearisation | None:
     if not qs or C in g.free_symbols:
         return None
     plain = g.replace(Ratio, lambda a, b: sympy.Piecewise((a / b, sympy.Ne(b, 0)), (0, True)))
-    f = sympy.lambdify(qs, plain, modules="numpy")
+    f = sympy.lambdify(qs, plain.evalf(), modules="numpy")  # floats, not big ints
     steps = [1e-2 * 0.5 ** i for i in range(NUMERIC_HALVINGS + 1)]
     zero = numpy.zeros(len(qs))
     coefficients, worst = [], 0.0

@@ -460,7 +460,8 @@ def courant_curvature_at_one(body):
 # ---- sampling, where the body is not piecewise rational ---------------------------------
 
 def _sampled(name, body, value, left, right) -> LimiterFacts:
-    psi = sympy.lambdify(R, _numeric_ratio(body), modules="numpy")
+    # constants as floats: an exact integer past 64 bits would reach numpy as an object
+    psi = sympy.lambdify(R, _numeric_ratio(body).evalf(), modules="numpy")
     r = piecewise.sample_points()
     with numpy.errstate(all="ignore"):
         v = numpy.broadcast_to(psi(r), r.shape).astype(float)
@@ -525,7 +526,7 @@ def _numeric_ratio(body: sympy.Expr) -> sympy.Expr:
 def _sampled_courant(name, body, value, left, right) -> LimiterFacts:
     """A limiter of (r, c) outside the exact class: the region tested on a grid of
     (r, c), c in steps of 1/COURANT_SAMPLES; the sets are numeric, with that tolerance."""
-    psi = sympy.lambdify((R, C), _numeric_ratio(body), modules="numpy")
+    psi = sympy.lambdify((R, C), _numeric_ratio(body).evalf(), modules="numpy")
     r = piecewise.sample_points()
     pos = r > 0
     cs = numpy.arange(1, COURANT_SAMPLES + 1) / COURANT_SAMPLES

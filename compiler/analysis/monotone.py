@@ -38,23 +38,37 @@ def monotone_set(coefficients) -> CourantSet:
     exact = all(_rational_in_c(v) for v in values)
     if not exact:
         return _numeric_monotone(values)
-    critical = []
-    for v in values:
-        critical += intervals.positive_roots(sympy.numer(v), C)
-        critical += intervals.positive_roots(sympy.denom(v), C)
-
     fractions = [(sympy.Poly(sympy.numer(v), C), sympy.Poly(sympy.denom(v), C)) for v in values]
 
-    def holds(c_value) -> bool:
-        if not c_value.is_Rational and _clearly_negative(fractions, c_value):
-            return False  # an algebraic c where some coefficient is negative by a wide margin
-        for numerator, denominator in fractions:  # exact evaluation of polynomials: fast
-            bottom = denominator.eval(c_value)
-            if bottom == 0 or numerator.eval(c_value) / bottom < 0:
-                return False
-        return True
+    def holds_for(chosen):
+        def holds(c_value) -> bool:
+            if not c_value.is_Rational and _clearly_negative(chosen, c_value):
+                return False  # an algebraic c where some coefficient is negative by a wide margin
+            for numerator, denominator in chosen:  # exact evaluation of polynomials: fast
+                bottom = denominator.eval(c_value)
+                if bottom == 0 or numerator.eval(c_value) / bottom < 0:
+                    return False
+            return True
+        return holds
 
-    return intervals.decide(critical, holds, method="exact (roots in c of every update coefficient)")
+    method = "exact (roots in c of every update coefficient)"
+    # Coefficients with few terms first (a far neighbour's coefficient is often a single
+    # power of c): once those leave no interval, the set is the points where every
+    # coefficient holds, and the roots of the long polynomials are never needed.
+    order = sorted(fractions, key=lambda f: (len(f[0].terms()) + len(f[1].terms()),
+                                             f[0].degree() + f[1].degree()))
+    critical, chosen = [], []
+    for numerator, denominator in order:
+        critical += intervals.positive_roots(numerator.as_expr(), C)
+        critical += intervals.positive_roots(denominator.as_expr(), C)
+        chosen.append((numerator, denominator))
+        if len(numerator.terms()) + len(denominator.terms()) > 3 or len(chosen) == len(order):
+            continue  # a long coefficient: its roots are costly, decide once at the end
+        partial = intervals.decide(critical, holds_for(chosen), method=method)
+        if all(p.is_point for p in partial.parts):
+            everywhere = holds_for(fractions)
+            return CourantSet(tuple(p for p in partial.parts if everywhere(p.lo)), method)
+    return intervals.decide(critical, holds_for(fractions), method=method)
 
 
 def _clearly_negative(fractions, c_value) -> bool:
@@ -90,7 +104,7 @@ NUMERIC_STEP = 1e-4
 def _numeric_monotone(values) -> CourantSet:
     import numpy
 
-    funcs = [sympy.lambdify(C, v, modules="numpy") for v in values]
+    funcs = [sympy.lambdify(C, v.evalf(), modules="numpy") for v in values]  # floats, not big ints
     cs = numpy.arange(1, 80001) * NUMERIC_STEP
     ok = numpy.ones_like(cs, dtype=bool)
     for f in funcs:

@@ -41,6 +41,20 @@ class NotExact(Exception):
     """The body leaves the class treated here (the caller falls back)."""
 
 
+def _exact_only(function):
+    """Constants outside the rational field (2**(27/145)) make sympy's field arithmetic
+    refuse them deep inside; for the callers that is the class left: NotExact."""
+    import functools
+
+    @functools.wraps(function)
+    def wrapper(*args, **kwargs):
+        try:
+            return function(*args, **kwargs)
+        except (ValueError, TypeError, sympy.PolynomialError, sympy.CoercionFailed) as err:
+            raise NotExact(str(err)) from None
+    return wrapper
+
+
 @dataclass(frozen=True)
 class Piece:
     expr: sympy.Expr      # rational in r (and c)
@@ -601,6 +615,7 @@ def _algebraic_free_roots_uncached(expr) -> list:
 
 # ---- deciding the set ------------------------------------------------------------------
 
+@_exact_only
 def courant_set(body: sympy.Expr, conditions_any: list[list[Condition]], method: str,
                 c_top=None, marks=(0, 1)) -> CourantSet:
     """The set of c > 0 (up to c_top) where, for at least one list in conditions_any,
@@ -685,6 +700,7 @@ def restrict(cset: CourantSet, top) -> CourantSet:
 _SEPARABLE_EXTREMES: dict = {}  # (phi, marks, extreme, sign) -> the constant extreme
 
 
+@_exact_only
 def separable_courant_set(k: sympy.Expr, phi: sympy.Expr, conditions_any: list[list[Condition]],
                           method: str, c_top=None, marks=(0, 1)) -> CourantSet:
     """courant_set for the body k(c) * phi(r), phi free of c.

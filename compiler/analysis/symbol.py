@@ -158,7 +158,7 @@ class LinearScheme:
         theta = sympy.Symbol("theta", real=True)
         expr = sum((v * sympy.exp(sympy.I * m * theta) for m, v in self.update.items()),
                    sympy.Integer(0))
-        return sympy.lambdify((C, theta), expr, modules="numpy")
+        return sympy.lambdify((C, theta), expr.evalf(), modules="numpy")  # floats, not big ints
 
 
 def _numpy_function_of_c(value: sympy.Expr):
@@ -166,7 +166,7 @@ def _numpy_function_of_c(value: sympy.Expr):
     try:
         coefficients = [float(v) for v in sympy.Poly(value, C).all_coeffs()]
     except (sympy.PolynomialError, TypeError):
-        return sympy.lambdify(C, value, modules="numpy")
+        return sympy.lambdify(C, value.evalf(), modules="numpy")
     return lambda cs: numpy.polyval(coefficients, cs)
 
 

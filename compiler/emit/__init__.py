@@ -7,8 +7,9 @@ the verdict lines for the banner, worded by the caller (compiler/outputs.py).
 from __future__ import annotations
 
 
-def c_files(scheme, precision: str = "double", verdicts=()) -> dict[str, str]:
+def c_files(scheme, precision: str = "double", verdicts=(),
+            openmp: bool = False) -> dict[str, str]:
     """{file name: text} of the C kernel, its header and the Fortran interface module."""
     from .targets import files_for
 
-    return files_for("c", scheme, precision, verdicts)
+    return files_for("c", scheme, precision, verdicts, openmp=openmp)

@@ -23,6 +23,7 @@ from .limited import FLOOR_EXPONENT, LimiterFormCall
 from .plan import (EULER, FaceProgram, KernelPlan, StageStep, banner_lines, clamp,
                    exported_symbols, plan_kernel, print_stage_sum, stage_buffers, stage_steps,
                    step_calls)
+from .sweep import c_sweep_context
 
 PRECISIONS = {"double": float64, "float": float32}
 FLUX_BLOCK = 128
@@ -331,7 +332,8 @@ def scale_words(printer: KernelPrinter) -> dict[str, str]:
     }
 
 
-def c_context(scheme: Scheme, precision: str = "double", verdicts=()) -> dict:
+def c_context(scheme: Scheme, precision: str = "double", verdicts=(),
+              openmp: bool = False) -> dict:
     """Everything the C templates need, printed."""
     plan = plan_kernel(scheme)
     printer = KernelPrinter(plan, precision)
@@ -411,24 +413,28 @@ def c_context(scheme: Scheme, precision: str = "double", verdicts=()) -> dict:
         # continuation lines of the two long prototypes line up under "("
         "stage_indent": " " * len(f"void {plan.name}_stage("),
         "step_indent": " " * len(f"void {plan.name}_step("),
+        **c_sweep_context(plan, fluxes, openmp),
     }
 
 
-def c_sources(scheme: Scheme, precision: str = "double", verdicts=()) -> dict[str, str]:
+def c_sources(scheme: Scheme, precision: str = "double", verdicts=(),
+              openmp: bool = False) -> dict[str, str]:
     """{'NAME.h': header text, 'NAME.c': kernel text} for scheme at precision.
 
-    verdicts: the analysis verdicts as lines for the header comment (given by the caller).
+    verdicts: the analysis verdicts as lines for the header comment (given by the caller);
+    openmp=True makes the C file require OpenMP (its sweeps are threaded).
     """
-    context = c_context(scheme, precision, verdicts)
+    context = c_context(scheme, precision, verdicts, openmp)
     return {
         f"{scheme.name}.h": render("c_header.h.j2", **context),
         f"{scheme.name}.c": render("c_kernel.c.j2", **context),
     }
 
 
-def files(scheme: Scheme, precision: str = "double", verdicts=()) -> dict[str, str]:
+def files(scheme: Scheme, precision: str = "double", verdicts=(),
+          openmp: bool = False) -> dict[str, str]:
     """{'NAME.h', 'NAME.c'} (the target registry's entry point)."""
-    return c_sources(scheme, precision, verdicts)
+    return c_sources(scheme, precision, verdicts, openmp)
 
 
 def c_declarations(scheme: Scheme, precision: str = "double") -> str:

@@ -31,13 +31,15 @@ class Target:
     module: str                      # emitter module in compiler/emit/
     companions: tuple[str, ...] = ()  # targets written with this one by `build`
     runs: str | None = None          # "python", "cffi", "shared" or None (see above)
+    options: tuple[str, ...] = ()    # keyword options its files() takes (c: openmp)
 
     def emitter(self):
         return importlib.import_module(f"{__package__}.{self.module}")
 
-    def files(self, scheme, precision: str = "double", verdicts=()) -> dict[str, str]:
-        """{file name: text} of this target alone."""
-        return self.emitter().files(scheme, precision, tuple(verdicts))
+    def files(self, scheme, precision: str = "double", verdicts=(), **options) -> dict[str, str]:
+        """{file name: text} of this target alone; options it does not take are ignored."""
+        taken = {k: v for k, v in options.items() if k in self.options}
+        return self.emitter().files(scheme, precision, tuple(verdicts), **taken)
 
     @property
     def printer(self) -> type:
@@ -46,7 +48,7 @@ class Target:
 
 TARGETS: tuple[Target, ...] = (
     Target("c", "C99 kernel NAME.c and header NAME.h (with the Fortran interface)", "c",
-           companions=("fortran-interface",), runs="cffi"),
+           companions=("fortran-interface",), runs="cffi", options=("openmp",)),
     Target("fortran-interface", "Fortran 2003 module NAME_mod.f90 of bind(C) interfaces "
            "to the C kernel", "fortran"),
     Target("numpy", "numpy module NAME.py", "numpy_", runs="python"),
@@ -75,9 +77,10 @@ def build_set(name: str) -> tuple[Target, ...]:
     return tuple(t for t in TARGETS if t.name in chosen)
 
 
-def files_for(name: str, scheme, precision: str = "double", verdicts=()) -> dict[str, str]:
+def files_for(name: str, scheme, precision: str = "double", verdicts=(),
+              **options) -> dict[str, str]:
     """{file name: text} of `build --target name`, sorted by file name."""
     found: dict[str, str] = {}
     for each in build_set(name):
-        found.update(each.files(scheme, precision, verdicts))
+        found.update(each.files(scheme, precision, verdicts, **options))
     return dict(sorted(found.items()))

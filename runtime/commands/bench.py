@@ -32,6 +32,15 @@ def register(sub) -> None:
     parser.add_argument("--steps", type=int, default=20, metavar="K",
                         help="steps per timed run; the best of 5 runs counts (default: 20)")
     parser.add_argument("--json", action="store_true", help="print JSON instead of tables")
+    parser.add_argument("--dims", type=int, choices=(1, 2), default=1,
+                        help="2: time the generated sweeps on a SIZE x SIZE array against "
+                             "hand-written C sweeps and a 2-D copy (default 1)")
+    parser.add_argument("--size", type=int, default=4096, metavar="SIZE",
+                        help="--dims 2: cells per side (default 4096)")
+    parser.add_argument("--threads", type=int, default=2, metavar="T",
+                        help="--dims 2: OpenMP threads compared with one (default 2)")
+    parser.add_argument("--tracers", type=int, default=10, metavar="K",
+                        help="--dims 2: tracers in one call compared with K calls (default 10)")
     parser.set_defaults(run=run)
 
 
@@ -100,7 +109,31 @@ def as_json(result, found, params=()) -> dict:
     }
 
 
+def run_sweeps(args) -> int:
+    from ..build import openmp_supported
+    from ..sweep_bench import measure_sweeps, render_sweeps
+
+    for option, value, least in (("--size", args.size, 8), ("--threads", args.threads, 1),
+                                 ("--tracers", args.tracers, 1)):
+        if value < least:
+            raise LoomError(f"{option} must be at least {least}, given {value}", file=option)
+    scheme = scheme_from_args(args)
+    if not openmp_supported():
+        raise LoomError("bench --dims 2 needs a C compiler that builds with -fopenmp",
+                        file="--dims")
+
+    def progress(text):
+        print(f"measuring {scheme.name} sweeps: {text}", file=sys.stderr, flush=True)
+    found = measure_sweeps(scheme, args.size, args.threads, args.tracers,
+                           progress=None if args.json else progress)
+    print(json.dumps(found, indent=2) if args.json else render_sweeps(found), end="\n"
+          if args.json else "")
+    return 0
+
+
 def run(args) -> int:
+    if args.dims == 2:
+        return run_sweeps(args)
     if args.cells < MIN_CELLS:
         raise LoomError(f"--cells must be at least {MIN_CELLS}, given {args.cells}", file="--cells")
     if args.steps < 1:

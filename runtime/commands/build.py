@@ -10,7 +10,7 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from fluxloom.compiler import load_scheme, parse_overrides
+from fluxloom.compiler import LoomError, load_scheme, parse_overrides
 from fluxloom.compiler.emit.targets import NAMES, TARGETS
 from fluxloom.compiler.variants import renamed, variant_name
 
@@ -31,6 +31,9 @@ def register(sub) -> None:
     parser.add_argument("--precision", choices=PRECISIONS, default="double",
                         help="real type fixed at generation (default: double)")
     add_set_option(parser)
+    parser.add_argument("--openmp", action="store_true",
+                        help="C target: the kernel requires OpenMP and threads its sweeps "
+                             "across lines (compile and link NAME.c with -fopenmp)")
     parser.add_argument("-o", "--output", metavar="DIR", required=True,
                         help="directory to write into (created if missing)")
     parser.add_argument("--name", metavar="NAME",
@@ -52,6 +55,9 @@ def kernel_name(scheme, args) -> str:
 
 def run(args) -> int:
     scheme = scheme_from_args(args)
+    if args.openmp and args.target == "numpy":
+        raise LoomError("--openmp threads the C kernel's sweeps; use it with --target c or all",
+                        file="--openmp")
     name = kernel_name(scheme, args)
     if name != scheme.name:
         scheme = renamed(scheme, name, "--name" if args.name is not None else "--set")
@@ -61,9 +67,9 @@ def run(args) -> int:
         earlier = load_scheme(args.file, parse_overrides(f"{k}={v}" for k, v in params.items()))
         if earlier.name != name:
             earlier = renamed(earlier, name)
-        return generated_files(earlier, args.target, args.precision)
+        return generated_files(earlier, args.target, args.precision, args.openmp)
 
-    files = generated_files(scheme, args.target, args.precision)
+    files = generated_files(scheme, args.target, args.precision, args.openmp)
     directory = Path(args.output)
     plan = plan_writes(directory, files, args.force, recogniser(regenerate))
     write_planned(directory, plan)

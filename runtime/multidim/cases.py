@@ -26,7 +26,7 @@ from fluxloom.compiler.splittings import splitting
 from ..harness import DIVERGENCE_FACTOR, overflow_possible
 from ..norms import errors
 from ..splitting import split_step
-from ..sweeps import BoundSweep, LineSweep
+from ..sweeps import BoundSweep, KernelSweep, LineSweep
 from .fields import CONSTANT, HUMP, SLOTTED_CYLINDER, Field
 from .flows import ROTATION, SWIRL, Flow
 
@@ -116,7 +116,7 @@ def check_case_size(n: int, courant: float) -> int:
     return steps
 
 
-def run_case(line_sweep: LineSweep, case: Case, n: int, courant: float, method: str,
+def run_case(line_sweep: KernelSweep | LineSweep, case: Case, n: int, courant: float, method: str,
              field_override: Field | None = None,
              watch: Callable[[int, np.ndarray], None] | None = None) -> CaseRun:
     """Carry the case's field once round its flow on n x n cells with split sweeps."""

@@ -33,7 +33,7 @@ from ..norms import pair_orders
 from ..prediction import Prediction
 from ..rules import (AGREE, DISAGREE, FAULT, LIMITED_ORDER_TOL, LINEAR_ORDER_TOL, NO_CLAIM,
                      Finding, fault_text, fmt)
-from ..sweeps import LineSweep
+from ..sweeps import KernelSweep
 from .cases import CASES, GRIDS, SMOOTH_CASE, Case, CaseRun, check_case_size, run_case
 from .fields import Field
 
@@ -90,7 +90,7 @@ def measure_split(kernel, prediction: Prediction, method: str, courant: float,
                   grids=GRIDS, progress=None, cases=None) -> tuple[CaseRun, ...]:
     """Every case (or those named in `cases`) on every grid."""
     say = progress or (lambda message: None)
-    line_sweep = LineSweep(kernel)
+    line_sweep = KernelSweep(kernel)
     runs = []
     for case in _selected(cases):
         say(f"2-D {case.name} ({method} splitting, N = {', '.join(map(str, grids))})")
