@@ -1,6 +1,6 @@
 """Kernel symbols carry the precision: a host built against a header (or Fortran
 interface) of one precision does not link with an object of the other, and the
-Fortran targets hold the longest scheme name the front end allows.
+native Fortran target holds the longest scheme name the front end allows.
 
 That a call through a mismatched prototype would pass doubles where floats are
 read is a fact of the C ABI (common practice, no source); the test shows the
@@ -86,12 +86,12 @@ def test_a_fortran_host_does_not_link_with_an_object_of_the_other_precision(tmp_
     assert link[1].returncode != 0 and "upwind_step_f64" in link[1].stderr
 
 
-def test_the_fortran_targets_hold_the_longest_scheme_name(tmp_path):
+def test_the_native_fortran_target_holds_the_longest_scheme_name(tmp_path):
     name = "s" * (FORTRAN_NAME_LIMIT - len(LONGEST_FORTRAN_SUFFIX))
     text = re.sub(r"^scheme\s+\w+", f"scheme {name}",
                   (EXAMPLES / "lw_fct.loom").read_text(), flags=re.M)
     scheme = scheme_from_text(text, file="long.loom")
-    for each, standard in (("fortran", "-std=f2008"), ("fortran-interface", "-std=f2003")):
+    for each, standard in (("fortran", "-std=f2008"),):
         (file_name, source), = target(each).files(scheme, "double").items()
         assert max(len(line) for line in source.splitlines()) <= 132
         (tmp_path / file_name).write_text(source)
