@@ -64,7 +64,7 @@ def counterpart(scheme) -> Counterpart | None:
     points = [rng.uniform(-1, 1, 200) for _ in range(3)] + [rng.uniform(0, 1, 200)]
     mine = _values(scheme.expand_limiters(scheme.bound_face), points)
     for candidate in COUNTERPARTS:
-        if candidate.halo == scheme.halo and np.allclose(mine, _values(candidate.face, points),
+        if candidate.halo == scheme.stencil_reach and np.allclose(mine, _values(candidate.face, points),
                                                          rtol=1e-12, atol=1e-12):
             return candidate
     return None

@@ -78,15 +78,21 @@ class _Scope:
         self.names[stmt.name.id] = stmt.name.span
 
 
-def check(spec: ast.Spec) -> None:
-    """Raise LoomError for the first semantic problem in spec."""
-    name = spec.name
+def check_kernel_name(name: ast.Name) -> None:
+    """The rules a scheme name meets: it names files, C functions, a Fortran and a Python
+    module (also applied to `build --name` and variant names)."""
     if name.id in C_KEYWORDS:
         raise LoomError(f"scheme name '{name.id}' is a C keyword; the kernel is named after it",
                         name.span)
     if not _C_IDENTIFIER.match(name.id):
         raise LoomError(f"scheme name '{name.id}' is not a C identifier", name.span)
     _check_scheme_name_targets(name)
+
+
+def check(spec: ast.Spec) -> None:
+    """Raise LoomError for the first semantic problem in spec."""
+    name = spec.name
+    check_kernel_name(name)
 
     seen: dict[str, ast.Statement] = {}
     time_method = "euler"

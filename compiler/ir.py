@@ -19,6 +19,7 @@ from .check import integer_offset
 from .diagnostics import LoomError, Span, did_you_mean
 from .symbols import (C, R, U, Ratio, limiter_calls, limiter_function, limiter_name_of, offsets_in,
                       param_symbol, q)
+from .upwind import stencil_reach
 
 SMOOTH_BREAKERS = (sympy.Abs, sympy.Min, sympy.Max, sympy.sign, Ratio)
 
@@ -78,13 +79,11 @@ class Scheme:
         return tuple(sorted(found))
 
     @property
-    def halo(self) -> int:
-        """Ghost cells each side for one flux evaluation of every cell's two faces.
-
-        Face j+1/2 reads cells j+k (u >= 0) or j+1-k (u < 0); face j-1/2 one
-        cell to the left. So offset k reaches max(|k|, |k - 1|) cells from j.
-        """
-        return max((max(abs(k), abs(k - 1)) for k in self.offsets), default=1)
+    def stencil_reach(self) -> int:
+        """Cells each side of a cell that one flux evaluation of its two faces reads
+        (compiler/upwind.py). Not the kernels' ghost cells: those are the plan's `halo`
+        (the header's NAME_HALO), wider for FCT."""
+        return stencil_reach(self.offsets)
 
     @property
     def uses_c(self) -> bool:

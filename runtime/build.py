@@ -24,6 +24,7 @@ import os
 import shlex
 import shutil
 import stat
+import subprocess
 import sys
 import tempfile
 import threading
@@ -108,7 +109,7 @@ def compile_c(scheme: Scheme, precision: str = "double", opt: str = "-O2",
     openmp=True generates the kernel for OpenMP and builds it with OPENMP_FLAG (the
     caller checks `openmp_supported()` first).
     """
-    sources = c_sources(scheme, precision, verdicts=False, openmp=openmp)
+    sources = c_sources(scheme, precision, openmp=openmp)
     header, kernel = sources[f"{scheme.name}.h"], sources[f"{scheme.name}.c"]
     # One translation unit: the header text stands in for the #include.
     source = kernel.replace(f'#include "{scheme.name}.h"', header, 1)
@@ -257,17 +258,81 @@ def _build(cache: Path, name: str, source: str, declarations: str, flags) -> Non
         except Exception as err:  # distutils/setuptools CompileError and friends
             raise LoomError(f"C compiler failed to build the kernel {name}: {err}",
                             file="<build>") from None
-        staged = workdir / name
-        staged.mkdir(mode=0o700)
-        library = staged / f"{name}{_extension_suffix()}"
-        os.replace(built, library)
-        os.chmod(library, 0o700)  # private whatever the umask, as _verified expects
-        (staged / DIGEST_FILE).write_text(_digest(library) + "\n", "ascii")
-        os.chmod(staged / DIGEST_FILE, 0o600)
-        try:
-            os.rename(staged, cache / name)  # atomic; fails if another build got there first
-        except OSError:
-            pass  # the other entry is checked like any cached one
+        _install(cache, workdir, name, built, f"{name}{_extension_suffix()}")
+    except OSError as err:
+        raise CacheError(cache, f"cannot write a build into it ({err.strerror}); free some "
+                                "space, make it writable, or point FLUXLOOM_CACHE elsewhere") from None
+    finally:
+        shutil.rmtree(workdir, ignore_errors=True)
+
+
+def _install(cache: Path, workdir: Path, name: str, built: Path, file_name: str) -> None:
+    """Move a finished library into the cache entry NAME/ with its digest (atomically)."""
+    staged = workdir / name
+    staged.mkdir(mode=0o700)
+    library = staged / file_name
+    os.replace(built, library)
+    os.chmod(library, 0o700)  # private whatever the umask, as _verified expects
+    (staged / DIGEST_FILE).write_text(_digest(library) + "\n", "ascii")
+    os.chmod(staged / DIGEST_FILE, 0o600)
+    try:
+        os.rename(staged, cache / name)  # atomic; fails if another build got there first
+    except OSError:
+        pass  # the other entry is checked like any cached one
+
+
+# ---- targets that build their own shared library (compiler/emit/targets.py: "shared") --
+
+def compile_shared(label: str, source: str, suffix: str, command: tuple[str, ...],
+                   declarations: str):
+    """Compile (or reuse) a source with its target's own compiler command into a shared
+    library exporting the C header's functions; cffi's (ffi, lib) over it (ABI mode).
+    Cached and checked like the C builds (same folder, digest, atomic rename)."""
+    name = _hashed_name(label, source, tuple(command))
+    cache = cache_dir()  # checked on every call, as in compile_source
+    with _lock:
+        found = _loaded.get(name)
+        if found is None:
+            entry = cache / name
+            library = entry / f"{name}.so"
+            if not _verified(entry, library):
+                _discard(cache, entry)
+                _clean_stale(cache)
+                _build_shared(cache, name, source, suffix, command)
+                if not _verified(entry, library):
+                    raise CacheError(cache, f"the kernel just built as {name} failed its "
+                                            "digest check there; run again, or point "
+                                            "FLUXLOOM_CACHE elsewhere")
+            ffi = cffi.FFI()
+            ffi.cdef(declarations)
+            try:
+                found = (ffi, ffi.dlopen(str(library)))
+            except OSError as err:
+                raise LoomError(f"the kernel {name} was built but cannot be loaded: {err}",
+                                file="<build>") from None
+            _loaded[name] = found
+    return found
+
+
+def _build_shared(cache: Path, name: str, source: str, suffix: str, command) -> None:
+    compiler = shutil.which(command[0])
+    if compiler is None:
+        raise LoomError(f"'{command[0]}' is needed to build this kernel and was not found "
+                        "on PATH", file="<build>")
+    try:
+        workdir = Path(tempfile.mkdtemp(prefix=f"{TEMP_PREFIX}{os.getpid()}-", dir=cache))
+    except OSError as err:
+        raise CacheError(cache, f"cannot create a build folder in it ({err.strerror}); make it "
+                                "writable or point FLUXLOOM_CACHE elsewhere") from None
+    try:
+        (workdir / f"{name}{suffix}").write_text(source, encoding="utf-8")
+        built = workdir / f"{name}.so"
+        done = subprocess.run([compiler, *command[1:], f"-J{workdir}", f"{name}{suffix}",
+                               "-o", str(built)], cwd=workdir, capture_output=True, text=True)
+        if done.returncode != 0:
+            raise LoomError(f"{command[0]} failed to build the kernel {name}: "
+                            f"{done.stderr.strip()[:2000]}", file="<build>")
+        _install(cache, workdir, name, built, f"{name}.so")
     except OSError as err:
         raise CacheError(cache, f"cannot write a build into it ({err.strerror}); free some "
                                 "space, make it writable, or point FLUXLOOM_CACHE elsewhere") from None

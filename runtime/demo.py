@@ -126,7 +126,7 @@ def check_part(examples, directory: Path, say, force: bool,
 
 
 def build_part(examples, directory: Path, say, force: bool) -> list[Path]:
-    from .commands.build import generated_files, plan_writes
+    from .writing import generated_files, plan_writes, write_planned
 
     kernel_dir = directory / "kernels"
     plans = []
@@ -134,10 +134,7 @@ def build_part(examples, directory: Path, say, force: bool) -> list[Path]:
         scheme = load_scheme(path)
         say("build", f"{scheme.name} ({i}/{len(examples)})")
         plans += plan_writes(kernel_dir, generated_files(scheme, "all", "double"), force)
-    kernel_dir.mkdir(parents=True, exist_ok=True)
-    for target, text, action in plans:
-        if action == "write":
-            target.write_text(text, encoding="utf-8", newline="\n")
+    write_planned(kernel_dir, plans)
     return [target for target, _, _ in plans]
 
 

@@ -15,11 +15,14 @@ import types
 import numpy as np
 
 from fluxloom.compiler import LoomError
+from fluxloom.compiler.emit import targets
 from fluxloom.compiler.emit.numpy_ import numpy_source
-from fluxloom.compiler.emit.plan import banner_lines, plan_kernel
+from fluxloom.compiler.emit.plan import exported_symbol, plan_kernel
 from fluxloom.compiler.ir import Scheme
+from fluxloom.compiler.keyed import fingerprint_cache
 
-BACKENDS = ("numpy", "c")
+BACKENDS = targets.BACKENDS
+"""The targets that run in-process (compiler/emit/targets.py: `runs`)."""
 DTYPES = {"double": np.dtype(np.float64), "float": np.dtype(np.float32)}
 C_TYPES = {"double": "double[]", "float": "float[]"}
 
@@ -33,25 +36,25 @@ class KernelError(LoomError):
 
 # ---- numpy modules, generated once per scheme fingerprint and precision ------
 
-_MODULES: dict[tuple[str, str], types.ModuleType] = {}
 _MODULES_LOCK = threading.Lock()
 
 
 def numpy_module(scheme: Scheme, precision: str = "double") -> types.ModuleType:
     """The generated numpy module, executed from its source once and cached."""
-    key = (scheme.fingerprint, precision)
-    with _MODULES_LOCK:
-        module = _MODULES.get(key)
-        if module is None:
-            # The analysis verdicts only matter in files written for people (`build`).
-            source = numpy_source(scheme, precision, banner_lines(scheme, precision, verdicts=False))
-            filename = f"<fluxloom {scheme.name} {precision} {scheme.fingerprint}>"
-            # Tracebacks through generated code then show its lines.
-            linecache.cache[filename] = (len(source), None, source.splitlines(True), filename)
-            module = types.ModuleType(f"fluxloom_generated_{scheme.name}_{precision}")
-            module.__file__ = filename
-            exec(compile(source, filename, "exec"), module.__dict__)
-            _MODULES[key] = module
+    with _MODULES_LOCK:  # one execution per key even when threads race
+        return _numpy_module(scheme, precision)
+
+
+@fingerprint_cache(maxsize=None)
+def _numpy_module(scheme: Scheme, precision: str) -> types.ModuleType:
+    # No verdicts in the docstring: they only matter in files written for people (`build`).
+    source = numpy_source(scheme, precision)
+    filename = f"<fluxloom {scheme.name} {precision} {scheme.fingerprint}>"
+    # Tracebacks through generated code then show its lines.
+    linecache.cache[filename] = (len(source), None, source.splitlines(True), filename)
+    module = types.ModuleType(f"fluxloom_generated_{scheme.name}_{precision}")
+    module.__file__ = filename
+    exec(compile(source, filename, "exec"), module.__dict__)
     return module
 
 
@@ -175,7 +178,7 @@ class Kernel:
         if value.dtype != self.dtype:
             raise KernelError(f"{self.name}: {what} has dtype {value.dtype}; this {self.precision} "
                               f"kernel takes {self.dtype} (convert with .astype(np.{self.dtype}))")
-        if self.backend == "c" and not value.flags.c_contiguous:
+        if targets.target(self.backend).runs != "python" and not value.flags.c_contiguous:
             raise KernelError(f"{self.name}: {what} must be contiguous (use np.ascontiguousarray)")
         return value
 
@@ -192,15 +195,20 @@ def load_kernel(scheme: Scheme, backend: str = "numpy", precision: str = "double
         raise KernelError(f"unknown back end '{backend}'; choose one of {', '.join(BACKENDS)}")
     if precision not in DTYPES:
         raise KernelError(f"unknown precision '{precision}'; choose double or float")
-    if backend == "numpy":
-        module = numpy_module(scheme, precision)
-        return Kernel(scheme.name, "numpy", precision, module.HALO, module.FACE_HALO,
-                      module.STAGES, module.workspace_size, module.step, module.sweep,
-                      module.SWEEP_WIDTHS, module.SWEEP_THICKNESS)
-    return _c_kernel(scheme, precision, opt, openmp)
+    return LOADERS[targets.target(backend).runs](scheme, backend, precision, opt, openmp)
 
 
-def _c_kernel(scheme: Scheme, precision: str, opt: str | None, openmp: bool = False) -> Kernel:
+def _python_kernel(scheme: Scheme, backend: str, precision: str, opt: str | None,
+                   openmp: bool = False) -> Kernel:
+    module = numpy_module(scheme, precision)
+    return Kernel(scheme.name, backend, precision, module.HALO, module.FACE_HALO,
+                  module.STAGES, module.workspace_size, module.step, module.sweep,
+                  module.SWEEP_WIDTHS, module.SWEEP_THICKNESS)
+
+
+def _cffi_kernel(scheme: Scheme, backend: str, precision: str, opt: str | None,
+                 openmp: bool = False) -> Kernel:
+    from .array_sweep import c_sweep_runner
     from .build import compile_c, openmp_supported
 
     if openmp and not openmp_supported():
@@ -210,9 +218,20 @@ def _c_kernel(scheme: Scheme, precision: str, opt: str | None, openmp: bool = Fa
         openmp = False
     flags = {} if opt is None else {"opt": opt}
     ffi, lib = compile_c(scheme, precision, openmp=openmp, **flags)
+    kernel = _abi_kernel(scheme, backend, precision, ffi, lib,
+                         c_sweep_runner(ffi, lib, scheme.name, precision),
+                         bool(getattr(lib, f"{scheme.name}_SWEEP_WIDTHS")),
+                         bool(getattr(lib, f"{scheme.name}_SWEEP_THICKNESS")))
+    kernel.threads = getattr(lib, f"{scheme.name}_sweep_threads")
+    return kernel
+
+
+def _abi_kernel(scheme: Scheme, backend: str, precision: str, ffi, lib, *sweep) -> Kernel:
+    """A Kernel over a library exporting the C header's functions (any compiler); sweep:
+    (run_sweep, widths, thickness) where the library has the sweep kernel."""
     name = scheme.name
-    c_step = getattr(lib, f"{name}_step")
-    c_workspace = getattr(lib, f"{name}_workspace_size")
+    c_step = getattr(lib, exported_symbol(name, "step", precision))
+    c_workspace = getattr(lib, exported_symbol(name, "workspace_size", precision))
     plan = plan_kernel(scheme)  # the same plan the C source was rendered from
     halo = int(getattr(lib, f"{name}_HALO", plan.halo))
     face_halo = int(getattr(lib, f"{name}_FACE_HALO", plan.face_halo))
@@ -225,14 +244,37 @@ def _c_kernel(scheme: Scheme, precision: str, opt: str | None, openmp: bool = Fa
                ffi.from_buffer(ctype, u_face), dt_dx,
                null if work is None else ffi.from_buffer(ctype, work, require_writable=True))
 
-    from .array_sweep import c_sweep_runner
+    return Kernel(name, backend, precision, halo, face_halo, stages, c_workspace, run_step,
+                  *sweep)
 
-    kernel = Kernel(name, "c", precision, halo, face_halo, stages, c_workspace, run_step,
-                    c_sweep_runner(ffi, lib, name, precision),
-                    bool(getattr(lib, f"{name}_SWEEP_WIDTHS")),
-                    bool(getattr(lib, f"{name}_SWEEP_THICKNESS")))
-    kernel.threads = getattr(lib, f"{name}_sweep_threads")
-    return kernel
+
+def _shared_kernel(scheme: Scheme, backend: str, precision: str, opt: str | None,
+                   openmp: bool = False) -> Kernel:
+    """A target that builds its own shared library with the C header's functions (no
+    sweep kernel: `Kernel.sweep` is then unavailable)."""
+    from .build import compile_shared
+
+    emitter = targets.target(backend).emitter()
+    (source,) = emitter.files(scheme, precision).values()
+    ffi, lib = compile_shared(f"{scheme.name}_{backend}", source, emitter.SOURCE_SUFFIX,
+                              emitter.COMPILE, step_declarations(scheme, precision))
+    return _abi_kernel(scheme, backend, precision, ffi, lib)
+
+
+def step_declarations(scheme: Scheme, precision: str) -> str:
+    """The C header's declarations without the sweep kernel's (for targets without it)."""
+    from fluxloom.compiler.emit.c import c_declarations
+
+    name = scheme.name
+    sweep = (f"{name}_sweep(", f"{name}_sweep_workspace_size(", f"{name}_sweep_threads(",
+             f"{name}_SWEEP_")
+    text = c_declarations(scheme, precision)
+    return "\n".join(line for line in text.splitlines()
+                      if not any(mark in line for mark in sweep)) + "\n"
+
+
+LOADERS = {"python": _python_kernel, "cffi": _cffi_kernel, "shared": _shared_kernel}
+"""How each kind of target (compiler/emit/targets.py: `runs`) is loaded."""
 
 
 # ---- periodic domains -------------------------------------------------------------

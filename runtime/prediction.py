@@ -184,3 +184,25 @@ class Prediction:
     @property
     def stable_set(self) -> Courants:
         return self.claims.stability.stable
+
+
+# ---- the analysis documents verify reads ---------------------------------------------
+
+def analysis_document(scheme, courant: float) -> dict:
+    """The analysis document (`fluxloom check --json`) that findings are judged against."""
+    from fluxloom.compiler.analysis import analyse
+
+    return analyse(scheme, courant).to_json()
+
+
+def split_analysis_document(scheme, courant: float, dims: int, method: str) -> dict:
+    """The analysis document with the split scheme (`check --json --dims D --split M`)."""
+    from fluxloom.compiler.analysis import analyse
+    from fluxloom.compiler.analysis.splitting import split_document
+
+    return split_document(analyse(scheme, courant), dims, method)
+
+
+def predict(scheme, courant: float) -> Prediction:
+    """The prediction verify holds a kernel against, read strictly from the analysis."""
+    return Prediction.from_document(analysis_document(scheme, courant))

@@ -54,6 +54,8 @@ class PeriodicReference:
             return 0.0
         n = len(values)
         j = i - 1  # the face between cells j and j + 1
+        # The upwind frame written out here on purpose, not read from compiler/upwind.py:
+        # the tests hold the kernels against this stepper as an independent check.
         if u > 0:
             cells = [values[(j + k) % n] for k in self.scheme.offsets]
         else:

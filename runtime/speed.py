@@ -17,6 +17,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from fluxloom.benchmarks import c_source, counterpart
+from fluxloom.compiler.emit.plan import exported_symbol
 from fluxloom.compiler.ir import Scheme
 
 from . import build
@@ -181,7 +182,8 @@ def measure(scheme: Scheme, cells: int, steps: int, repeats: int = 5,
         streaming_domain = domain(0)
         for opt, (ffi, lib) in libraries.items():
             d = domain(module.HALO, module.FACE_HALO, lib_workspace(lib, scheme.name, cells))
-            runners["generated C", opt] = _c_caller(ffi, getattr(lib, f"{scheme.name}_step"), d)
+            runners["generated C", opt] = _c_caller(
+                ffi, getattr(lib, exported_symbol(scheme.name, "step", "double")), d)
             hand_ffi, hand_lib = handwritten_c(opt)
             if hand is not None:
                 d = domain(hand.halo, 0, cells + 1)
@@ -235,7 +237,7 @@ def _numpy_caller(step_function, domain: Domain, with_work: bool):
 
 
 def lib_workspace(lib, name: str, cells: int) -> int:
-    return int(getattr(lib, f"{name}_workspace_size")(cells))
+    return int(getattr(lib, exported_symbol(name, "workspace_size", "double"))(cells))
 
 
 # ---- targets (issue 4, section 5) ------------------------------------------------------------

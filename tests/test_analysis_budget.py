@@ -87,16 +87,18 @@ def test_memory_growth_is_a_budget_too(monkeypatch):
 
 @pytest.fixture
 def fresh_cache(monkeypatch):
-    monkeypatch.setattr(analysis, "_CACHE", {})
+    analysis._cached_analysis.cache_clear()
     # these tests follow one pass past its own budget; the whole-analysis cap (tested
     # on its own below) must not cut the passes after it short here
     monkeypatch.setattr(budget, "WHOLE_FACTOR", 10.0)
+    yield
+    analysis._cached_analysis.cache_clear()  # no result of a patched pass outlives the test
 
 
 def test_stability_falls_back_to_the_numeric_scan_within_its_tolerance(monkeypatch, fresh_cache):
     scheme = load_scheme(EXAMPLES / "kappa_rk3.loom")
     exact = analysis.analyse(scheme).to_json()["stability"]
-    monkeypatch.setattr(analysis, "_CACHE", {})
+    analysis._cached_analysis.cache_clear()
     monkeypatch.setattr(analysis, "analyse_stability", endless_sympy)
     doc = analysis.analyse(scheme, budget_seconds=1.5).to_json()  # the scan needs ~0.5 s
     st = doc["stability"]

@@ -32,8 +32,8 @@ from fluxloom.runtime.build import compile_c
 ffi, lib = compile_c(scheme_from_text(open(sys.argv[1]).read()))
 n = 40
 q = np.cos(np.arange(n + 2.0)); out = np.zeros_like(q); u = np.full(n + 1, 0.5)
-work = np.empty(max(1, lib.spill_workspace_size(n)))
-lib.spill_step(n, ffi.from_buffer("double[]", q), ffi.from_buffer("double[]", out),
+work = np.empty(max(1, lib.spill_workspace_size_f64(n)))
+lib.spill_step_f64(n, ffi.from_buffer("double[]", q), ffi.from_buffer("double[]", out),
                ffi.from_buffer("double[]", u), 0.8, ffi.from_buffer("double[]", work))
 # first-order upwind, u > 0: q_j - c (q_j - q_{j-1}) with c = 0.5 * 0.8 (common practice)
 expected = q[1:n + 1] - 0.4 * (q[1:n + 1] - q[0:n])

@@ -24,6 +24,8 @@ def expected_names(name: str, target: str = "all") -> set[str]:
         names |= {f"{name}.h", f"{name}.c", f"{name}_mod.f90"}
     if target in ("numpy", "all"):
         names.add(f"{name}.py")
+    if target in ("fortran", "all"):
+        names.add(f"{name}_kernel.f90")
     return names
 
 
@@ -87,9 +89,9 @@ def test_output_that_is_a_file_is_an_error(tmp_path, capsys):
 def test_precision_and_params_reach_the_files(tmp_path):
     spec = EXAMPLES / "kappa_rk3.loom"
     assert build(spec, "--precision", "float", "--set", "kappa=1/2", "-o", tmp_path) == 0
-    python = (tmp_path / "kappa_rk3.py").read_text()
+    python = (tmp_path / "kappa_rk3_kappa_1_2.py").read_text()  # a variant's own name
     assert "REAL = np.float32" in python and "param_kappa = REAL(0.5)" in python
-    assert "float" in (tmp_path / "kappa_rk3.h").read_text()
+    assert "float" in (tmp_path / "kappa_rk3_kappa_1_2.h").read_text()
 
 
 def test_bad_set_is_a_located_error(tmp_path, capsys):
@@ -112,6 +114,97 @@ def test_the_written_numpy_module_runs_on_its_own(tmp_path):
     module.step(n, q_in, out, u, 0.4)
     h = module.HALO
     np.testing.assert_array_equal(out[h:-h], kernel.step(q_in, u, 0.4)[h:-h])
+
+
+def test_build_targets_are_the_registry(tmp_path, capsys):
+    """`build --target` offers every registry target and writes its file set."""
+    from fluxloom.compiler.emit.targets import TARGETS, build_set
+
+    spec = EXAMPLES / "upwind.loom"
+    for each in TARGETS:
+        out = tmp_path / each.name
+        assert build(spec, "--target", each.name, "-o", out) == 0
+        expected = set()
+        for member in build_set(each.name):
+            expected |= set(member.files(load_scheme(spec)))
+        assert {p.name for p in out.iterdir()} == expected
+    assert {"upwind_kernel.f90"} == set(build_set("fortran")[0].files(load_scheme(spec)))
+    with pytest.raises(SystemExit):
+        build(spec, "--target", "cobol", "-o", tmp_path / "x")
+    capsys.readouterr()
+
+
+VARIANT_HOST = """#include <stdio.h>
+#include "kappa_rk3_kappa_1_2.h"
+#include "kappa_rk3_kappa_m1.h"
+int main(void)
+{
+    double q[14] = {0, 0, 0, 0, 1, 1, 0, 0, 0, 0, 0, 0, 0, 0}, a[14] = {0}, b[14] = {0};
+    double u[11] = {1, 1, 1, 1, 1, 1, 1, 1, 1, 1, 1};
+    double work[512];
+    kappa_rk3_kappa_1_2_step(10, q, a, u, 0.5, work);
+    kappa_rk3_kappa_m1_step(10, q, b, u, 0.5, work);
+    printf("%.17g %.17g\\n", a[5], b[5]);
+    return 0;
+}
+"""
+
+
+def test_set_variants_have_their_own_names_and_link_side_by_side(tmp_path, capsys):
+    """Two --set variants of one scheme in one C program: distinct, stable names."""
+    import shutil
+    import subprocess
+
+    spec = EXAMPLES / "kappa_rk3.loom"
+    for value in ("1/2", "-1"):
+        assert build(spec, "--target", "c", "--set", f"kappa={value}", "-o", tmp_path) == 0
+    capsys.readouterr()
+    (tmp_path / "host.c").write_text(VARIANT_HOST)
+    gcc = shutil.which("gcc")
+    assert gcc, "gcc is required (.ci/install)"
+    done = subprocess.run([gcc, "-std=c99", "host.c", "kappa_rk3_kappa_1_2.c",
+                           "kappa_rk3_kappa_m1.c", "-lm", "-o", "host"], cwd=tmp_path,
+                          capture_output=True, text=True)
+    assert done.returncode == 0, done.stderr
+    out = subprocess.run([str(tmp_path / "host")], capture_output=True, text=True, check=True)
+    by_c = [float(x) for x in out.stdout.split()]
+    # each variant steps as the numpy kernel of that param value does
+    for value, got in zip(("1/2", "-1"), by_c):
+        kernel = load_kernel(load_scheme(spec, {"kappa": __import__("sympy").Rational(value)}),
+                             "numpy")
+        q = np.zeros(14)
+        q[4:6] = 1
+        assert kernel.step(q, np.ones(11), 0.5)[5] == pytest.approx(got, rel=1e-15, abs=1e-300)
+
+
+def test_build_replaces_its_own_output_when_only_params_changed(tmp_path, capsys):
+    spec = EXAMPLES / "kappa_rk3.loom"
+    assert build(spec, "--name", "mine", "--set", "kappa=1/2", "-o", tmp_path) == 0
+    capsys.readouterr()
+    assert build(spec, "--name", "mine", "--set", "kappa=1/3", "-o", tmp_path) == 0
+    out = capsys.readouterr().out
+    assert out.count("replaced") == len(expected_names("mine")) and "wrote" not in out
+    assert "param kappa = 1/3" in (tmp_path / "mine.h").read_text()
+    assert "mine_step_f64" in (tmp_path / "mine.h").read_text()
+    # an edited file is the user's: refused, and nothing is written
+    edited = tmp_path / "mine.c"
+    edited.write_text(edited.read_text() + "/* mine */\n")
+    assert build(spec, "--name", "mine", "--set", "kappa=1/4", "-o", tmp_path) == 2
+    assert "mine.c" in capsys.readouterr().err
+    assert "param kappa = 1/3" in (tmp_path / "mine.h").read_text()
+    # a file fluxloom did not write is refused too
+    edited.unlink()
+    (tmp_path / "mine.py").write_text("# my own module\n")
+    assert build(spec, "--name", "mine", "--set", "kappa=1/4", "-o", tmp_path) == 2
+    assert (tmp_path / "mine.py").read_text() == "# my own module\n"
+    capsys.readouterr()
+
+
+def test_a_bad_name_is_a_clear_error(tmp_path, capsys):
+    assert build(VANLEER, "--name", "int", "-o", tmp_path) == 2
+    err = capsys.readouterr().err
+    assert "--name: error: scheme name 'int' is a C keyword" in err and "Traceback" not in err
+    assert not any(tmp_path.iterdir())
 
 
 def test_a_long_output_path_is_named_in_full(tmp_path, capsys):

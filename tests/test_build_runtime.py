@@ -76,8 +76,8 @@ def test_params_are_compiled_in(cache):
         q = np.array([0.0, 1.0, 2.0, 3.0, 5.0, 8.0], dtype=float)[: n + 2 * h]
         out = np.zeros_like(q)
         u = np.ones(n + 1)
-        work = np.empty(lib.drift_k_workspace_size(n))
-        lib.drift_k_step(n, ffi.from_buffer("double[]", q), ffi.from_buffer("double[]", out),
+        work = np.empty(lib.drift_k_workspace_size_f64(n))
+        lib.drift_k_step_f64(n, ffi.from_buffer("double[]", q), ffi.from_buffer("double[]", out),
                          ffi.from_buffer("double[]", u), 0.5, ffi.from_buffer("double[]", work))
         results.append(out[h:h + n].copy())
     # kappa = 0 is upwind, kappa = 1 takes the downwind cell (centred differences of
@@ -92,7 +92,7 @@ def test_numpy_arrays_are_passed_without_copies(cache):
     q = np.arange(10.0)
     pointer = ffi.from_buffer("double[]", q)
     assert int(ffi.cast("uintptr_t", pointer)) == q.ctypes.data
-    lib.upwind_fill_periodic(8, pointer)  # writes through to the array itself
+    lib.upwind_fill_periodic_f64(8, pointer)  # writes through to the array itself
     assert q[0] == 8.0 and q[9] == 1.0
 
 
@@ -110,8 +110,8 @@ scheme = scheme_from_text(open(sys.argv[1]).read())
 ffi, lib = compile_c(scheme)
 n = 50
 q = np.sin(np.arange(n + 2.0)); out = np.zeros_like(q); u = np.linspace(-1, 1, n + 1)
-work = np.empty(lib.race_workspace_size(n))
-lib.race_step(n, ffi.from_buffer("double[]", q), ffi.from_buffer("double[]", out),
+work = np.empty(lib.race_workspace_size_f64(n))
+lib.race_step_f64(n, ffi.from_buffer("double[]", q), ffi.from_buffer("double[]", out),
               ffi.from_buffer("double[]", u), 0.5, ffi.from_buffer("double[]", work))
 print(repr(float(out.sum())))
 """

@@ -94,7 +94,7 @@ def test_check_json_header_and_fortran_state_the_same_schedule(name, capsys):
     scheme = load_scheme(EXAMPLES / f"{name}.loom")
     assert main(["check", str(EXAMPLES / f"{name}.loom"), "--json"]) == 0
     exchange = json.loads(capsys.readouterr().out)["exchange"]
-    files = c_files(scheme, verdicts=False)
+    files = c_files(scheme)
     header, module = files[f"{name}.h"], files[f"{name}_mod.f90"]
     per_step = int(re.search(rf"#define {name}_EXCHANGES_PER_STEP (\d+)", header).group(1))
     assert per_step == exchange["per_step"]

@@ -54,7 +54,7 @@ def test_small_demo_writes_report_kernels_and_figures(small, small_demo):
     assert "Every finding of `verify` agrees with the analysis." in text
     assert links_resolve(report) == []
     assert sorted(p.name for p in (small_demo / "kernels").glob("upwind*")) == [
-        "upwind.c", "upwind.h", "upwind.py", "upwind_mod.f90"]
+        "upwind.c", "upwind.h", "upwind.py", "upwind_kernel.f90", "upwind_mod.f90"]
     # issue 15: the accuracy-against-cost figure and the measures table of the scenario
     assert "![accuracy against cost](figures/compare-bounds-accuracy-cost.png)" in text
     assert "| scheme | peak retained | front width (cells) | overshoot | undershoot |" in text

@@ -195,3 +195,11 @@ def test_2d_basin_fortran_host_agrees_with_the_c_host(hosts):
     # The sea's salinity comes in at the mouth; split sweeps of a varying flow may leave
     # the range slightly (measured 0.055 at most), never by much.
     assert 19.5 < c["min0"] and c["max0"] < 35.5 and c["mass0_final"] > c["mass0_initial"]
+def test_native_fortran_host_agrees_with_the_c_host(hosts):
+    """The host built with gfortran alone (native Fortran kernel) against the C host."""
+    native = run_host(hosts / "tidal_basin_native")
+    c = run_host(hosts / "tidal_basin_tidewater")
+    assert native["scheme"] == c["scheme"] == "tidewater"
+    assert native["steps"] == c["steps"]
+    assert np.max(np.abs(native["profile"] - c["profile"])) < 1e-13
+    assert native["mass_final"] == pytest.approx(native["mass_initial"], rel=1e-13)

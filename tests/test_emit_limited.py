@@ -203,7 +203,7 @@ def test_c_forms_give_the_numpy_bits(tmp_path, precision):
     real = "double" if precision == "double" else "float"
     for name in ("vanleer", "tidewater", "rooted", "ratioed", "even"):
         scheme, slope, value = forms(name, precision)
-        for file, text in c_sources(scheme, precision, verdicts=False).items():
+        for file, text in c_sources(scheme, precision).items():
             (tmp_path / file).write_text(text)
         a, b = data(precision, 11)
         harness = (C_HARNESS.replace("NAME", scheme.name).replace("LIM", name)

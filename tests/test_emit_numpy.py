@@ -335,7 +335,7 @@ def test_kernel_errors_render_like_every_other_error(vanleer):
 def test_unknown_backend_and_precision(vanleer):
     scheme = load_scheme(EXAMPLES / "upwind.loom")
     with pytest.raises(KernelError, match="back end"):
-        load_kernel(scheme, "fortran")
+        load_kernel(scheme, "cobol")
     with pytest.raises(KernelError, match="precision"):
         load_kernel(scheme, "numpy", "half")
 

@@ -41,7 +41,7 @@ def test_stencil_and_halo(stem, offsets, halo):
     # counting by hand (common practice, no source).
     scheme = load_scheme(EXAMPLES / f"{stem}.loom")
     assert scheme.offsets == offsets
-    assert scheme.halo == halo
+    assert scheme.stencil_reach == halo
 
 
 def test_face_expression_is_the_flux_over_u():

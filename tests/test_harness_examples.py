@@ -10,7 +10,7 @@ import sympy
 
 from fluxloom.compiler import load_scheme, scheme_from_text
 from fluxloom.runtime import harness, profiles
-from fluxloom.runtime.commands.verify import analysis_document
+from fluxloom.runtime.prediction import analysis_document
 from fluxloom.runtime.findings import Options, Prediction, verify_kernel
 from fluxloom.runtime.kernel import load_kernel
 

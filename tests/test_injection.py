@@ -29,8 +29,8 @@ import pytest
 
 from fluxloom.compiler import scheme_from_text
 from fluxloom.compiler.emit import c_files
+from fluxloom.compiler.emit.targets import target
 from fluxloom.compiler.emit.numpy_ import numpy_source
-from fluxloom.compiler.emit.plan import banner_lines
 from fluxloom.runtime.kernel import load_kernel
 
 from test_emit_c import STRICT, need
@@ -101,7 +101,7 @@ def harmless(name: str):
 def module_text(scheme) -> str:
     """The numpy module with the banner of run-time builds (no analysis: faster, and the
     user's text is all there)."""
-    return numpy_source(scheme, "double", banner_lines(scheme, "double", verdicts=False))
+    return numpy_source(scheme, "double")
 
 
 def without_comments_c(path, cwd) -> str:
@@ -114,7 +114,7 @@ def without_comments_c(path, cwd) -> str:
 def test_c_files_compile_strictly_and_are_the_harmless_code(tmp_path):
     files = []
     for scheme, _ in VARIANTS:
-        for name, text in c_files(scheme, "double", verdicts=False).items():
+        for name, text in c_files(scheme, "double").items():
             (tmp_path / name).write_text(text, encoding="utf-8", errors="surrogatepass")
             files.append(name)
     flags = [f for f in STRICT if not f.startswith("-O")] + ["-O0"]  # the text, not the code
@@ -124,7 +124,7 @@ def test_c_files_compile_strictly_and_are_the_harmless_code(tmp_path):
     for scheme, _ in VARIANTS:
         reference = harmless(scheme.name)
         (tmp_path / "ref").mkdir(exist_ok=True)
-        for name, text in c_files(reference, "double", verdicts=False).items():
+        for name, text in c_files(reference, "double").items():
             (tmp_path / "ref" / name).write_text(text)
         for name in (f"{scheme.name}.c", f"{scheme.name}.h"):
             assert (without_comments_c(name, tmp_path)
@@ -140,20 +140,27 @@ def test_c_files_compile_strictly_and_are_the_harmless_code(tmp_path):
         assert ".init_array" not in sections and ".ctors" not in sections
 
 
-def test_fortran_modules_compile_and_are_the_harmless_code(tmp_path):
+FORTRAN_FILES = (("_mod.f90", "-std=f2003", lambda scheme: c_files(scheme, "double")),
+                 ("_kernel.f90", "-std=f2008",
+                  lambda scheme: target("fortran").files(scheme, "double")))
+"""The Fortran interface module and the native Fortran kernel: file suffix, standard, files."""
+
+
+@pytest.mark.parametrize("suffix, standard, files", FORTRAN_FILES, ids=["interface", "native"])
+def test_fortran_modules_compile_and_are_the_harmless_code(tmp_path, suffix, standard, files):
     names = []
     for scheme, _ in VARIANTS:
-        name = f"{scheme.name}_mod.f90"
-        text = c_files(scheme, "double", verdicts=False)[name]
+        name = f"{scheme.name}{suffix}"
+        text = files(scheme)[name]
         assert text.isascii()
         (tmp_path / name).write_text(text)
         names.append(name)
         code = [line for line in text.splitlines() if not line.lstrip().startswith("!")]
-        reference = c_files(harmless(scheme.name), "double", verdicts=False)[name]
+        reference = files(harmless(scheme.name))[name]
         assert code == [line for line in reference.splitlines()
                         if not line.lstrip().startswith("!")]
         assert all(len(line) <= 132 for line in text.splitlines())
-    done = subprocess.run([need("gfortran"), "-std=f2003", "-Wall", "-Wextra", "-Werror", "-c",
+    done = subprocess.run([need("gfortran"), standard, "-Wall", "-Wextra", "-Werror", "-c",
                            *names], cwd=tmp_path, capture_output=True, text=True)
     assert done.returncode == 0 and done.stderr == "", done.stderr[:2000]
 

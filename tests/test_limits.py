@@ -107,7 +107,7 @@ def test_widest_stencil_compiles():
                               f"q[-{MAX_OFFSET}]) / 100)\n}}\n")
     assert scheme.offsets == (-MAX_OFFSET, 0, MAX_OFFSET)
     # face j+1/2 reads cell j+k, face j-1/2 cell j-1+k (common practice, no source)
-    assert scheme.halo == MAX_OFFSET + 1
+    assert scheme.stencil_reach == MAX_OFFSET + 1
 
 
 @pytest.mark.parametrize("offset", [MAX_OFFSET + 1, -MAX_OFFSET - 1, 64, "9" * 4500])

@@ -138,7 +138,7 @@ def test_fortran_reads_the_params_the_c_header_and_numpy_hold(tmp_path):
     expected = []
     for n in names:
         scheme = working(n)
-        for file, text in c_files(scheme, "double", verdicts=False).items():
+        for file, text in c_files(scheme, "double").items():
             (tmp_path / file).write_text(text)
         for param, value in numpy_module(scheme, "double").PARAMS.items():
             program.append(f"  print '(i0)', transfer({n}_param_{param}, 0_c_int64_t)")

@@ -64,7 +64,7 @@ def test_every_target_holds_the_same_correctly_rounded_constant(tmp_path, precis
     module = numpy_module(scheme, precision)
     assert {name: float(v) for name, v in module.PARAMS.items()} == want
     real = "double" if precision == "double" else "float"
-    for file, text in c_files(scheme, precision, verdicts=False).items():
+    for file, text in c_files(scheme, precision).items():
         (tmp_path / file).write_text(text)
     # C: the header's macros, printed exactly (%a) after the compiler read them
     lines = "".join(f'    printf("%a\\n", (double)({real})consts_PARAM_{name});\n' for name in want)

@@ -15,8 +15,8 @@ import pytest
 from fluxloom.compiler import load_scheme
 from fluxloom.runtime.cli import main
 from fluxloom.runtime import demo
-from fluxloom.runtime.commands.build import generated_files
-from fluxloom.runtime.commands.verify import predict
+from fluxloom.runtime.writing import generated_files
+from fluxloom.runtime.prediction import predict
 from fluxloom.runtime.findings import Options, verify_kernel
 from fluxloom.runtime.kernel import load_kernel
 from fluxloom.runtime.report import verification_markdown, verification_text

@@ -22,7 +22,7 @@ from fluxloom.compiler.analysis.claims import DocumentError, read_claims
 from fluxloom.runtime import harness
 from fluxloom.runtime.cli import main
 from fluxloom.runtime.commands import verify as verify_command
-from fluxloom.runtime.commands.verify import analysis_document
+from fluxloom.runtime.prediction import analysis_document
 from fluxloom.runtime.findings import Options, Prediction, verify_kernel
 from fluxloom.runtime.kernel import load_kernel
 from fluxloom.runtime.report import verification_json, verification_text

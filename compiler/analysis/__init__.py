@@ -11,6 +11,7 @@ from dataclasses import dataclass
 
 import sympy
 
+from ..keyed import fingerprint_cache
 from . import budget, intervals
 from .bounds import Bounds, analyse_bounds, check_low_flux, low_flux_scheme
 from .conservation import Conservation, analyse_conservation
@@ -164,7 +165,6 @@ class Analysis:
 
 
 CACHE_SIZE = 256
-_CACHE: dict[tuple, Analysis] = {}
 
 
 def exact_courant(courant) -> sympy.Expr:
@@ -183,12 +183,12 @@ def analyse(scheme, courant=sympy.Rational(1, 2),
     (sympy.Rational, fractions.Fraction, '3/5'), kept exact."""
     check_low_flux(scheme)
     exact = exact_courant(courant)
-    key = (scheme.fingerprint, exact, float(budget_seconds))
-    if key not in _CACHE:
-        if len(_CACHE) >= CACHE_SIZE:
-            _CACHE.pop(next(iter(_CACHE)))  # oldest first
-        _CACHE[key] = _analyse(scheme, exact, float(budget_seconds))
-    return _CACHE[key]
+    return _cached_analysis(scheme, exact, float(budget_seconds))
+
+
+@fingerprint_cache(maxsize=CACHE_SIZE)
+def _cached_analysis(scheme, exact_c, seconds: float) -> Analysis:
+    return _analyse(scheme, exact_c, seconds)
 
 
 class _Passes:
@@ -224,7 +224,7 @@ class _Passes:
 def _numeric_stability(ls) -> Stability:
     from .stability import numeric_set
 
-    stable = numeric_set(ls, ls.numeric_direct())
+    stable = numeric_set(ls, ls.numeric_direct(), why="the exact step went past the budget")
     return Stability(ls.label, "(not formed: the exact step went past the budget)",
                      "(not formed)", None, stable)
 

@@ -13,6 +13,7 @@ from dataclasses import dataclass
 import sympy
 
 from ..symbols import offset_of
+from ..upwind import upwind_cell
 
 
 @dataclass(frozen=True)
@@ -31,7 +32,7 @@ def _face_on_grid(g, values, face_left_cell: int, sign: int):
         k = offset_of(sym)
         if k is None:
             continue
-        cell = face_left_cell + k if sign > 0 else face_left_cell + 1 - k
+        cell = face_left_cell + upwind_cell(k, sign > 0)
         subs[sym] = values[cell % n]
     with sympy.evaluate(False):  # min/max of a clamp need not re-sort their arguments here
         return g.xreplace(subs)
@@ -48,7 +49,7 @@ def total_change(g: sympy.Expr, cells: int, sign: int = 1, factors=None) -> symp
 
 
 def analyse_conservation(scheme) -> Conservation:
-    cells = 2 * scheme.halo + 2
+    cells = 2 * scheme.stencil_reach + 2
     face = scheme.bound(scheme.face)
     zero = all(total_change(face, cells, sign) == 0 for sign in (1, -1))
     if scheme.correct == "fct" and scheme.low_face is not None:

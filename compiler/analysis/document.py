@@ -83,7 +83,7 @@ def analysis_document(a) -> dict:
     s = a.scheme
     lin = a.linearisation
     doc: dict = {"schema": SCHEMA_VERSION, "scheme": s.name, "about": s.about, "time": s.time,
-                 "halo": s.halo, "offsets": list(s.offsets), "fingerprint": s.fingerprint,
+                 "halo": s.stencil_reach, "offsets": list(s.offsets), "fingerprint": s.fingerprint,
                  "params": {p.name: {"value": _num(p.value), "exact": _exact(p.value)}
                             for p in s.params},
                  "courant": a.courant, "linear": lin.exact, "linearisation": lin.note,

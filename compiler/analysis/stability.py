@@ -144,28 +144,37 @@ def stable_set(scheme: LinearScheme) -> CourantSet:
                           "exact: |G| = 1 for every c and theta")
     try:
         exact = _exact_set(excess, scheme)
-    except (sympy.PolynomialError, NotImplementedError, ValueError, TypeError):
-        exact = None  # sympy could not treat these coefficients exactly; scan instead
-    if exact is not None and _numeric_agrees(scheme, exact, LongWaves(scheme)):
+    except NoExactSet as why:
+        return numeric_set(scheme, why=str(why))
+    except (sympy.PolynomialError, NotImplementedError, ValueError, TypeError) as err:
+        # sympy could not treat these coefficients exactly; scan instead, and say so
+        return numeric_set(scheme, why=f"sympy could not decide it exactly "
+                                        f"({type(err).__name__})")
+    if _numeric_agrees(scheme, exact, LongWaves(scheme)):
         return exact
-    return numeric_set(scheme)
+    return numeric_set(scheme, why="the exact set disagreed with a numeric scan of |G|")
 
 
-def _exact_set(excess: sympy.Expr, scheme: LinearScheme) -> CourantSet | None:
+class NoExactSet(Exception):
+    """Why the exact path gave no set (the numeric set's method says it)."""
+
+
+def _exact_set(excess: sympy.Expr, scheme: LinearScheme) -> CourantSet:
     numerator, denominator = sympy.fraction(sympy.together(excess))
     if S in denominator.free_symbols:
-        return None
+        raise NoExactSet("|G|^2 - 1 has a denominator in theta")
     for part in (numerator, denominator):
         poly = sympy.Poly(part, S, C)
         if not (poly.domain.is_QQ or poly.domain.is_ZZ):
-            return None
+            raise NoExactSet("coefficients that are not rational")
     q = sympy.Poly(sympy.expand(numerator), S)   # coefficients in c
     while sympy.expand(q.eval(0)) == 0:
         q = q.exquo(sympy.Poly(S, S, domain=q.domain))        # exact division, no cancel
     while sympy.expand(q.eval(1)) == 0:
         q = q.exquo(sympy.Poly(1 - S, S, domain=q.domain))
     if q.degree() > MAX_EXACT_DEGREE:
-        return None
+        raise NoExactSet(f"degree {q.degree()} in s = sin^2(theta/2), above "
+                         f"{MAX_EXACT_DEGREE}")
     reduced = q.as_expr()
     # Repeated factors keep their sign pattern but make the discriminant vanish
     # identically; the square-free part has the same sign changes.
@@ -177,7 +186,7 @@ def _exact_set(excess: sympy.Expr, scheme: LinearScheme) -> CourantSet | None:
     if sf.degree() >= 2:
         disc = sympy.discriminant(sf)
         if sympy.expand(disc.as_expr()) == 0:
-            return None
+            raise NoExactSet("a discriminant in s that vanishes identically")
         critical += intervals.positive_roots(sympy.numer(sympy.together(disc.as_expr())), C)
     sign_of_denominator = sympy.Lambda(C, denominator)
 
@@ -248,13 +257,13 @@ def max_growth(g_of, c_value: float, thetas: numpy.ndarray) -> float:
     return float(numpy.max(numpy.abs(g_of(c_value, thetas)) ** 2 - 1.0))
 
 
-def numeric_set(scheme: LinearScheme, g_of=None) -> CourantSet:
+def numeric_set(scheme: LinearScheme, g_of=None, why: str = "") -> CourantSet:
     """Scan 0 < c <= NUMERIC_C_RANGE on a theta grid, bisect each change of verdict.
 
     The theta grid is refined (4x) while bisecting, so a band of instability
     near a boundary that the coarse grid misses is caught there. `g_of` (default
     scheme.numeric()) evaluates G; the budget's fallback passes one that needs no
-    exact update.
+    exact update. `why` says why the exact path was not taken (shown in the method).
     """
     g_of = g_of or scheme.numeric()
     coarse = numpy.linspace(0.0, numpy.pi, 2001)
@@ -282,7 +291,7 @@ def numeric_set(scheme: LinearScheme, g_of=None) -> CourantSet:
         parts.append(Span(_rational(start), sympy.oo, True, False))
     parts = _snap(parts, long_waves)
     return CourantSet(tuple(parts),
-                      f"numeric: theta grid of 2001 points on [0, pi] (8001 while bisecting), "
+                      f"numeric{f' ({why})' if why else ''}: theta grid of 2001 points on [0, pi] (8001 while bisecting), "
                       f"c scanned in steps of {NUMERIC_C_STEP:g} up to {NUMERIC_C_RANGE:g} "
                       f"(bands narrower than the step may be missed), boundaries bisected; "
                       f"long waves (theta -> 0) from the exact lowest coefficients of "

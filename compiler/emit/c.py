@@ -7,21 +7,22 @@ writes `fabs`/`0.5` for double and `fabsf`/`0.5F` for float. Everything else
 """
 from __future__ import annotations
 
-from contextlib import contextmanager
 from dataclasses import dataclass
 
 import sympy
 from sympy.codegen.ast import float32, float64, real
 from sympy.printing.c import C99CodePrinter
-from sympy.printing.precedence import PRECEDENCE
 
 from ..constants import nearest, shortest_text
-from ..diagnostics import LoomError
 from ..ir import Scheme
 from ..symbols import C, R, LimiterApplication, limiter_name_of, offset_of, q
+from ..upwind import both_cells
 from .environment import render
+from .printing import PlanPrinting, check_precision
 from .limited import FLOOR_EXPONENT, LimiterFormCall
-from .plan import FaceProgram, KernelPlan, banner_lines, plan_kernel
+from .plan import (EULER, FaceProgram, KernelPlan, StageStep, banner_lines, clamp,
+                   exported_symbols, plan_kernel, print_stage_sum, stage_buffers, stage_steps,
+                   step_calls)
 from .sweep import c_sweep_context
 
 PRECISIONS = {"double": float64, "float": float32}
@@ -32,13 +33,7 @@ traffic and arithmetic overlap: at 10^6-10^7 cells 128 ran about 1.5x faster tha
 (`fluxloom bench`), and no slower from cache."""
 
 
-def check_precision(precision: str) -> None:
-    if precision not in PRECISIONS:
-        raise LoomError(f"unknown precision '{precision}' (use 'double' or 'float')",
-                        file="--precision")
-
-
-class KernelPrinter(C99CodePrinter):
+class KernelPrinter(PlanPrinting, C99CodePrinter):
     """Prints IR expressions as C for one scheme at one precision.
 
     User names never print as themselves: params are the header's macros
@@ -112,15 +107,6 @@ class KernelPrinter(C99CodePrinter):
         text = shortest_text(nearest(value, self.precision), self.precision)
         return text + "F" if self.precision == "float" else text
 
-    @contextmanager
-    def reading(self, renames: dict):
-        """Print each symbol of renames as its replacement (a scaled face's copies)."""
-        self.renames = renames
-        try:
-            yield
-        finally:
-            self.renames = {}
-
     def _print_ParamSymbol(self, expr):
         if expr in self.renames:
             return self._print(self.renames[expr])
@@ -182,6 +168,20 @@ class KernelPrinter(C99CodePrinter):
             raise AssertionError(f"limiter {name} is called but not in the plan")
         return f"{self.plan.name}_limiter_{name}({', '.join(self._print(a) for a in expr.args)})"
 
+    def _print_Piecewise(self, expr):
+        """Nested selects on one line, c0 ? e0 : (c1 ? e1 : e2) (the plan's clamp)."""
+        *pieces, (otherwise, _) = expr.args
+        text = self._operand(otherwise)
+        for depth, (value, condition) in enumerate(reversed(pieces)):
+            rest = f"({text})" if depth else text
+            text = (f"{self._operand(condition.lhs)} {condition.rel_op} "
+                    f"{self._operand(condition.rhs)} ? {self._operand(value)} : {rest}")
+        return text
+
+    def _operand(self, expr) -> str:
+        text = self._print(expr)
+        return f"({text})" if text.startswith("-") else text
+
     def _print_Min(self, expr):
         return self._fold("min", expr.args)
 
@@ -191,21 +191,16 @@ class KernelPrinter(C99CodePrinter):
     def _fold(self, name: str, args) -> str:
         # Ternary helpers instead of fmin/fmax: those are library calls without
         # -ffinite-math-only and block vectorisation.
-        args = sorted(args, key=sympy.default_sort_key)
-        text = self._print(args[-1])
-        for arg in reversed(args[:-1]):
-            text = f"{self.helper(name)}({self._print(arg)}, {text})"
-        return text
+        return self.fold(self.helper(name), args)
 
     def _print_sign(self, expr):
         return self._call("sign", expr.args[0])
 
     def _print_Pow(self, expr):
-        base, exp = expr.base, expr.exp
-        if exp.is_Integer and 2 <= abs(int(exp)) <= 4:
-            factor = self.parenthesize(base, PRECEDENCE["Mul"])
-            product = "*".join([factor] * abs(int(exp)))
-            if exp > 0:
+        count = self.small_power(expr)
+        if count:
+            product = self.repeated_product(expr.base, count)
+            if expr.exp > 0:
                 return f"({product})"
             return f"{self._print(sympy.Integer(1))}/({product})"
         return super()._print_Pow(expr)
@@ -242,7 +237,7 @@ def flux_function(printer: KernelPrinter, program: FaceProgram, suffix: str) -> 
     params = [f"{printer.ctype} {n}" for n in names]
     if program.uses_c:
         params.append(f"{printer.ctype} c")
-    loads = tuple((n, k, 1 - k) for n, k in zip(names, program.offsets))
+    loads = tuple((n, *both_cells(k)) for n, k in zip(names, program.offsets))
     return FluxFunction(suffix, ", ".join(params) or "void", statements, result,
                         program.guard_c, program.uses_c, loads)
 
@@ -272,38 +267,23 @@ class StageCode:
     writes: tuple[tuple[str, str], ...]
 
 
-def stage_expression(printer: KernelPrinter, update) -> StageCode:
-    """C for one stage update (out, then register writes, as the update orders them).
+def stage_expression(printer: KernelPrinter, step: StageStep) -> StageCode:
+    """C for one stage update (out, then register writes, as the plan orders them)."""
+    def operand(name) -> str:
+        if name == EULER:
+            return "(state[j] - dq)"
+        if isinstance(name, tuple):
+            kind, k = name
+            return f"{register_name(k)}_old" if kind == "saved" else f"{register_name(k)}[j]"
+        return {"start": "start[j]", "state": "state[j]"}[name]
 
-    Inside the loop `dq` is dt_dx * (F(j+1/2) - F(j-1/2)), so dt * L(q) = -dq.
-    """
-    def register(k: int) -> str:
-        return f"{register_name(k)}_old" if k in update.saved else f"{register_name(k)}[j]"
-
-    def combo(c):
-        terms = [(coef, name) for coef, name in
-                 [(c.start, "start[j]"), (c.stage, "state[j]")] +
-                 [(w, register(k)) for k, w in c.registers] if coef != 0]
-        rate = c.rate
-        if rate != 0 and any(coef == rate and name == "state[j]" for coef, name in terms):
-            # stage + rate*dL with equal weights: one forward-Euler step, weighted
-            terms = [(coef, "(state[j] - dq)" if name == "state[j]" else name)
-                     for coef, name in terms]
-            rate = 0
-        parts = [name if coef == 1 else f"{_coefficient(printer, coef)}*{name}"
-                 for coef, name in terms]
-        text = " + ".join(parts)
-        if len(parts) == 1 and text.startswith("(") and text.endswith(")"):
-            text = text[1:-1]
-        if rate != 0:
-            term = "dq" if rate == 1 else f"{_coefficient(printer, rate)}*dq"
-            text = f"{text} - {term}" if text else f"-{term}"
-        return text
+    def combo(total) -> str:
+        return print_stage_sum(total, operand, lambda value: _coefficient(printer, value))
 
     saves = tuple(f"const {printer.ctype} {register_name(k)}_old = {register_name(k)}[j];"
-                  for k in update.saved)
-    writes = tuple((f"{register_name(k)}[j]", combo(c)) for k, c in update.writes)
-    return StageCode(saves, combo(update.out), writes)
+                  for k in step.saved)
+    writes = tuple((f"{register_name(k)}[j]", combo(c)) for k, c in step.writes)
+    return StageCode(saves, combo(step.out), writes)
 
 
 def block_signature(ctype: str, plan: KernelPlan, uses_start: bool):
@@ -339,30 +319,6 @@ def wrap_list(items, first_column: int, indent: int, width: int = 96) -> str:
     return ("\n" + " " * indent).join(lines)
 
 
-@dataclass(frozen=True)
-class StageCall:
-    stage: int
-    source: str
-    target: str
-    refresh: bool
-
-
-def step_calls(plan: KernelPlan) -> tuple[StageCall, ...]:
-    """Which arrays each stage reads and writes in the periodic whole-step function."""
-    buffers = ("stage_a", "stage_b")
-    calls = []
-    for s in range(plan.stages):
-        source = "q_in" if s == 0 else buffers[(s - 1) % 2]
-        last = s == plan.stages - 1
-        target = "q_out" if last else buffers[s % 2]
-        calls.append(StageCall(s, source, target, not last))
-    return tuple(calls)
-
-
-def stage_buffers(plan: KernelPlan) -> int:
-    return min(plan.stages - 1, 2)
-
-
 def scale_words(printer: KernelPrinter) -> dict[str, str]:
     """Constants of the scale helpers: the least normal real 2^(1 - bias), the
     exponent field's mask, and the word of 2^bias whose difference with an exponent
@@ -376,7 +332,7 @@ def scale_words(printer: KernelPrinter) -> dict[str, str]:
     }
 
 
-def c_context(scheme: Scheme, precision: str = "double", verdicts: bool = True,
+def c_context(scheme: Scheme, precision: str = "double", verdicts=(),
               openmp: bool = False) -> dict:
     """Everything the C templates need, printed."""
     plan = plan_kernel(scheme)
@@ -401,8 +357,8 @@ def c_context(scheme: Scheme, precision: str = "double", verdicts: bool = True,
                       "result": result,
                       "parameters": ", ".join(f"{printer.ctype} {a}" for a in arguments)})
     stages = []
-    for s, update in enumerate(plan.stage_updates):
-        code = stage_expression(printer, update)
+    for s, step in enumerate(stage_steps(plan)):
+        code = stage_expression(printer, step)
         stages.append({"index": s, "out": code.out, "saves": code.saves, "writes": code.writes,
                        "clip": plan.clip is not None and s == plan.stages - 1})
     uses_start = plan.uses_start
@@ -433,6 +389,7 @@ def c_context(scheme: Scheme, precision: str = "double", verdicts: bool = True,
         "banner": tuple(printer.escape_text(line) for line in banner_lines(scheme, precision,
                                                                           verdicts)),
         "scheme_literal": printer.escape_text(plan.name),
+        "symbols": exported_symbols(plan.name, precision),
         "params": params,
         "helpers": helpers,
         "limiters": limiters,
@@ -451,6 +408,7 @@ def c_context(scheme: Scheme, precision: str = "double", verdicts: bool = True,
         "stage_calls": step_calls(plan),
         "stage_buffers": stage_buffers(plan),
         "clip": clip,
+        "clamped": None if plan.clip is None else printer._print(clamp(plan.clip)),
         "block": FLUX_BLOCK,
         # continuation lines of the two long prototypes line up under "("
         "stage_indent": " " * len(f"void {plan.name}_stage("),
@@ -459,12 +417,12 @@ def c_context(scheme: Scheme, precision: str = "double", verdicts: bool = True,
     }
 
 
-def c_sources(scheme: Scheme, precision: str = "double", verdicts: bool = True,
+def c_sources(scheme: Scheme, precision: str = "double", verdicts=(),
               openmp: bool = False) -> dict[str, str]:
     """{'NAME.h': header text, 'NAME.c': kernel text} for scheme at precision.
 
-    verdicts=False leaves the analysis out of the header comment; openmp=True makes the
-    C file require OpenMP (its sweeps are threaded).
+    verdicts: the analysis verdicts as lines for the header comment (given by the caller);
+    openmp=True makes the C file require OpenMP (its sweeps are threaded).
     """
     context = c_context(scheme, precision, verdicts, openmp)
     return {
@@ -473,7 +431,17 @@ def c_sources(scheme: Scheme, precision: str = "double", verdicts: bool = True,
     }
 
 
+def files(scheme: Scheme, precision: str = "double", verdicts=(),
+          openmp: bool = False) -> dict[str, str]:
+    """{'NAME.h', 'NAME.c'} (the target registry's entry point)."""
+    return c_sources(scheme, precision, verdicts, openmp)
+
+
 def c_declarations(scheme: Scheme, precision: str = "double") -> str:
     """The header's declarations in the form cffi's cdef accepts."""
-    context = c_context(scheme, precision, verdicts=False)
+    context = c_context(scheme, precision)
     return render("c_cdef.h.j2", **context)
+
+
+PRINTER = KernelPrinter
+"""The target's printer (the registry reads it: compiler/emit/targets.py)."""

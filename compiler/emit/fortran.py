@@ -12,11 +12,10 @@ from sympy.printing.fortran import FCodePrinter
 
 from ..check import FORTRAN_NAME_LIMIT
 from ..constants import nearest, shortest_text
-from ..diagnostics import LoomError
 from ..ir import Scheme
-from .c import check_precision
+from .printing import check_precision
 from .environment import render
-from .plan import banner_lines, plan_kernel
+from .plan import banner_lines, exported_symbols, plan_kernel
 
 KINDS = {"double": "c_double", "float": "c_float"}
 COMMENT_WIDTH = 100
@@ -77,7 +76,7 @@ def fortran_identifier(name: str) -> str:
 
 
 def fortran_source(scheme: Scheme, precision: str = "double",
-                   verdicts: bool = True) -> dict[str, str]:
+                   verdicts=()) -> dict[str, str]:
     """{'NAME_mod.f90': module text}."""
     check_precision(precision)
     plan = plan_kernel(scheme)
@@ -89,5 +88,14 @@ def fortran_source(scheme: Scheme, precision: str = "double",
     params = [{"name": fortran_identifier(f"{name}_param_{p}"), "value": printer.doprint(v)}
               for p, v in plan.params]
     text = render("fortran_module.f90.j2", name=name, plan=plan, kind=kind, params=params,
+                  symbols=exported_symbols(name, precision),
                   banner=comment_lines(banner_lines(scheme, precision, verdicts)))
     return {f"{name}_mod.f90": text}
+
+
+files = fortran_source
+"""The target registry's entry point: {'NAME_mod.f90'}."""
+
+
+PRINTER = ConstantPrinter
+"""The target's printer (the registry reads it: compiler/emit/targets.py)."""

@@ -9,7 +9,6 @@ domain), and lets a block whose faces share one velocity sign read every
 """
 from __future__ import annotations
 
-from contextlib import contextmanager
 from dataclasses import dataclass, replace
 
 import sympy
@@ -17,11 +16,12 @@ from sympy.printing.numpy import NumPyPrinter
 from sympy.printing.precedence import PRECEDENCE
 
 from ..constants import nearest
-from ..diagnostics import LoomError
 from ..ir import Scheme
 from ..symbols import C, R, LimiterApplication, limiter_name_of, offset_of
 from ..time_methods.low_storage import StageUpdate
+from ..upwind import both_cells
 from . import environment
+from .printing import PlanPrinting, check_precision
 from .limited import FLOOR_EXPONENT, LimiterFormCall, Quotient
 from .plan import FaceProgram, banner_lines, plan_kernel
 
@@ -37,7 +37,7 @@ enough for numpy to reuse temporaries in place (it does so from 256 KiB)."""
 ITEM_BYTES = {"double": 8, "float": 4}
 
 
-class NumpyKernelPrinter(NumPyPrinter):
+class NumpyKernelPrinter(PlanPrinting, NumPyPrinter):
     """Prints IR expressions as numpy code over whole arrays of faces.
 
     Strict like its parent: a construct with no `_print_` method raises
@@ -99,15 +99,6 @@ class NumpyKernelPrinter(NumPyPrinter):
         # `import numpy as np` in the generated module.
         return super()._module_format(fqn, register).replace("numpy.", "np.", 1)
 
-    @contextmanager
-    def reading(self, renames: dict):
-        """Print each symbol of renames as its replacement (a scaled face's copies)."""
-        self.renames = renames
-        try:
-            yield
-        finally:
-            self.renames = {}
-
     def _print_ParamSymbol(self, expr):
         if expr in self.renames:
             return self._print(self.renames[expr])
@@ -168,11 +159,7 @@ class NumpyKernelPrinter(NumPyPrinter):
 
     def _nested(self, func, args):
         # Arrays first, constants last: min(0, r) -> np.minimum(r, 0).
-        args = sorted(args, key=lambda a: (a.is_number, sympy.default_sort_key(a)))
-        text = self._print(args[-1])
-        for arg in reversed(args[:-1]):
-            text = f"{func}({self._print(arg)}, {text})"
-        return text
+        return self.fold(func, args, key=lambda a: (a.is_number, sympy.default_sort_key(a)))
 
     def _print_Abs(self, expr):
         return f"np.abs({self._print(expr.args[0])})"
@@ -184,10 +171,10 @@ class NumpyKernelPrinter(NumPyPrinter):
         base, exp = expr.args
         if exp == sympy.S.Half:
             return f"np.sqrt({self._print(base)})"
-        if exp.is_Integer and 2 <= abs(int(exp)) <= 4:
+        count = self.small_power(expr)
+        if count:
             # Repeated products, bracketed so that y/x**2 stays y/(x*x).
-            factor = self.parenthesize(base, PRECEDENCE["Mul"])
-            product = "*".join([factor] * abs(int(exp)))
+            product = self.repeated_product(base, count)
             return f"({product})" if exp > 0 else f"(1/({product}))"
         if exp == -1:
             return f"(1/{self.parenthesize(base, PRECEDENCE['Mul'])})"
@@ -333,12 +320,6 @@ def _register_slices(registers: int) -> tuple[tuple[str, str], ...]:
                  for k in range(registers))
 
 
-def check_precision(precision: str) -> None:
-    if precision not in PRECISIONS:
-        raise LoomError(f"unknown precision '{precision}' (use 'double' or 'float')",
-                        file="--precision")
-
-
 def _divides(body: sympy.Expr) -> bool:
     """A limiter with a division: the front end let it through only where min/max absorb
     the infinity of a zero divisor (2/r at r = 0, 2/(1 - c) at c = 1), so numpy's
@@ -347,7 +328,7 @@ def _divides(body: sympy.Expr) -> bool:
                for node in sympy.preorder_traversal(body))
 
 
-def numpy_module(scheme: Scheme, precision: str = "double", banner=None) -> NumpyModule:
+def numpy_module(scheme: Scheme, precision: str = "double", verdicts=()) -> NumpyModule:
     """Lower a scheme (through the shared kernel plan) to the template's data."""
     check_precision(precision)
     plan = plan_kernel(scheme)
@@ -374,12 +355,14 @@ def numpy_module(scheme: Scheme, precision: str = "double", banner=None) -> Nump
         quiet=any(_divides(v) or v.has(Quotient) for v in
                   (form.program.result, *(value for _, value in form.program.temporaries))))
         for form in plan.limiter_forms)
-    offsets = tuple(Offset(q_name(k), _shift(k - 1), _shift(-k)) for k in plan.offsets)
+    # face i of a block lies between array cells HALO + i - 1 and HALO + i
+    offsets = tuple(Offset(q_name(k), *(_shift(cell - 1) for cell in both_cells(k)))
+                    for k in plan.offsets)
     programs = [plan.flux] + ([plan.low_flux] if plan.low_flux is not None else [])
     uses_c = any(p.uses_c for p in programs)
     names = [o.name for o in offsets]
     stage_buffers = min(plan.stages - 1, 2)
-    banner = tuple(banner) if banner is not None else banner_lines(scheme, precision)
+    banner = banner_lines(scheme, precision, verdicts)
     return NumpyModule(
         name=plan.name,
         name_literal=printer.escape_text(plan.name),
@@ -411,10 +394,19 @@ def numpy_module(scheme: Scheme, precision: str = "double", banner=None) -> Nump
     )
 
 
-def numpy_source(scheme: Scheme, precision: str = "double", banner=None) -> str:
+def numpy_source(scheme: Scheme, precision: str = "double", verdicts=()) -> str:
     """The generated module's text: same scheme and precision, same bytes.
 
-    banner: the header lines; by default the shared banner with the analysis
-    verdicts (the run-time loader passes a shorter one to skip the analysis).
+    verdicts: the analysis verdicts as lines for the docstring (given by the caller;
+    the run-time loader passes none).
     """
-    return environment.render("numpy_kernel.py.j2", m=numpy_module(scheme, precision, banner))
+    return environment.render("numpy_kernel.py.j2", m=numpy_module(scheme, precision, verdicts))
+
+
+def files(scheme: Scheme, precision: str = "double", verdicts=()) -> dict[str, str]:
+    """{'NAME.py': the module} (the target registry's entry point)."""
+    return {f"{scheme.name}.py": numpy_source(scheme, precision, verdicts)}
+
+
+PRINTER = NumpyKernelPrinter
+"""The target's printer (the registry reads it: compiler/emit/targets.py)."""

@@ -34,6 +34,23 @@ from .exchange import ExchangeSchedule
 from .limited import LimiterForm, safe_limiters
 from .scaled_face import scaled_face
 
+PRECISION_TAGS = {"double": "f64", "float": "f32"}
+EXPORTED_FUNCTIONS = ("workspace_size", "fill_periodic", "stage", "step")
+"""The functions every compiled target exports. Their link symbols carry the precision
+(`exported_symbol`); the C header maps the plain names onto them, so a host compiled
+with a double header and linked with a float object fails to link."""
+
+
+def exported_symbol(name: str, function: str, precision: str) -> str:
+    """The link symbol of a kernel function: NAME_step_f64, NAME_workspace_size_f32, ..."""
+    return f"{name}_{function}_{PRECISION_TAGS[precision]}"
+
+
+def exported_symbols(name: str, precision: str) -> dict[str, str]:
+    """{plain name: link symbol} of every exported function."""
+    return {f"{name}_{f}": exported_symbol(name, f, precision) for f in EXPORTED_FUNCTIONS}
+
+
 FCT_EXTRA_FACES = 2
 """Extra face velocities (and faces) per side an FCT step evaluates."""
 
@@ -100,14 +117,6 @@ class KernelPlan:
         return tuple(sorted(found))
 
 
-def reach(offsets) -> int:
-    """Ghost cells per side for both faces of every interior cell.
-
-    Face j+1/2 reads cell j+k (u >= 0) or j+1-k (u < 0) for offset k.
-    """
-    return max((max(abs(k), abs(k - 1)) for k in offsets), default=1)
-
-
 def kernel_halo(scheme: Scheme) -> int:
     """Ghost cells per side the caller fills.
 
@@ -115,8 +124,8 @@ def kernel_halo(scheme: Scheme) -> int:
     FCT_EXTRA_FACES more cells on each side than the fluxes alone.
     """
     if scheme.correct == "fct":
-        return scheme.halo + FCT_EXTRA_FACES
-    return scheme.halo
+        return scheme.stencil_reach + FCT_EXTRA_FACES
+    return scheme.stencil_reach
 
 
 def face_halo(scheme: Scheme) -> int:
@@ -224,6 +233,109 @@ def plan_kernel(scheme: Scheme) -> KernelPlan:
     )
 
 
+# ---- the clip step ---------------------------------------------------------------
+
+CLIPPED = sympy.Symbol("value", real=True)
+"""The value the clip step holds in [LO, HI] (each target names it `value`)."""
+
+
+def clamp(clip) -> sympy.Expr:
+    """The clip step as one expression every target prints: LO where value < LO, HI where
+    value > HI, else value (a NaN stays NaN)."""
+    low, high = clip
+    return sympy.Piecewise((low, CLIPPED < low), (high, CLIPPED > high), (CLIPPED, True))
+
+
+# ---- stage updates as sums the compiled kernels print -------------------------
+
+EULER = "euler"
+"""The operand state - dq: one forward-Euler step from the stage state."""
+
+
+@dataclass(frozen=True)
+class StageSum:
+    """One combination of a stage update in the order compiled kernels evaluate it:
+    sum of weight * operand, left to right, then `- rate * dq` where dq is
+    dt/dx (F(j+1/2) - F(j-1/2)), so dt L(q) = -dq. Operands: "start", "state",
+    EULER (state - dq, when the state's weight equals the rate's), ("register", k)
+    and ("saved", k) (register k as it was before this stage overwrote it)."""
+
+    terms: tuple[tuple[sympy.Expr, object], ...]
+    rate: sympy.Expr
+
+
+@dataclass(frozen=True)
+class StageStep:
+    """One stage: the registers to copy first, q_out's sum, then register writes."""
+
+    saved: tuple[int, ...]
+    out: StageSum
+    writes: tuple[tuple[int, StageSum], ...]
+
+
+def stage_sum(update: StageUpdate, combination) -> StageSum:
+    def register(k: int):
+        return ("saved", k) if k in update.saved else ("register", k)
+
+    terms = [(coef, operand) for coef, operand in
+             [(combination.start, "start"), (combination.stage, "state")] +
+             [(w, register(k)) for k, w in combination.registers] if coef != 0]
+    rate = combination.rate
+    if rate != 0 and any(coef == rate and operand == "state" for coef, operand in terms):
+        # stage + rate*dL with equal weights: one forward-Euler step, weighted
+        terms = [(coef, EULER if operand == "state" else operand) for coef, operand in terms]
+        rate = sympy.Integer(0)
+    return StageSum(tuple(terms), rate)
+
+
+def stage_steps(plan) -> tuple[StageStep, ...]:
+    """Every stage of the plan's time method as sums (compiler/time_methods/low_storage.py)."""
+    return tuple(StageStep(u.saved, stage_sum(u, u.out),
+                           tuple((k, stage_sum(u, c)) for k, c in u.writes))
+                 for u in plan.stage_updates)
+
+
+def print_stage_sum(total: StageSum, operand_text, coefficient_text) -> str:
+    """A StageSum as text in any target's syntax (operand_text: operand -> text)."""
+    parts = [operand_text(operand) if coef == 1 else f"{coefficient_text(coef)}*{operand_text(operand)}"
+             for coef, operand in total.terms]
+    text = " + ".join(parts)
+    if len(parts) == 1 and text.startswith("(") and text.endswith(")"):
+        text = text[1:-1]
+    if total.rate != 0:
+        term = "dq" if total.rate == 1 else f"{coefficient_text(total.rate)}*dq"
+        text = f"{text} - {term}" if text else f"-{term}"
+    return text
+
+
+def stage_buffers(plan) -> int:
+    """Stage arrays (with halos) a whole step keeps in workspace: 0, 1 or 2."""
+    return min(plan.stages - 1, 2)
+
+
+@dataclass(frozen=True)
+class StageCall:
+    """A whole step's call of one stage: which array it reads and writes, and whether the
+    output's halo is refreshed (periodically) for the next stage."""
+
+    stage: int
+    source: str
+    target: str
+    refresh: bool
+
+
+def step_calls(plan) -> tuple[StageCall, ...]:
+    """Which arrays each stage reads and writes in the periodic whole-step function."""
+    buffers = ("stage_a", "stage_b")
+    calls = []
+    for s in range(plan.stages):
+        source = "q_in" if s == 0 else buffers[(s - 1) % 2]
+        last = s == plan.stages - 1
+        target = "q_out" if last else buffers[s % 2]
+        calls.append(StageCall(s, source, target, not last))
+    return tuple(calls)
+
+
 # ---- the descriptive comment every generated file starts with -------------
 
 def fluxloom_version() -> str:
@@ -234,37 +346,12 @@ def fluxloom_version() -> str:
         return "unknown"
 
 
-_ANALYSIS_LINES: dict[str, tuple[str, ...]] = {}
-
-
-def analysis_lines(scheme: Scheme) -> tuple[str, ...]:
-    """The analysis verdicts as short lines, or a note that no analysis is available."""
-    key = scheme.fingerprint
-    if key not in _ANALYSIS_LINES:
-        _ANALYSIS_LINES[key] = _analysis_lines(scheme)
-    return _ANALYSIS_LINES[key]
-
-
-def _analysis_lines(scheme: Scheme) -> tuple[str, ...]:
-    """The verdicts worded as in `check` and every report (compiler/analysis/wording.py)."""
-    try:
-        from ..analysis import analyse
-        from ..analysis.claims import read_claims
-        from ..analysis.wording import verdict_lines
-    except ImportError:
-        return ("analysis: not available in this installation",)
-    try:
-        claims = read_claims(analyse(scheme).to_json())
-    except Exception as err:  # the kernel is still correct; say what happened
-        return (f"analysis: failed ({type(err).__name__})",)
-    return verdict_lines(claims)
-
-
-def banner_lines(scheme: Scheme, precision: str, verdicts: bool = True) -> tuple[str, ...]:
+def banner_lines(scheme: Scheme, precision: str, verdicts=()) -> tuple[str, ...]:
     """Lines of the comment at the top of every generated file (no comment markers).
 
-    verdicts=False leaves out the analysis (kernels built at run time, where
-    nobody reads the comment and the analysis would only cost time).
+    verdicts: the analysis verdicts as lines, worded by the caller
+    (`compiler.outputs.verdict_lines`); the emitters never run the analysis, and
+    kernels built at run time, where nobody reads the comment, pass none.
     """
     lines = [f"{scheme.name}: {scheme.about}" if scheme.about else scheme.name,
              f"generated by fluxloom {fluxloom_version()} from {_file_name(scheme)}; do not edit",
@@ -275,8 +362,7 @@ def banner_lines(scheme: Scheme, precision: str, verdicts: bool = True) -> tuple
         lines.append(f"correct {scheme.correct}")
     if scheme.clip:
         lines.append(f"clip {scheme.clip[0]}, {scheme.clip[1]}")
-    if verdicts:
-        lines.extend(analysis_lines(scheme))
+    lines.extend(verdicts)
     return tuple(lines)
 
 

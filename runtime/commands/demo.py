@@ -7,6 +7,8 @@ from __future__ import annotations
 import sys
 import time
 
+from fluxloom.compiler.emit.targets import BACKENDS
+
 from ..demo import DemoSettings, run_demo
 
 DEFAULT_DIRECTORY = "fluxloom-demo"
@@ -20,7 +22,7 @@ def register(sub) -> None:
                     "generated kernels, into DIR.")
     parser.add_argument("-o", "--output", metavar="DIR", default=DEFAULT_DIRECTORY,
                         help=f"where to write the demo (default ./{DEFAULT_DIRECTORY})")
-    parser.add_argument("--backend", choices=("numpy", "c"), default="numpy",
+    parser.add_argument("--backend", choices=BACKENDS, default="numpy",
                         help="which generated kernels the measurements run (default numpy)")
     parser.add_argument("--force", action="store_true",
                         help="replace files in DIR that fluxloom did not write")

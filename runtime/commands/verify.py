@@ -9,7 +9,10 @@ import json
 import sys
 from pathlib import Path
 
+from fluxloom.compiler.emit.targets import BACKENDS
+
 from ..findings import Options, Prediction, verify_kernel
+from ..prediction import analysis_document, split_analysis_document
 from ..report import verification_json, verification_text, write_verification
 from .common import (add_courant_option, add_set_option, add_spec_argument, add_split_option,
                      parse_courant, parse_dims_split, scheme_from_args)
@@ -86,32 +89,12 @@ def check_split_options(args) -> tuple[int, str | None]:
     return dims, method
 
 
-def split_analysis_document(scheme, courant: float, dims: int, method: str) -> dict:
-    """The analysis document with the split scheme (`check --json --dims D --split M`)."""
-    from fluxloom.compiler.analysis import analyse
-    from fluxloom.compiler.analysis.splitting import split_document
-
-    return split_document(analyse(scheme, courant), dims, method)
-
-
 def add_kernel_options(parser) -> None:
-    parser.add_argument("--backend", choices=("numpy", "c"), default="numpy",
+    parser.add_argument("--backend", choices=BACKENDS, default="numpy",
                         help="which generated kernel to measure (default numpy)")
     parser.add_argument("--precision", choices=("double", "float"), default="double")
     add_courant_option(parser, "Courant number |u| dt/dx of the runs, e.g. 0.5 or 3/5 "
                                "(default 0.5)")
-
-
-def analysis_document(scheme, courant: float) -> dict:
-    """The analysis document (`fluxloom check --json`) that findings are judged against."""
-    from fluxloom.compiler.analysis import analyse
-
-    return analyse(scheme, courant).to_json()
-
-
-def predict(scheme, courant: float) -> Prediction:
-    """The prediction verify holds a kernel against, read strictly from the analysis."""
-    return Prediction.from_document(analysis_document(scheme, courant))
 
 
 def load_for_measuring(scheme, backend: str, precision: str):
@@ -149,7 +132,7 @@ def run(args) -> int:
         prediction = Prediction.from_document(split_analysis_document(scheme, courant, dims,
                                                                       method))
     else:
-        prediction = predict(scheme, courant)
+        prediction = Prediction.from_document(analysis_document(scheme, courant))
     kernel = load_for_measuring(scheme, args.backend, args.precision)
     if args.grid != "uniform":
         from ..grid_findings import check_grid_kernel

@@ -61,13 +61,11 @@ def kernel_sources(scheme, backend: str = "numpy", precision: str = "double",
              "fingerprint": scheme.fingerprint}
     if backend == "numpy":
         from fluxloom.compiler.emit.numpy_ import numpy_source
-        from fluxloom.compiler.emit.plan import banner_lines
 
-        banner = banner_lines(scheme, precision, verdicts=False)
-        return {**found, "source": numpy_source(scheme, precision, banner)}
+        return {**found, "source": numpy_source(scheme, precision)}
     from fluxloom.compiler.emit.c import c_declarations, c_sources
 
-    files = c_sources(scheme, precision, verdicts=False)
+    files = c_sources(scheme, precision)
     header, kernel = files[f"{scheme.name}.h"], files[f"{scheme.name}.c"]
     # one translation unit, the header text standing in for its #include (as compile_c does)
     unit = kernel.replace(f'#include "{scheme.name}.h"', header, 1)
@@ -93,7 +91,9 @@ def stage_kernel(sources: dict) -> StageKernel:
     from ..build import compile_source
 
     ffi, lib = compile_source(name, sources["source"], sources["declarations"], sources["opt"])
-    c_stage = getattr(lib, f"{name}_stage")
+    from fluxloom.compiler.emit.plan import exported_symbol
+
+    c_stage = getattr(lib, exported_symbol(name, "stage", precision))
     ctype = C_TYPES[precision]
 
     def run_c_stage(stage, n, q_start, q_stage, q_out, u_face, dt_dx, work):
@@ -104,7 +104,8 @@ def stage_kernel(sources: dict) -> StageKernel:
 
     return StageKernel(name, "c", precision, int(getattr(lib, f"{name}_HALO")),
                        int(getattr(lib, f"{name}_FACE_HALO")), int(getattr(lib, f"{name}_STAGES")),
-                       getattr(lib, f"{name}_workspace_size"), run_c_stage)
+                       getattr(lib, exported_symbol(name, "workspace_size", precision)),
+                       run_c_stage)
 
 
 def load_stage_kernel(scheme, backend: str = "numpy", precision: str = "double",
