@@ -212,7 +212,7 @@ def test_random_courant_limiter_region_and_tvd(text):
     # The exact Courant set of the region against numpy on an (r, c) grid, and the scheme's
     # TVD set against brute force (both directions: these limiters are of the standard form).
     scheme = scheme_from_text(lw_spec("random_courant_limiter", text, courant=True))
-    result = analyse(scheme)
+    result = analyse(scheme, budget_seconds=30)  # exact sets here, however busy the machine
     facts = result.limiters[0]
     ends = [float(v) for p in facts.tvd_courant.parts for v in (p.lo, p.hi) if v.is_finite]
     body = scheme.limiters[0].body

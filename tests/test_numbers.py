@@ -80,8 +80,12 @@ def test_every_target_holds_the_same_correctly_rounded_constant(tmp_path, precis
     (tmp_path / "show.f90").write_text(
         f"program show\n  use, intrinsic :: iso_c_binding, only: {bits}\n  use consts_mod\n"
         f"  implicit none\n{prints}end program show\n")
+    # the module's sweep wrapper calls the C kernel, so the program links its object
+    subprocess.run([need("gcc"), "-std=c99", "-O1", "-c", "consts.c", "-o", "consts.o"],
+                   cwd=tmp_path, check=True, capture_output=True)
     subprocess.run([need("gfortran"), "-std=f2008", "-Wall", "-Werror", "consts_mod.f90",
-                    "show.f90", "-o", "show_f"], cwd=tmp_path, check=True, capture_output=True)
+                    "show.f90", "consts.o", "-lm", "-o", "show_f"], cwd=tmp_path, check=True,
+                   capture_output=True)
     run = subprocess.run([str(tmp_path / "show_f")], capture_output=True, text=True, check=True)
     dtype, word = (np.float64, np.int64) if precision == "double" else (np.float32, np.int32)
     assert [int(v) for v in run.stdout.split()] == \
