@@ -20,6 +20,8 @@ from __future__ import annotations
 
 import numpy as np
 
+from fluxloom.compiler.emit.plan import exported_symbol
+
 from .kernel import C_TYPES, Kernel, KernelError
 
 MAX_RANK = 3
@@ -140,8 +142,8 @@ def _extend(faces: np.ndarray, face_halo: int) -> np.ndarray:
 
 def c_sweep_runner(ffi, lib, name: str, precision: str):
     """The C sweep as Kernel._run_sweep(q, out, u_face, dt_dx, axis, halo, h_old, h_new)."""
-    c_sweep = getattr(lib, f"{name}_sweep")
-    c_work = getattr(lib, f"{name}_sweep_workspace_size")
+    c_sweep = getattr(lib, exported_symbol(name, "sweep", precision))
+    c_work = getattr(lib, exported_symbol(name, "sweep_workspace_size", precision))
     ctype = C_TYPES[precision]
     dtype = np.float32 if precision == "float" else np.float64
     null = ffi.NULL

@@ -26,6 +26,7 @@ from typing import Callable
 import numpy as np
 
 from fluxloom.compiler import LoomError
+from fluxloom.compiler.emit.plan import exported_symbol
 
 KINDS = ("periodic", "outflow", "wall", "inflow")
 LOW, HIGH = 0, 1
@@ -249,6 +250,7 @@ class _CFills:
 
     def __init__(self, ffi, lib, name: str, precision: str, face_halo: int):
         self.ffi, self.lib, self.name, self.face_halo = ffi, lib, name, face_halo
+        self.precision = precision
         self.ctype = "double[]" if precision == "double" else "float[]"
         self.dtype = np.dtype(np.float64 if precision == "double" else np.float32)
 
@@ -267,7 +269,7 @@ class _CFills:
 
     def _copy(self, rule, q, axis, halo, side):
         shape, widths = self._layout(q, axis, halo)
-        getattr(self.lib, f"{self.name}_halo_{rule}")(q.ndim, shape, widths, axis, side,
+        getattr(self.lib, exported_symbol(self.name, f"halo_{rule}", self.precision))(q.ndim, shape, widths, axis, side,
                                                        self._array(q))
 
     def periodic(self, q, axis, halo, side):
@@ -284,7 +286,7 @@ class _CFills:
         slab_shape[axis] = halo
         slab = np.ascontiguousarray(np.broadcast_to(np.asarray(values, self.dtype), slab_shape))
         shape, widths = self._layout(q, axis, halo)
-        getattr(self.lib, f"{self.name}_halo_inflow")(
+        getattr(self.lib, exported_symbol(self.name, "halo_inflow", self.precision))(
             q.ndim, shape, widths, axis, side, self._array(q),
             self.ffi.from_buffer(self.ctype, slab))
 
@@ -294,7 +296,7 @@ class _CFills:
                                 f"{self.face_halo} faces beyond each end, not {face_halo}")
         shape = list(u_face.shape)
         shape[axis] -= 1 + 2 * face_halo
-        getattr(self.lib, f"{self.name}_faces_wall")(
+        getattr(self.lib, exported_symbol(self.name, "faces_wall", self.precision))(
             u_face.ndim, self.ffi.new("size_t[]", shape), axis, side, self._array(u_face))
 
 

@@ -16,7 +16,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from fluxloom.compiler.emit.plan import plan_kernel
+from fluxloom.compiler.emit.plan import exported_symbol, plan_kernel
 
 from .boundaries import HIGH, LOW, BoundaryError, Edges, check_edges, generated_fills
 from .kernel import DTYPES, numpy_module
@@ -36,9 +36,9 @@ class EdgeSweep:
         else:
             from .build import compile_c
             ffi, lib = compile_c(scheme, precision)
-            c_stage = getattr(lib, f"{scheme.name}_stage")
+            c_stage = getattr(lib, exported_symbol(scheme.name, "stage", precision))
             ctype = "double[]" if precision == "double" else "float[]"
-            self._workspace = getattr(lib, f"{scheme.name}_workspace_size")
+            self._workspace = getattr(lib, exported_symbol(scheme.name, "workspace_size", precision))
 
             def stage(s, n, start, current, out, faces, dt_dx, work):
                 c_stage(s, n, ffi.from_buffer(ctype, start), ffi.from_buffer(ctype, current),

@@ -222,7 +222,7 @@ def _cffi_kernel(scheme: Scheme, backend: str, precision: str, opt: str | None,
                          c_sweep_runner(ffi, lib, scheme.name, precision),
                          bool(getattr(lib, f"{scheme.name}_SWEEP_WIDTHS")),
                          bool(getattr(lib, f"{scheme.name}_SWEEP_THICKNESS")))
-    kernel.threads = getattr(lib, f"{scheme.name}_sweep_threads")
+    kernel.threads = getattr(lib, exported_symbol(scheme.name, "sweep_threads", precision))
     return kernel
 
 

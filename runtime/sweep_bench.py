@@ -18,6 +18,7 @@ import numpy as np
 
 from fluxloom.benchmarks import counterpart
 from fluxloom.compiler.ir import Scheme
+from fluxloom.compiler.emit.plan import exported_symbol
 
 from . import build
 
@@ -102,9 +103,9 @@ class _Sweeps:
         self.dt_dx = np.array([0.5], self.dtype)
         self.shape = self.ffi.new("size_t[]", [n, n])
         self.halo = self.ffi.new("size_t[]", [HALO, HALO])
-        self.work = np.empty(max(1, int(getattr(self.lib, f"{self.name}_sweep_workspace_size")(n))),
+        self.work = np.empty(max(1, int(getattr(self.lib, exported_symbol(self.name, "sweep_workspace_size", precision))(n))),
                              self.dtype)
-        self.sweep = getattr(self.lib, f"{self.name}_sweep")
+        self.sweep = getattr(self.lib, exported_symbol(self.name, "sweep", precision))
 
     def _ptr(self, array):
         return self.ffi.from_buffer(self.ctype, array)

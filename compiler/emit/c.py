@@ -20,7 +20,7 @@ from ..upwind import both_cells
 from .environment import render
 from .printing import PlanPrinting, check_precision
 from .limited import FLOOR_EXPONENT, LimiterFormCall
-from .plan import (EULER, FaceProgram, KernelPlan, StageStep, banner_lines, clamp,
+from .plan import (C_FUNCTIONS, EULER, FaceProgram, KernelPlan, StageStep, banner_lines, clamp,
                    exported_symbols, plan_kernel, print_stage_sum, stage_buffers, stage_steps,
                    step_calls)
 from .sweep import c_sweep_context
@@ -389,7 +389,7 @@ def c_context(scheme: Scheme, precision: str = "double", verdicts=(),
         "banner": tuple(printer.escape_text(line) for line in banner_lines(scheme, precision,
                                                                           verdicts)),
         "scheme_literal": printer.escape_text(plan.name),
-        "symbols": exported_symbols(plan.name, precision),
+        "symbols": exported_symbols(plan.name, precision, C_FUNCTIONS),
         "params": params,
         "helpers": helpers,
         "limiters": limiters,

@@ -15,7 +15,7 @@ from ..constants import nearest, shortest_text
 from ..ir import Scheme
 from .printing import check_precision
 from .environment import render
-from .plan import banner_lines, exported_symbols, plan_kernel
+from .plan import C_FUNCTIONS, banner_lines, exported_symbols, plan_kernel
 
 KINDS = {"double": "c_double", "float": "c_float"}
 COMMENT_WIDTH = 100
@@ -88,7 +88,7 @@ def fortran_source(scheme: Scheme, precision: str = "double",
     params = [{"name": fortran_identifier(f"{name}_param_{p}"), "value": printer.doprint(v)}
               for p, v in plan.params]
     text = render("fortran_module.f90.j2", name=name, plan=plan, kind=kind, params=params,
-                  symbols=exported_symbols(name, precision),
+                  symbols=exported_symbols(name, precision, C_FUNCTIONS),
                   banner=comment_lines(banner_lines(scheme, precision, verdicts)))
     return {f"{name}_mod.f90": text}
 

@@ -32,6 +32,7 @@ from ..symbols import C, R, limiter_calls, limiter_name_of, offsets_in
 from ..time_methods.low_storage import StageUpdate, low_storage_form
 from .exchange import ExchangeSchedule
 from .limited import LimiterForm, safe_limiters
+from .boundaries import KINDS as BOUNDARY_KINDS
 from .scaled_face import scaled_face
 
 PRECISION_TAGS = {"double": "f64", "float": "f32"}
@@ -46,9 +47,16 @@ def exported_symbol(name: str, function: str, precision: str) -> str:
     return f"{name}_{function}_{PRECISION_TAGS[precision]}"
 
 
-def exported_symbols(name: str, precision: str) -> dict[str, str]:
+C_FUNCTIONS = (EXPORTED_FUNCTIONS + ("sweep_workspace_size", "sweep_threads", "sweep")
+               + tuple(f"halo_{kind}" for kind in BOUNDARY_KINDS) + ("faces_wall",))
+"""What the C kernel exports besides EXPORTED_FUNCTIONS: the sweep over arrays and the
+halo fill helpers (compiler/emit/boundaries.py), under precision-carrying symbols too."""
+
+
+def exported_symbols(name: str, precision: str,
+                     functions: tuple[str, ...] = EXPORTED_FUNCTIONS) -> dict[str, str]:
     """{plain name: link symbol} of every exported function."""
-    return {f"{name}_{f}": exported_symbol(name, f, precision) for f in EXPORTED_FUNCTIONS}
+    return {f"{name}_{f}": exported_symbol(name, f, precision) for f in functions}
 
 
 FCT_EXTRA_FACES = 2
