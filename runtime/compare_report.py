@@ -9,6 +9,7 @@ column of the measures table names the checks that disagree.
 from __future__ import annotations
 
 from fluxloom.compiler.analysis.wording import stability_text, verdict_text
+from fluxloom.compiler.variants import variant_name
 
 from .comparison import Comparison, Compared, family_best, value_text
 from .findings import NO_CLAIM
@@ -219,6 +220,8 @@ def row_json(r: Compared) -> dict:
     doc = {
         "scheme": r.variant.scheme.name,
         "label": r.label,
+        # the kernel name `build --set` gives this variant (lw_sweby_beta_3_2): stable, distinct
+        "variant": variant_name(r.variant.scheme, dict(r.variant.settings)),
         "params": r.document["params"],
         "time": r.document["time"],
         "analysis": claims_json(r.prediction.claims),

@@ -110,6 +110,9 @@ def test_json_names_scripts_rely_on(capsys):
     assert [r["params"]["kappa"]["exact"] for r in kappa] == ["1/3", "1/2"]
     assert kappa[1]["params"]["kappa"]["value"] == 0.5
     assert kappa[0]["stages"] == 3 and kappa[0]["halo"] == 2
+    # each variant carries the kernel name `build --set` would give it: distinct and stable
+    assert [r["variant"] for r in kappa] == ["kappa_rk3_kappa_1_3", "kappa_rk3_kappa_1_2"]
+    assert doc["rows"][0]["variant"] == "upwind"
     upwind = doc["rows"][0]
     assert upwind["analysis"]["stability"]["text"] == "conditional, stable for [0, 1]"
     assert upwind["analysis"]["stability"]["stable"]["parts"][0]["max_exact"] == "1"
