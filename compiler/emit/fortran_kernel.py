@@ -3,7 +3,9 @@
 The module `NAME_kernel` has the C kernel's contract (NAME_workspace_size,
 NAME_fill_periodic, NAME_stage, NAME_step, the halos and params) as module
 procedures that also carry the C header's symbols (bind(C)), so a Fortran model
-uses the module and a C host or cffi can call the same library. Reals are
+uses the module and a C host or cffi can call the same library. NAME_sweep has
+the Fortran interface's sweep contract (natural indexing; templates
+fortran_kernel_sweep*.f90.j2) and is exported as the C NAME_sweep too. Reals are
 real64 or real32 (iso_fortran_env). The expressions are printed from the same
 plan as every other target by a sympy FCodePrinter subclass; the per-face loop
 and the flux correction follow the C kernel operation by operation, so both
