@@ -250,15 +250,27 @@ def _abi_kernel(scheme: Scheme, backend: str, precision: str, ffi, lib, *sweep) 
 
 def _shared_kernel(scheme: Scheme, backend: str, precision: str, opt: str | None,
                    openmp: bool = False) -> Kernel:
-    """A target that builds its own shared library with the C header's functions (no
-    sweep kernel: `Kernel.sweep` is then unavailable)."""
+    """A target that builds its own shared library with the C header's functions; with
+    its sweep where the emitter says it exports one (`SWEEPS`), else `Kernel.sweep` is
+    unavailable."""
+    from fluxloom.compiler.emit.c import c_declarations
+
+    from .array_sweep import c_sweep_runner
     from .build import compile_shared
 
     emitter = targets.target(backend).emitter()
     (source,) = emitter.files(scheme, precision).values()
+    sweeps = getattr(emitter, "SWEEPS", False)
+    declarations = (c_declarations(scheme, precision) if sweeps
+                    else step_declarations(scheme, precision))
     ffi, lib = compile_shared(f"{scheme.name}_{backend}", source, emitter.SOURCE_SUFFIX,
-                              emitter.COMPILE, step_declarations(scheme, precision))
-    return _abi_kernel(scheme, backend, precision, ffi, lib)
+                              emitter.COMPILE, declarations)
+    if not sweeps:
+        return _abi_kernel(scheme, backend, precision, ffi, lib)
+    return _abi_kernel(scheme, backend, precision, ffi, lib,
+                       c_sweep_runner(ffi, lib, scheme.name, precision),
+                       bool(getattr(lib, f"{scheme.name}_SWEEP_WIDTHS")),
+                       bool(getattr(lib, f"{scheme.name}_SWEEP_THICKNESS")))
 
 
 def step_declarations(scheme: Scheme, precision: str) -> str:

@@ -86,14 +86,17 @@ def test_a_fortran_host_does_not_link_with_an_object_of_the_other_precision(tmp_
     assert link[1].returncode != 0 and "upwind_step_f64" in link[1].stderr
 
 
-def test_the_native_fortran_target_holds_the_longest_scheme_name(tmp_path):
+@pytest.mark.parametrize("stem", ["lw_fct", "lw_vanleer", "kappa_rk3"])
+def test_the_native_fortran_target_holds_the_longest_scheme_name(tmp_path, stem):
+    # one scheme per path of the module's sweep: flux-corrected, single-stage, multi-stage
     name = "s" * (FORTRAN_NAME_LIMIT - len(LONGEST_FORTRAN_SUFFIX))
     text = re.sub(r"^scheme\s+\w+", f"scheme {name}",
-                  (EXAMPLES / "lw_fct.loom").read_text(), flags=re.M)
+                  (EXAMPLES / f"{stem}.loom").read_text(), flags=re.M)
     scheme = scheme_from_text(text, file="long.loom")
     for each, standard in (("fortran", "-std=f2008"),):
         (file_name, source), = target(each).files(scheme, "double").items()
         assert max(len(line) for line in source.splitlines()) <= 132
+        assert f"function {name}_sweep(" in source   # 132 columns with the sweep too
         (tmp_path / file_name).write_text(source)
         done = subprocess.run([tool("gfortran"), standard, "-Wall", "-Wextra", "-Werror", "-c",
                                file_name], cwd=tmp_path, capture_output=True, text=True)

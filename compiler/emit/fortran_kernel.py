@@ -3,7 +3,9 @@
 The module `NAME_kernel` has the C kernel's contract (NAME_workspace_size,
 NAME_fill_periodic, NAME_stage, NAME_step, the halos and params) as module
 procedures that also carry the C header's symbols (bind(C)), so a Fortran model
-uses the module and a C host or cffi can call the same library. Reals are
+uses the module and a C host or cffi can call the same library. NAME_sweep has
+the Fortran interface's sweep contract (natural indexing; templates
+fortran_kernel_sweep*.f90.j2) and is exported as the C NAME_sweep too. Reals are
 real64 or real32 (iso_fortran_env). The expressions are printed from the same
 plan as every other target by a sympy FCodePrinter subclass; the per-face loop
 and the flux correction follow the C kernel operation by operation, so both
@@ -28,14 +30,19 @@ from .environment import render
 from .fortran import ConstantPrinter, comment_lines, fortran_identifier
 from .limited import FLOOR_EXPONENT, LimiterFormCall
 from .printing import PlanPrinting, check_precision
-from .plan import (EULER, FaceProgram, StageSum, banner_lines, clamp, exported_symbols,
-                   plan_kernel, print_stage_sum, stage_buffers, stage_steps, step_calls)
+from .sweep import sweep_direct
+from .plan import (C_FUNCTIONS, EULER, FaceProgram, StageSum, banner_lines, clamp,
+                   exported_symbols, plan_kernel, print_stage_sum, stage_buffers, stage_steps,
+                   step_calls)
 
 KINDS = {"double": "real64", "float": "real32"}
 C_KINDS = {"double": "c_double", "float": "c_float"}
 COMPILE = ("gfortran", "-std=f2008", "-O2", "-fPIC", "-shared")
 """How the in-process loader builds the module (runtime/build.py: compile_shared)."""
 SOURCE_SUFFIX = ".f90"
+SWEEPS = True
+"""The module exports NAME_sweep under the C header's symbols too (runtime/kernel.py
+loads it as Kernel.sweep)."""
 
 
 class FortranKernelPrinter(PlanPrinting, FCodePrinter):
@@ -231,7 +238,8 @@ def fortran_kernel_context(scheme: Scheme, precision: str = "double", verdicts=(
     check_precision(precision)
     plan = plan_kernel(scheme)
     name = plan.name
-    for suffix in ("_workspace_size", "_fill_periodic", "_stage", "_step", "_kernel"):
+    for suffix in ("_workspace_size", "_fill_periodic", "_stage", "_step", "_kernel",
+                   "_sweep_work", "_sweep_badarg", "_sweep_refuse"):
         fortran_identifier(name + suffix)
     printer = FortranKernelPrinter(name, [lim.name for lim in plan.limiters], precision)
     functions = []
@@ -269,14 +277,25 @@ def fortran_kernel_context(scheme: Scheme, precision: str = "double", verdicts=(
     buffers = stage_buffers(plan)
     banner = comment_lines(banner_lines(scheme, precision, verdicts))
     return {
-        "name": name, "plan": plan, "symbols": exported_symbols(name, precision), "kind": KINDS[precision], "c_kind": C_KINDS[precision], "banner": banner,
+        "name": name, "plan": plan, "symbols": exported_symbols(name, precision, C_FUNCTIONS), "kind": KINDS[precision], "c_kind": C_KINDS[precision], "banner": banner,
         "exchange": plan.exchange.lines, "params": params, "functions": functions,
         "loops": loops, "stages": stages, "saved": saved, "clip": clip,
         "clamped": None if plan.clip is None else printer._print(clamp(plan.clip)),
         "registers": plan.registers, "uses_start": plan.uses_start,
         "stage_buffers": buffers, "stage_calls": step_calls(plan),
         "helpers": sorted(printer.helpers_used),
+        "sweep": fortran_sweep_context(plan),
     }
+
+
+def fortran_sweep_context(plan) -> dict:
+    """What fortran_kernel_sweep.f90.j2 needs beyond the kernel's context: the C sweep's
+    choice of path (compiler/emit/sweep.py) and its workspace count."""
+    return {"direct": sweep_direct(plan), "uses_c": plan.flux.uses_c,
+            "stage_buffers": stage_buffers(plan),
+            "stage_reals": (f"2 * (n + 2 * nh) + 2 * (n + 1)"
+                            + (f" + {plan.registers} * n" if plan.registers else ""))
+            if not plan.fct else "0_c_size_t"}
 
 
 def files(scheme: Scheme, precision: str = "double", verdicts=()) -> dict[str, str]:

@@ -49,8 +49,9 @@ def add_decomposed_options(parser) -> None:
                              "mpiexec; needs fluxloom[mpi]) and compare it with the single-domain "
                              "run bit for bit")
     parser.add_argument("--dims", type=int, default=1, metavar="D",
-                        help="dimensions of the domain: 1, or 2 to also run the 2-D cases "
-                             "(rotation, swirling flow) through split sweeps (default 1)")
+                        help="dimensions of the domain: 1, 2 to also run the 2-D cases "
+                             "(rotation, swirling flow) or 3 the 3-D cases (uniform diagonal "
+                             "flow, deformational flow) through split sweeps (default 1)")
 
 
 GRIDS = ("uniform", "stretched", "perturbed")
@@ -75,13 +76,13 @@ def check_split_options(args) -> tuple[int, str | None]:
 
     dims, method = parse_dims_split(args.dims, args.split)
     if args.grid != "uniform" and dims > 1:
-        raise LoomError(f"--grid {args.grid} with --dims {dims}: the 2-D cases run on uniform "
-                        "cells; --grid measures 1-D convergence on non-uniform cells",
+        raise LoomError(f"--grid {args.grid} with --dims {dims}: the {dims}-D cases run on "
+                        "uniform cells; --grid measures 1-D convergence on non-uniform cells",
                         file="--grid")
-    if dims == 3:
-        raise LoomError("--dims 3: there are no 3-D cases yet (the sweeps take rank-3 arrays); "
-                        "--dims 2 runs now (check --dims 3 analyses the 3-D split scheme)",
-                        file="--dims")
+    if dims == 3 and args.boundary != "periodic":
+        raise LoomError(f"--boundary {args.boundary} with --dims 3: the 3-D cases run on a "
+                        "periodic cube; the wall and open cases run in 1-D and 2-D "
+                        "(--dims 1 or 2)", file="--boundary")
     if dims > 1 and args.ranks is not None:
         raise LoomError(f"--ranks with --dims {dims}: decomposed multi-dimensional runs are "
                         "not built yet; use --ranks with --dims 1",
@@ -122,8 +123,8 @@ def run(args) -> int:
         check_options(args.ranks, args.dims)
     if dims > 1:
         from ..multidim.findings import check_split_run
-        from ..multidim.cases import GRIDS as CELLS_2D
-        check_split_run(CELLS_2D, courant)
+        from ..multidim.cases import grids_for
+        check_split_run(grids_for(dims), courant, dims)
     if args.boundary != "periodic":
         from ..boundary_cases import boundary_steps
         boundary_steps(courant)

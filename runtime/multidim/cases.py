@@ -1,5 +1,5 @@
-"""The 2-D cases: a field carried by a flow until the exact solution is the initial
-field again, advanced by split sweeps, measured against that exact solution.
+"""The 2-D and 3-D cases: a field carried by a flow until the exact solution is the
+initial field again, advanced by split sweeps, measured against that exact solution.
 
 Measures only (runtime/multidim/findings.py judges). Per grid: the normalised
 l1, l2, linf errors (Williamson et al. 1992; on a uniform grid the area weights
@@ -8,7 +8,7 @@ mass drift, and where a run stopped: diverged (growth past the harness's limit,
 or overflow where a step can overflow) or a kernel fault (NaN/Inf from finite
 data where it cannot).
 
-Time step: dt = c dx / max |u| over the faces of both axes and over time
+Time step: dt = c dx / max |u| over the faces of every axis and over time
 (|g(t)| <= 1), rounded down so that a whole number of steps (even, for
 alternating Lie) reaches the final time; a flow that changes in time is taken
 at the middle of each step.
@@ -27,24 +27,34 @@ from ..harness import DIVERGENCE_FACTOR, overflow_possible
 from ..norms import errors
 from ..splitting import split_step
 from ..sweeps import BoundSweep, KernelSweep, LineSweep
-from .fields import CONSTANT, HUMP, SLOTTED_CYLINDER, Field
+from .fields import CONSTANT, CONSTANT_3D, HUMP, SLOTTED_CYLINDER, WAVE_3D, Field
 from .flows import ROTATION, SWIRL, Flow
+from .flows3d import DEFORMATION, DIAGONAL, PotentialFlow, UniformFlow
 
 GRIDS = (16, 32, 64)
 """Cells per side: the smooth case's observed order comes from successive pairs."""
+GRIDS_3D = (8, 16, 32)
+"""Cells per side in 3-D: 32^3 cells keep a run to seconds in C."""
 MAX_STEPS_2D = 20_000
+MAX_CELL_STEPS_3D = 2 * 10 ** 9
+"""Cells times steps of the slowest 3-D case on its finest grid (work refused beyond)."""
 
 
 @dataclass(frozen=True)
 class Case:
     name: str
     description: str
-    flow: Flow
+    flow: Flow | PotentialFlow | UniformFlow
     field: Field
+    coefficients: str = "variable"   # the order claim it measures: "variable" or "constant"
 
     @property
     def smooth(self) -> bool:
         return self.field.smooth and self.field.high > self.field.low
+
+    @property
+    def dims(self) -> int:
+        return self.field.dims
 
 
 CASES = (
@@ -56,6 +66,30 @@ CASES = (
          "leave a constant", SWIRL, CONSTANT),
 )
 SMOOTH_CASE = "swirl_hump"
+CASES_3D = (
+    Case("diagonal_wave", "a smooth periodic wave carried once across the periodic cube by a "
+         "uniform diagonal velocity (constant coefficients)", DIAGONAL, WAVE_3D, "constant"),
+    Case("deformation_wave", "a smooth periodic wave through the 3-D deformational flow "
+         "(LeVeque 1996), which undoes itself at t = T", DEFORMATION, WAVE_3D),
+    Case("deformation_constant", "a constant field through the 3-D deformational flow: how "
+         "far split sweeps leave a constant", DEFORMATION, CONSTANT_3D),
+)
+SMOOTH_CASE_3D = "deformation_wave"
+ORDER_CASES = {2: {SMOOTH_CASE}, 3: {"diagonal_wave", SMOOTH_CASE_3D}}
+"""Cases whose observed order is judged, per dimension."""
+
+
+def cases_for(dims: int) -> tuple[Case, ...]:
+    return CASES if dims == 2 else CASES_3D
+
+
+def grids_for(dims: int) -> tuple[int, ...]:
+    return GRIDS if dims == 2 else GRIDS_3D
+
+
+def smooth_case(dims: int) -> str:
+    """The case whose pair orders `observed_order` reports."""
+    return SMOOTH_CASE if dims == 2 else SMOOTH_CASE_3D
 
 
 @dataclass(frozen=True)
@@ -105,11 +139,14 @@ def step_count(flow: Flow, n: int, courant: float, method: str) -> int:
     return steps + (-steps) % period
 
 
-def check_case_size(n: int, courant: float) -> int:
+def check_case_size(n: int, courant: float, dims: int = 2) -> int:
     """The steps the slowest case takes on n cells per side; refuse unbounded work."""
     from fluxloom.compiler import LoomError
 
-    steps = max(step_count(case.flow, n, courant, "alternating") for case in CASES)
+    steps = max(step_count(case.flow, n, courant, "alternating") for case in cases_for(dims))
+    if dims == 3 and steps * n ** 3 > MAX_CELL_STEPS_3D:
+        raise LoomError(f"c = {courant:g} needs {steps} steps on {n}^3 cells; the 3-D cases "
+                        f"are capped at {MAX_CELL_STEPS_3D:.0e} cell steps", file="--courant")
     if steps > MAX_STEPS_2D:
         raise LoomError(f"c = {courant:g} needs {steps} steps on {n} x {n} cells; the 2-D "
                         f"cases are capped at {MAX_STEPS_2D} steps", file="--courant")
@@ -119,7 +156,7 @@ def check_case_size(n: int, courant: float) -> int:
 def run_case(line_sweep: KernelSweep | LineSweep, case: Case, n: int, courant: float, method: str,
              field_override: Field | None = None,
              watch: Callable[[int, np.ndarray], None] | None = None) -> CaseRun:
-    """Carry the case's field once round its flow on n x n cells with split sweeps."""
+    """Carry the case's field once round its flow on n^dims cells with split sweeps."""
     kernel = line_sweep.kernel
     source = field_override or case.field
     q0 = source.cell_averages(n).astype(kernel.dtype)
@@ -141,7 +178,7 @@ def run_case(line_sweep: KernelSweep | LineSweep, case: Case, n: int, courant: f
         for k in range(steps):
             g = case.flow.time_factor((k + 0.5) * dt)
             faces = base if g == 1.0 else [(f * g).astype(kernel.dtype) for f in base]
-            sweep = BoundSweep(line_sweep, faces, (dt * n, dt * n))
+            sweep = BoundSweep(line_sweep, faces, (dt * n,) * len(faces))
             new = split_step(sweep, q, method, k, on_sweep=after_sweep)
             size = float(np.max(np.abs(new)))
             if not size <= limit:                    # also catches NaN

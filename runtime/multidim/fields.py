@@ -1,4 +1,4 @@
-"""Initial fields on the unit square, as cell averages.
+"""Initial fields on the unit square (or cube), as cell averages.
 
 The 2-D cases end where they started (a full turn, or a flow that undoes itself),
 so the exact final cell averages are the initial ones: the averages only have to
@@ -21,13 +21,16 @@ SAMPLES = 8              # sample points per cell and axis for fields with jumps
 class Field:
     name: str
     description: str
-    value: Callable[[np.ndarray, np.ndarray], np.ndarray]   # f(x, y)
+    value: Callable[..., np.ndarray]    # f(x, y) or f(x, y, z)
     low: float
     high: float
     smooth: bool
+    dims: int = 2
+    jump_derivative: int | None = None   # the lowest derivative that jumps (None: none)
 
     def cell_averages(self, n: int) -> np.ndarray:
-        """The n x n cell averages, [i, j] over [i/n, (i+1)/n] x [j/n, (j+1)/n]."""
+        """The n^dims cell averages, [i, j] over [i/n, (i+1)/n] x [j/n, (j+1)/n] (and
+        [k/n, (k+1)/n] along z)."""
         if self.smooth:
             nodes, weights = np.polynomial.legendre.leggauss(SMOOTH_POINTS)
             offsets, weights = (nodes + 1) / 2, weights / 2
@@ -35,9 +38,13 @@ class Field:
             offsets = (np.arange(SAMPLES) + 0.5) / SAMPLES
             weights = np.full(SAMPLES, 1.0 / SAMPLES)
         points = ((np.arange(n)[:, None] + offsets[None, :]) / n).ravel()   # cell-major
-        x, y = np.meshgrid(points, points, indexing="ij")
-        values = self.value(x, y).reshape(n, len(offsets), n, len(offsets))
-        averaged = np.einsum("iajb,a,b->ij", values, weights, weights)
+        m = len(offsets)
+        values = self.value(*np.meshgrid(*[points] * self.dims, indexing="ij"))
+        values = values.reshape((n, m) * self.dims)
+        cells, nodes = "ijk"[:self.dims], "abc"[:self.dims]
+        pattern = "".join(c + a for c, a in zip(cells, nodes))
+        averaged = np.einsum(f"{pattern},{','.join(nodes)}->{cells}", values,
+                             *[weights] * self.dims)
         return np.clip(averaged, self.low, self.high)   # removes round-off only
 
     def scaled(self, low: float, high: float) -> "Field":
@@ -46,7 +53,8 @@ class Field:
         b = low - a * self.low if self.high > self.low else (low + high) / 2
         inner = self.value
         return Field(self.name, f"{self.description}, mapped onto [{low:g}, {high:g}]",
-                     lambda x, y: a * inner(x, y) + b, low, high, self.smooth)
+                     lambda *xs: a * inner(*xs) + b, low, high, self.smooth, self.dims,
+                     self.jump_derivative)
 
 
 def _slotted_cylinder(x, y):
@@ -71,6 +79,12 @@ SLOTTED_CYLINDER = Field("slotted_cylinder", "slotted cylinder (Zalesak 1979), r
                          "about (0.5, 0.75), slot 0.05 wide and 0.25 long",
                          _slotted_cylinder, 0.0, 1.0, smooth=False)
 HUMP = Field("hump", "cosine hump of radius 0.25 about (0.5, 0.7)", _hump, 0.0, 1.0,
-             smooth=True)
+             smooth=True, jump_derivative=2)
 CONSTANT = Field("constant", "constant field q = 1", lambda x, y: np.ones_like(x), 1.0, 1.0,
                  smooth=True)
+# 3-D: a smooth periodic wave (no derivative jumps) and a constant
+WAVE_3D = Field("wave_3d", "q = (1 + sin(2 pi x) sin(2 pi y) sin(2 pi z)) / 2",
+                lambda x, y, z: 0.5 + 0.5 * np.sin(2 * np.pi * x) * np.sin(2 * np.pi * y)
+                * np.sin(2 * np.pi * z), 0.0, 1.0, smooth=True, dims=3)
+CONSTANT_3D = Field("constant_3d", "constant field q = 1", lambda x, y, z: np.ones_like(x),
+                    1.0, 1.0, smooth=True, dims=3)

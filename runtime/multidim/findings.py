@@ -1,12 +1,13 @@
-"""`verify --dims 2`: the 2-D cases run through split sweeps, judged against the split
-scheme's claims (`split` in the analysis document).
+"""`verify --dims 2` and `--dims 3`: the cases run through split sweeps, judged against
+the split scheme's claims (`split` in the analysis document).
 
 Findings, each agree / disagree / no claim / fault as in runtime/rules.py:
 
 - conservation, per case: a conservative scheme's split steps keep the total to
   round-off (relative drift within the 1-D harness's tolerance: 1e-12 in double);
-- convergence, on the smooth case: the flows vary in space, so the claim is
-  `order.variable_coefficients`, an asymptotic order. The finest pair of grids
+- convergence, on the smooth cases: where the flow varies in space the claim is
+  `order.variable_coefficients`, an asymptotic order; under the uniform 3-D flow
+  (constant coefficients) it is `order.overall`. The finest pair of grids
   must show at least that order less the harness's tolerance (0.3; 0.5 for
   nonlinear schemes), capped by what the field allows (its second derivative
   jumps). More is allowed: on coarse grids the higher-order 1-D error often
@@ -34,14 +35,14 @@ from ..prediction import Prediction
 from ..rules import (AGREE, DISAGREE, FAULT, LIMITED_ORDER_TOL, LINEAR_ORDER_TOL, NO_CLAIM,
                      Finding, fault_text, fmt)
 from ..sweeps import KernelSweep
-from .cases import CASES, GRIDS, SMOOTH_CASE, Case, CaseRun, check_case_size, run_case
+from .cases import (ORDER_CASES, Case, CaseRun, cases_for, check_case_size, grids_for, run_case,
+                    smooth_case)
 from .fields import Field
 
 RESOLVED_L1 = 0.1
 """Above this normalised l1 error on the finest grid the field is not resolved yet: the
 pair orders there say nothing about the asymptotic order."""
-JUMP_DERIVATIVE = 2       # the smooth case's hump: its second derivative jumps at its edge
-CONSTANT_ALONG_SWEEPS = {"rotation"}
+CONSTANT_ALONG_SWEEPS = {"rotation", "diagonal"}
 """Flows whose velocity along each axis does not vary along that axis (u(y), v(x))."""
 
 
@@ -60,22 +61,22 @@ class SplitVerification:
 
     def to_json(self) -> dict:
         return {"dims": self.dims, "method": self.method, "courant": self.courant,
-                "grids": list(self.grids), "sweep_path": "reference (1-D kernel per line)",
-                "smooth_case": SMOOTH_CASE, "observed_order": _finest(self.orders),
+                "grids": list(self.grids), "sweep_path": "generated sweep (NAME_sweep)",
+                "smooth_case": smooth_case(self.dims), "observed_order": _finest(self.orders),
                 "pair_orders": self.orders,
                 "cases": [{"name": c.name, "description": c.description,
                            "flow": c.flow.description, "field": c.field.description}
-                          for c in CASES]}
+                          for c in cases_for(self.dims)]}
 
 
 def _finest(orders: dict) -> dict:
     return {norm: values[-1] if values else None for norm, values in orders.items()}
 
 
-def check_split_run(grids, courant: float) -> None:
+def check_split_run(grids, courant: float, dims: int = 2) -> None:
     """Refuse unbounded work before any (LoomError)."""
     for n in grids:
-        check_case_size(n, courant)
+        check_case_size(n, courant, dims)
 
 
 def _field(case: Case, prediction: Prediction) -> Field:
@@ -87,47 +88,57 @@ def _field(case: Case, prediction: Prediction) -> Field:
 
 
 def measure_split(kernel, prediction: Prediction, method: str, courant: float,
-                  grids=GRIDS, progress=None, cases=None) -> tuple[CaseRun, ...]:
+                  grids=None, progress=None, cases=None, dims: int = 2) -> tuple[CaseRun, ...]:
     """Every case (or those named in `cases`) on every grid."""
     say = progress or (lambda message: None)
+    grids = grids_for(dims) if grids is None else grids
     line_sweep = KernelSweep(kernel)
     runs = []
-    for case in _selected(cases):
-        say(f"2-D {case.name} ({method} splitting, N = {', '.join(map(str, grids))})")
+    for case in _selected(cases, dims):
+        say(f"{dims}-D {case.name} ({method} splitting, N = {', '.join(map(str, grids))})")
         runs += [run_case(line_sweep, case, n, courant, method, _field(case, prediction))
                  for n in grids]
     return tuple(runs)
 
 
-def _selected(names) -> tuple[Case, ...]:
+def _selected(names, dims: int) -> tuple[Case, ...]:
+    cases = cases_for(dims)
     if names is None:
-        return CASES
-    unknown = set(names) - {c.name for c in CASES}
+        return cases
+    unknown = set(names) - {c.name for c in cases}
     if unknown:
-        raise LoomError(f"unknown 2-D case(s) {', '.join(sorted(unknown))}; the cases are "
-                        f"{', '.join(c.name for c in CASES)}", file="cases")
-    return tuple(c for c in CASES if c.name in names)
+        raise LoomError(f"unknown {dims}-D case(s) {', '.join(sorted(unknown))}; the cases "
+                        f"are {', '.join(c.name for c in cases)}", file="cases")
+    return tuple(c for c in cases if c.name in names)
 
 
 def verify_split(kernel, prediction: Prediction, method: str, courant: float,
-                 grids=GRIDS, progress=None, cases=None) -> SplitVerification:
-    """Run the 2-D cases (all, or those named in `cases`) and judge them."""
+                 grids=None, progress=None, cases=None) -> SplitVerification:
+    """Run the cases of the split scheme's dimension (all, or those named in `cases`)
+    and judge them."""
     split = prediction.claims.split
     if split is None:
-        raise LoomError("verify --dims 2 needs the split scheme's analysis", file="--dims")
-    check_split_run(grids, courant)
-    runs = measure_split(kernel, prediction, method, courant, grids, progress, cases)
-    smooth = [r for r in runs if r.case == SMOOTH_CASE]
-    orders = {norm: pair_orders([r.n for r in smooth],
-                                [getattr(r, norm) if getattr(r, norm) is not None
-                                 else float("nan") for r in smooth])
-              for norm in ("l1", "l2", "linf")}
-    findings = judge_split(runs, orders, prediction, method, kernel.precision)
-    return SplitVerification(split.dims, method, courant, tuple(grids), runs, findings, orders)
+        raise LoomError("verify --dims needs the split scheme's analysis", file="--dims")
+    dims = split.dims
+    grids = grids_for(dims) if grids is None else grids
+    check_split_run(grids, courant, dims)
+    runs = measure_split(kernel, prediction, method, courant, grids, progress, cases, dims)
+    orders = case_orders(runs, smooth_case(dims))
+    findings = judge_split(runs, orders, prediction, method, kernel.precision, dims)
+    return SplitVerification(dims, method, courant, tuple(grids), runs, findings, orders)
+
+
+def case_orders(runs, case: str) -> dict:
+    """The pair orders of one case's runs, per norm (NaN where a run stopped)."""
+    rows = [r for r in runs if r.case == case]
+    return {norm: pair_orders([r.n for r in rows],
+                              [getattr(r, norm) if getattr(r, norm) is not None
+                               else float("nan") for r in rows])
+            for norm in ("l1", "l2", "linf")}
 
 
 def with_split(verification, split: SplitVerification):
-    """The verification with the 2-D findings added."""
+    """The verification with the split (2-D or 3-D) findings added."""
     return dataclasses.replace(verification,
                                findings=tuple(verification.findings) + split.findings)
 
@@ -135,19 +146,23 @@ def with_split(verification, split: SplitVerification):
 # ---- the rules ---------------------------------------------------------------------------
 
 def judge_split(runs, orders: dict, prediction: Prediction, method: str,
-                precision: str) -> tuple[Finding, ...]:
+                precision: str, dims: int = 2) -> tuple[Finding, ...]:
+    """`orders`: the pair orders of the dimension's smooth case (other judged cases'
+    orders are computed here)."""
     findings = []
-    for case in _selected({r.case for r in runs}):
+    for case in _selected({r.case for r in runs}, dims):
         rows = [r for r in runs if r.case == case.name]
         findings.append(_conservation(case, rows, prediction, method, precision))
-        if case.name == SMOOTH_CASE and orders["l1"]:
-            findings.append(_convergence(case, rows, orders, prediction, method))
+        if case.name in ORDER_CASES[dims]:
+            own = orders if case.name == smooth_case(dims) else case_orders(runs, case.name)
+            if own["l1"]:
+                findings.append(_convergence(case, rows, own, prediction, method))
         findings.append(_bounds(case, rows, prediction, method))
     return tuple(findings)
 
 
 def _context(case: Case, rows, method: str) -> str:
-    return (f"2-D {case.name}, {method}, c = {fmt(rows[-1].courant)}, "
+    return (f"{case.dims}-D {case.name}, {method}, c = {fmt(rows[-1].courant)}, "
             f"N = {rows[0].n}..{rows[-1].n}")
 
 
@@ -201,11 +216,13 @@ def _conservation(case, rows, prediction, method, precision) -> Finding:
 
 def _convergence(case, rows, orders, prediction, method) -> Finding:
     split = prediction.claims.split
-    claimed = split.order_variable
+    constant = case.coefficients == "constant"
+    claimed = split.order_overall if constant else split.order_variable
     finest = orders["l1"][-1] if orders["l1"] else float("nan")
     values = {"case": case.name, "observed_order": finest, "predicted_order": claimed,
               "pair_orders": orders["l1"]}
-    predicted = (f"order {claimed} with variable coefficients" if claimed is not None
+    wording = "constant" if constant else "variable"
+    predicted = (f"order {claimed} with {wording} coefficients" if claimed is not None
                  else "order undecided")
     stopped = _unstable_or_fault("convergence", case, rows, prediction, method, predicted,
                                  values)
@@ -224,7 +241,9 @@ def _convergence(case, rows, orders, prediction, method) -> Finding:
         return Finding("convergence", context, f"no claim: {predicted}, but the finest grid "
                        f"does not resolve the field (l1 error {fmt(error)} > {RESOLVED_L1:g})",
                        measured, NO_CLAIM, values)
-    allowed = min(float(claimed), claimed * (JUMP_DERIVATIVE + 1) / (claimed + 1))
+    jump = case.field.jump_derivative
+    allowed = (float(claimed) if jump is None
+               else min(float(claimed), claimed * (jump + 1) / (claimed + 1)))
     nonlinear = not prediction.claims.linear or prediction.fct
     tol = LIMITED_ORDER_TOL if nonlinear else LINEAR_ORDER_TOL
     values["lowest_expected_order"] = allowed - tol
