@@ -137,8 +137,9 @@ def assert_grid_layouts(r, ranks):
     blocks as narrow as the halo allows (numpy.array_split is the independent split)."""
     s = exchange_schedule(load_scheme(EXAMPLES / f"{r.scheme}.loom"))
     width = max(s.halo, s.face_halo)
-    uneven, narrow = r.layouts["uneven"], r.layouts["narrowest"]
+    uneven, narrow, walls = r.layouts["uneven"], r.layouts["narrowest"], r.layouts["walls"]
     assert uneven.ranks == narrow.ranks == ranks and uneven.dims == narrow.dims
+    assert walls.splits == uneven.splits and walls.periodic == (False,) + (True,) * (r.dims - 1)
     for sizes, n, parts in zip(uneven.splits, uneven.cells, uneven.dims):
         assert list(sizes) == [len(a) for a in np.array_split(np.arange(n), parts)]
         assert parts == 1 or len(set(sizes)) == 2

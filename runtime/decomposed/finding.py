@@ -14,6 +14,9 @@ In 2-D and 3-D (`--dims`) the domain is split on MPI's balanced process grid
 and stepped by the splitting's sweeps (`--split`); the single-domain run is the
 same splitting over the generated sweep on the whole periodic domain (`KernelSweep`,
 NAME_sweep), the decomposed one the per-axis advance of axes.py between exchanges.
+A third layout bounds x by walls (the uneven blocks, x not periodic): the outer
+blocks fill their wall ghosts with the runtime's fill after every exchange, the
+reference is the edge path (`EdgeSweep` with the generated wall helpers).
 """
 from __future__ import annotations
 
@@ -234,9 +237,10 @@ class DecomposedVerification:
         shapes = "; ".join(f"{name} {layout.describe()}" for name, layout in self.layouts.items())
         grid = " x ".join(str(d) for d in self.grid)
         split = "" if self.method is None else f", {self.method} splitting"
+        walls = "; walls (x) and periodic" if "walls" in self.layouts else "; periodic"
         context = (f"{self.ranks} ranks, {self.dims}-D on a {grid} process grid{split}, blocks "
-                   f"{shapes} cells; sine, bell, square, mixed; constant and varying velocity; "
-                   f"{self.steps} steps at c = {self.courant:g}")
+                   f"{shapes} cells{walls}; sine, bell, square, mixed; constant and varying "
+                   f"velocity; {self.steps} steps at c = {self.courant:g}")
         if self.fault:
             context += f"; fault injected for testing: {self.fault}"
         s = self.schedule
@@ -274,6 +278,7 @@ class DecomposedVerification:
             "steps": self.steps,
             "layouts": {name: [list(s) for s in layout.splits]
                         for name, layout in self.layouts.items()},
+            "periodic": {name: list(layout.periodic) for name, layout in self.layouts.items()},
             "runs": self.runs,
             "differing_runs": list(self.differing),
             "where": None if self.largest is None else self.largest.to_json(),
@@ -345,6 +350,36 @@ def single_domain_split(kernel, q0: np.ndarray, u_faces, dt_dx: float, steps: in
                        q0, method, steps)
 
 
+def wall_axes(layout_name: str, dims: int) -> list[bool]:
+    """Periodicity per axis: the "walls" layout bounds x (axis 0) by walls."""
+    return [not (layout_name == "walls" and axis == 0) for axis in range(dims)]
+
+
+def single_domain_walls(scheme, backend: str, precision: str, q0: np.ndarray, u_faces,
+                        dt_dx: float, steps: int, method: str) -> np.ndarray:
+    """The whole-domain split run with walls at both ends of x and the other axes
+    periodic: the reference path for edges (`EdgeSweep`, the stage on every line with
+    the generated wall helpers before every stage; the walls' faces zeroed and
+    mirrored by `extend_faces`)."""
+    from ..boundaries import Edge, generated_fills
+    from ..edge_sweeps import EdgeSweep, extend_faces
+    from ..splitting import advance
+
+    dims = q0.ndim
+    edges = tuple((Edge("wall"), Edge("wall")) if axis == 0 else
+                  (Edge("periodic"), Edge("periodic")) for axis in range(dims))
+    sweep = EdgeSweep(scheme, backend, precision)
+    fills = generated_fills(scheme, backend, precision)
+    # a copy: without a face halo extend_faces may hand back (and wall) the array it got
+    faces = [extend_faces(fills, u.copy(), axis, sweep.face_halo, edges)
+             for axis, u in enumerate(u_faces)]
+    with np.errstate(all="ignore"):
+        q = advance(lambda axis, state, fraction: sweep(axis, state, faces[axis],
+                                                         dt_dx * fraction, edges),
+                    sweep.padded(q0), method, steps)
+    return sweep.interior(q).copy()
+
+
 def sweeps_per_step(method: str, dims: int, steps: int) -> float:
     from fluxloom.compiler.splittings import splitting
 
@@ -378,7 +413,8 @@ def verify_many(schemes, backend: str = "numpy", precision: str = "double", rank
                       "varying": [varying_velocity(cells[0])]}
         else:
             cells = domain_cells_nd(dims, ranks, width)
-            found = {"uneven": None, "narrowest": None}   # the ranks' process grid decides
+            # the ranks' process grid decides the blocks; "walls": uneven blocks, x bounded
+            found = {"uneven": None, "narrowest": None, "walls": None}
             fields = face_fields(cells, sign, kernel.dtype)
         labels = []
         clip = None if scheme.clip is None else tuple(float(v) for v in scheme.clip)
@@ -389,22 +425,29 @@ def verify_many(schemes, backend: str = "numpy", precision: str = "double", rank
                 if dims == 1:
                     reference = single_domain(kernel, q0, u_faces[0], dt_dx, steps)
                 else:
-                    reference = single_domain_split(kernel, q0, u_faces, dt_dx, steps, method)
+                    periodic = single_domain_split(kernel, q0, u_faces, dt_dx, steps, method)
+                    walled = single_domain_walls(scheme, backend, precision, q0, u_faces, dt_dx,
+                                                 steps, method)
                 for lname, layout in found.items():
+                    if dims > 1:
+                        reference = walled if lname == "walls" else periodic
                     i = len(cases)
                     if dims == 1:
                         cases.append(_case(len(sources) - 1, layout, steps, dt_dx, fault))
                         arrays[f"u{i}"] = u_faces[0]
                     else:
                         cases.append({"kernel": len(sources) - 1, "cells": list(cells),
-                                      "blocks": lname, "width": width,
-                                      "periodic": [True] * dims, "steps": steps,
+                                      "blocks": "uneven" if lname == "walls" else lname,
+                                      "width": width, "periodic": wall_axes(lname, dims),
+                                      "steps": steps,
                                       "dt_dx": dt_dx, "fault": fault, "method": method})
                         for axis, u in enumerate(u_faces):
                             arrays[f"u{i}_{axis}"] = u
                     arrays[f"q{i}"] = q0
                     expected.append((lname, reference))
-                    labels.append(f"{profile.name}, {vname} velocity, {lname} blocks")
+                    blocks = ("uneven blocks, walls at both ends of x" if lname == "walls"
+                              else f"{lname} blocks")
+                    labels.append(f"{profile.name}, {vname} velocity, {blocks}")
         plans.append((scheme, found, labels, schedule))
     finals, exchanges, splits = run_cases(sources, cases, arrays, ranks)
     results, first = [], 0
@@ -413,7 +456,8 @@ def verify_many(schemes, backend: str = "numpy", precision: str = "double", rank
         differing, largest, used = [], None, {}
         for k, label in enumerate(labels):
             lname, reference = expected[first + k]
-            layout = Layout(tuple(tuple(s) for s in splits[first + k]), (True,) * dims)
+            layout = Layout(tuple(tuple(s) for s in splits[first + k]),
+                            tuple(wall_axes(lname, dims)))
             used[lname] = layout
             diff = largest_difference(label, layout, finals[first + k], reference)
             if diff is not None:

@@ -22,6 +22,7 @@ from pathlib import Path
 import numpy as np
 from mpi4py import MPI
 
+from ..boundaries import HIGH, LOW, fill, wall_faces
 from .blocks import Layout, narrowest_split
 from .driver import DecomposedDomain
 from .stages import stage_kernel
@@ -36,7 +37,8 @@ def run_job(job_dir: Path, comm: MPI.Comm) -> None:
     for i, case in enumerate(job["cases"]):
         kernel = kernels[case["kernel"]]
         layout = case_layout(case, comm.Get_size())
-        domain = DecomposedDomain(kernel, layout, comm, fault=case.get("fault"))
+        domain = DecomposedDomain(kernel, layout, comm, fault=case.get("fault"),
+                                  fill_edge=None if all(layout.periodic) else wall_fill(kernel))
         q = domain.local_cells(inputs[f"q{i}"].astype(kernel.dtype))
         steps, dt_dx = int(case["steps"]), float(case["dt_dx"])
         with np.errstate(all="ignore"):  # an unstable scheme's growth is data here
@@ -47,6 +49,9 @@ def run_job(job_dir: Path, comm: MPI.Comm) -> None:
             else:
                 u_faces = [domain.local_faces(inputs[f"u{i}_{axis}"].astype(kernel.dtype), axis)
                            for axis in range(layout.ndim)]
+                for axis, faces in enumerate(u_faces):
+                    for side in domain.exchange.edges(axis):   # walls: set once, never exchanged
+                        wall_faces(faces, axis, kernel.face_halo, LOW if side < 0 else HIGH)
                 for k in range(steps):
                     q = domain.split_step(q, u_faces, dt_dx, case["method"], k)
         final = domain.gather(q)
@@ -59,6 +64,14 @@ def run_job(job_dir: Path, comm: MPI.Comm) -> None:
         np.savez(job_dir / "results.npz", **results)
         (job_dir / "results.json").write_text(json.dumps({"exchanges_per_step": per_step,
                                                           "splits": splits}))
+
+
+def wall_fill(kernel):
+    """fill_edge for walls: the runtime's own fill (runtime/boundaries.py), not the
+    generated helpers the single-domain reference uses."""
+    def fill_edge(axis: int, side: int, q: np.ndarray) -> None:
+        fill("wall", q, axis, kernel.halo, LOW if side < 0 else HIGH)
+    return fill_edge
 
 
 def case_layout(case: dict, ranks: int) -> Layout:
