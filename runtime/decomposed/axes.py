@@ -8,7 +8,8 @@ fresh ghost cells before every stage, which the sweep cannot take from a neighbo
 in between (it refreshes its intermediate stages itself, periodically along the
 line), so those kernels go stage by stage through NAME_stage, every line at once:
 the numpy stage slices along its first axis only and takes all lines in one call;
-the C stage is called once per line on rows of a contiguous copy. Either way each
+the C stage is called once per line: in place along the contiguous (last) axis,
+on rows of a contiguous copy along the others. Either way each
 cell is computed by the same operations as in the whole-domain sweep, so the
 decomposed run is the single-domain one bit for bit.
 
@@ -52,6 +53,15 @@ class AxisSweeps:
             index[axis] = slice(None)
         return tuple(index)
 
+    def _rows(self, q: np.ndarray) -> np.ndarray:
+        """Rows (along the last axis) of q that are interior lines, in C order."""
+        key = ("rows", q.shape)
+        if key not in self._work:
+            h = self.kernel.halo
+            index = np.arange(int(np.prod(q.shape[:-1]))).reshape(q.shape[:-1])
+            self._work[key] = index[tuple(slice(h, s - h) for s in q.shape[:-1])].ravel()
+        return self._work[key]
+
     def _workspace(self, axis: int, shape: tuple) -> np.ndarray:
         key = (axis, shape)
         if key not in self._work:
@@ -75,6 +85,13 @@ class AxisSweeps:
         h = kernel.halo
         lines = self._lines(q_stage, axis)
         n = q_stage.shape[axis] - 2 * h
+        if axis == q_stage.ndim - 1:   # lines along the contiguous axis: rows in place
+            rows = self._rows(q_stage)
+            faces = u_face.reshape(len(rows), u_face.shape[-1])
+            size = max(int(kernel.workspace_size(n)), 1)
+            work = self._workspace(axis, (len(rows), size))
+            kernel.stage_lines(stage, n, q_start, q_stage, q_out, faces, dt_dx, work, rows)
+            return
 
         def rows(a: np.ndarray, length: int) -> np.ndarray:
             return np.ascontiguousarray(np.moveaxis(a, axis, -1)).reshape(-1, length)

@@ -51,12 +51,15 @@ class StageKernel:
         self.run_stage(stage, n, q_start, q_stage, q_out, u_face, dt_dx, work)
 
     def stage_lines(self, stage: int, n: int, q_start, q_stage, q_out, u_face, dt_dx: float,
-                    work) -> None:
+                    work, rows=None) -> None:
         """`stage` on many lines: the arrays hold one line per entry of their other axes,
         the line along `line_axis` (numpy: axis 0, any views; C: the last axis of
-        C-contiguous arrays of rank 2, one row per line). work holds one workspace per
-        line, laid out the same way; it must persist from stage 0 to the last."""
-        self.run_lines(stage, n, q_start, q_stage, q_out, u_face, dt_dx, work)
+        C-contiguous arrays, one row per line). work holds one workspace per line, laid
+        out the same way; it must persist from stage 0 to the last. C only: `rows`
+        picks line k of the q arrays as their row rows[k] (the arrays' last axis is the
+        line), so lines along the contiguous axis need no copy; u_face and work keep
+        one row per line."""
+        self.run_lines(stage, n, q_start, q_stage, q_out, u_face, dt_dx, work, rows)
 
 
 def kernel_sources(scheme, backend: str = "numpy", precision: str = "double",
@@ -96,9 +99,12 @@ def stage_kernel(sources: dict) -> StageKernel:
         def run_stage(stage, n, q_start, q_stage, q_out, u_face, dt_dx, work):
             module.stage(stage, n, q_start, q_stage, q_out, u_face, real(dt_dx), work)
 
+        def run_lines(stage, n, q_start, q_stage, q_out, u_face, dt_dx, work, rows=None):
+            module.stage(stage, n, q_start, q_stage, q_out, u_face, real(dt_dx), work)
+
         # the generated stage slices along axis 0 only, so it runs every line at once
         return StageKernel(name, "numpy", precision, module.HALO, module.FACE_HALO,
-                           module.STAGES, module.workspace_size, run_stage, run_stage, 0,
+                           module.STAGES, module.workspace_size, run_stage, run_lines, 0,
                            _sweeper(name, precision, module, None))
 
     from ..build import compile_source
@@ -115,16 +121,18 @@ def stage_kernel(sources: dict) -> StageKernel:
                 ffi.from_buffer(ctype, u_face), dt_dx,
                 ffi.from_buffer(ctype, work, require_writable=True))
 
-    def run_c_lines(stage, n, q_start, q_stage, q_out, u_face, dt_dx, work):
+    def run_c_lines(stage, n, q_start, q_stage, q_out, u_face, dt_dx, work, rows=None):
         # one buffer per array, then a pointer per row: no per-line conversions
         start, current = ffi.from_buffer(ctype, q_start), ffi.from_buffer(ctype, q_stage)
         out = ffi.from_buffer(ctype, q_out, require_writable=True)
         faces = ffi.from_buffer(ctype, u_face)
         registers = ffi.from_buffer(ctype, work, require_writable=True)
         size, face_size, work_size = q_start.shape[-1], u_face.shape[-1], work.shape[-1]
-        for line in range(q_start.shape[0]):
-            c_stage(stage, n, start + line * size, current + line * size, out + line * size,
-                    faces + line * face_size, dt_dx, registers + line * work_size)
+        lines = range(len(u_face)) if rows is None else rows
+        for line, row in enumerate(lines):
+            at = int(row) * size
+            c_stage(stage, n, start + at, current + at, out + at, faces + line * face_size,
+                    dt_dx, registers + line * work_size)
 
     return StageKernel(name, "c", precision, int(getattr(lib, f"{name}_HALO")),
                        int(getattr(lib, f"{name}_FACE_HALO")), int(getattr(lib, f"{name}_STAGES")),
