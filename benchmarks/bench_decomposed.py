@@ -2,8 +2,9 @@
 of a step projected for 3-D subdomains of 32^3 to 256^3 cells per process.
 
 Weak scaling: every process holds the same number of cells (a 1-D periodic block,
-the generated C kernel at -O2, the driver of fluxloom.runtime.decomposed), run on
-1, 2 and 4 processes (4 oversubscribes a 2-core machine). Each process reports the
+or with --dims 2 a square block on MPI's balanced process grid stepped by Lie-split
+sweeps, the generated C kernel at -O2, the driver of fluxloom.runtime.decomposed),
+run on 1, 2 and 4 processes (4 oversubscribes a 2-core machine). Each process reports the
 wall time of its steps and the part spent in halo exchanges; the slowest process
 is shown. Efficiency is the 1-process step time over the P-process one.
 
@@ -34,6 +35,63 @@ REAL_BYTES = 8  # double
 
 
 # ---- the MPI program: one weak-scaling run ---------------------------------------------
+
+def rank_program_2d(spec: str, backend: str, cells: int, steps: int) -> None:
+    """A side x side block per process (side^2 about `cells`), Lie-split sweeps."""
+    import math
+
+    import numpy as np
+    from mpi4py import MPI
+
+    from fluxloom.compiler import load_scheme
+    from fluxloom.runtime.decomposed.blocks import Layout
+    from fluxloom.runtime.decomposed.driver import DecomposedDomain
+    from fluxloom.runtime.decomposed.stages import load_stage_kernel
+
+    comm = MPI.COMM_WORLD
+    dims = MPI.Compute_dims(comm.Get_size(), 2)
+    side = math.isqrt(cells)
+    kernel = load_stage_kernel(load_scheme(spec), backend)
+    layout = Layout(tuple((side,) * d for d in dims), (True, True))
+    domain = DecomposedDomain(kernel, layout, comm)
+    exchange_time = _timed_exchanges(domain)
+    h, f = kernel.halo, kernel.face_halo
+    start = domain.block.start
+    x = (start[0] + np.arange(side) + 0.5) / (side * dims[0])
+    y = (start[1] + np.arange(side) + 0.5) / (side * dims[1])
+    q = np.zeros((side + 2 * h,) * 2)
+    q[h:h + side, h:h + side] = np.sin(2 * np.pi * x)[:, None] * np.cos(2 * np.pi * y)[None, :]
+    faces = [np.full((side + 1 + 2 * f, side), 0.6), np.full((side, side + 1 + 2 * f), -0.4)]
+    dt_dx = 0.5 / 0.6
+    for k in range(2):  # warm up (first touch, caches)
+        q = domain.split_step(q, faces, dt_dx, "lie", k)
+    comm.Barrier()
+    exchange_time[0] = 0.0
+    begin = time.perf_counter()
+    for k in range(steps):
+        q = domain.split_step(q, faces, dt_dx, "lie", k)
+    elapsed = time.perf_counter() - begin
+    rows = comm.gather((elapsed, exchange_time[0]), root=0)
+    if comm.Get_rank() == 0:
+        slowest = max(rows)
+        print(json.dumps({"seconds_per_step": slowest[0] / steps,
+                          "exchange_seconds_per_step": slowest[1] / steps,
+                          "cells": side * side, "grid": list(dims)}))
+
+
+def _timed_exchanges(domain) -> list[float]:
+    """Wrap the domain's exchanges with a timer; the returned list holds the seconds."""
+    exchange_time = [0.0]
+    for name in ("cells", "faces"):
+        original = getattr(domain.exchange, name)
+
+        def timed(*args, _original=original):
+            start = time.perf_counter()
+            _original(*args)
+            exchange_time[0] += time.perf_counter() - start
+        setattr(domain.exchange, name, timed)
+    return exchange_time
+
 
 def rank_program(spec: str, backend: str, cells: int, steps: int) -> None:
     import numpy as np
@@ -79,11 +137,12 @@ def rank_program(spec: str, backend: str, cells: int, steps: int) -> None:
                           "exchange_seconds_per_step": slowest[1] / steps}))
 
 
-def measure(spec: Path, backend: str, cells: int, steps: int, ranks: int) -> dict:
+def measure(spec: Path, backend: str, cells: int, steps: int, ranks: int, dims: int = 1) -> dict:
     from fluxloom.runtime.decomposed.launch import require_mpi
 
     mpiexec = require_mpi(ranks)
-    done = subprocess.run([mpiexec, "-n", str(ranks), sys.executable, __file__, "--rank-program",
+    program = "--rank-program" if dims == 1 else "--rank-program-2d"
+    done = subprocess.run([mpiexec, "-n", str(ranks), sys.executable, __file__, program,
                            str(spec), backend, str(cells), str(steps)],
                           capture_output=True, text=True, stdin=subprocess.DEVNULL, check=False)
     if done.returncode != 0:
@@ -112,6 +171,9 @@ def main() -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--rank-program", nargs=4, metavar=("SPEC", "BACKEND", "CELLS", "STEPS"),
                         help=argparse.SUPPRESS)
+    parser.add_argument("--rank-program-2d", nargs=4, help=argparse.SUPPRESS)
+    parser.add_argument("--dims", type=int, choices=(1, 2), default=1,
+                        help="1-D blocks, or 2-D square blocks with Lie-split sweeps")
     parser.add_argument("--cells", type=int, default=1_000_000, help="cells per process")
     parser.add_argument("--steps", type=int, default=20)
     parser.add_argument("--ranks", type=int, nargs="+", default=[1, 2, 4])
@@ -128,12 +190,17 @@ def main() -> int:
         spec, backend, cells, steps = args.rank_program
         rank_program(spec, backend, int(cells), int(steps))
         return 0
+    if args.rank_program_2d:
+        spec, backend, cells, steps = args.rank_program_2d
+        rank_program_2d(spec, backend, int(cells), int(steps))
+        return 0
 
     from fluxloom.compiler import load_scheme
     from fluxloom.compiler.emit.exchange import exchange_schedule
 
     if not args.project_only:
-        print(f"Weak scaling: {args.cells} cells per process, {args.backend} kernel, "
+        print(f"Weak scaling ({args.dims}-D): {args.cells} cells per process, "
+              f"{args.backend} kernel, "
               f"{args.steps} steps; load average {os.getloadavg()[0]:.2f} on "
               f"{os.cpu_count()} cores")
         print(f"{'scheme':<16} {'P':>2} {'ms/step':>9} {'exchange ms':>12} {'share':>6} "
@@ -142,11 +209,12 @@ def main() -> int:
             base = None
             for ranks in args.ranks:
                 m = measure(ROOT / "examples" / f"{name}.loom", args.backend, args.cells,
-                            args.steps, ranks)
+                            args.steps, ranks, args.dims)
                 t, te = m["seconds_per_step"], m["exchange_seconds_per_step"]
                 base = t if base is None else base
+                cells = m.get("cells", args.cells)
                 print(f"{name:<16} {ranks:>2} {1e3 * t:>9.2f} {1e3 * te:>12.3f} {te / t:>6.1%} "
-                      f"{args.cells / t / 1e6:>11.0f} {base / t:>10.2f}")
+                      f"{cells / t / 1e6:>11.0f} {base / t:>10.2f}")
 
     print(f"\nProjection for 3-D blocks of side^3 cells per process (three sweeps per step), "
           f"memory {args.memory_gbs:g} GB/s, network {args.network_gbs:g} GB/s per process, "

@@ -232,3 +232,8 @@ def test_readme_projection_table_matches_the_benchmark_formula():
             2 * plain.halo / (3 * side))
         assert projection(fct, side, 5.0, 0.5, 2.0)["bytes_ratio"] == pytest.approx(
             (2 * fct.halo + 2 * fct.face_halo) / (3 * side))
+
+
+def test_an_empty_block_is_a_clear_error():
+    with pytest.raises(LoomError, match="every block needs at least one cell"):
+        Layout(((3, 0),), (True,))

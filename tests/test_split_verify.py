@@ -77,7 +77,6 @@ def test_check_refuses_bad_dims(capsys, args, message):
     (["--dims", "2", "--grid", "stretched"], "--grid stretched with --dims 2"),
     (["--dims", "3", "--boundary", "wall"], "--boundary wall with --dims 3"),
     (["--dims", "3", "--grid", "perturbed"], "--grid perturbed with --dims 3"),
-    (["--dims", "2", "--ranks", "2"], "--ranks with --dims 2"),
     (["--split", "strang"], "give --dims 2 or 3"),
 ])
 def test_verify_refuses_what_is_not_built(capsys, args, message):

@@ -47,7 +47,7 @@ def add_decomposed_options(parser) -> None:
     parser.add_argument("--ranks", type=int, metavar="N",
                         help="also run the scheme decomposed over N MPI processes (launched with "
                              "mpiexec; needs fluxloom[mpi]) and compare it with the single-domain "
-                             "run bit for bit")
+                             "run bit for bit; with --dims 2 on a 2-D process grid, split")
     parser.add_argument("--dims", type=int, default=1, metavar="D",
                         help="dimensions of the domain: 1, 2 to also run the 2-D cases "
                              "(rotation, swirling flow) or 3 the 3-D cases (uniform diagonal "
@@ -83,10 +83,6 @@ def check_split_options(args) -> tuple[int, str | None]:
         raise LoomError(f"--boundary {args.boundary} with --dims 3: the 3-D cases run on a "
                         "periodic cube; the wall and open cases run in 1-D and 2-D "
                         "(--dims 1 or 2)", file="--boundary")
-    if dims > 1 and args.ranks is not None:
-        raise LoomError(f"--ranks with --dims {dims}: decomposed multi-dimensional runs are "
-                        "not built yet; use --ranks with --dims 1",
-                        file="--ranks")
     return dims, method
 
 
@@ -146,7 +142,7 @@ def run(args) -> int:
         if say:
             say(f"decomposed run on {args.ranks} processes")
         decomposed = verify_decomposed(scheme, args.backend, args.precision, args.ranks,
-                                       args.dims, options.courant, args.velocity)
+                                       dims, options.courant, args.velocity, method=method)
         verification = with_decomposed(verification, decomposed)
     split = None
     if dims > 1:

@@ -59,8 +59,8 @@ class Layout:
             raise decomposition_error("a layout needs one split and one periodicity per axis")
         for axis, sizes in enumerate(self.splits):
             if not sizes or min(sizes) < 1:
-                raise LoomError(f"axis {axis}: every block needs at least one cell, given "
-                                f"{list(sizes)}")
+                raise decomposition_error(f"axis {axis}: every block needs at least one "
+                                          f"cell, given {list(sizes)}")
 
     @classmethod
     def even(cls, cells: tuple[int, ...], dims: tuple[int, ...],

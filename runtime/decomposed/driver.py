@@ -5,10 +5,10 @@ A sweep along one axis is the kernel's step along that axis: the face
 velocities' halo is refreshed once (flux correction only), then for every stage
 the halo of the stage's input is refreshed (from the neighbours, and by the
 caller's `fill_edge` beyond a non-periodic edge) and the per-axis advance hook
-runs the stage on the block. In 1-D the hook is the kernel's own `stage`; a
-multi-dimensional domain passes a hook that runs a sweep kernel along the axis
-(the decomposition, neighbours and exchanges are already N-D), and a split
-step is a sequence of sweeps.
+runs the stage on the block. In 1-D the hook is the kernel's own `stage`; on 2-D
+and 3-D blocks it is `axes.AxisSweeps` (the generated sweep for one-stage
+schemes, the stage on every line otherwise), and a split step (`split_step`) is
+the splitting table's sequence of sweeps, each with its own exchanges.
 
 Arrays of cells hold `kernel.halo` ghost cells on each side of every axis. The
 driver owns the stage buffers and the workspace; `sweep` returns the new state
@@ -21,6 +21,7 @@ from typing import Callable
 import numpy as np
 from mpi4py import MPI
 
+from .axes import AxisSweeps
 from .blocks import Layout, decomposition_error
 from .exchange import HaloExchange
 from .stages import StageKernel
@@ -53,9 +54,8 @@ class DecomposedDomain:
         if fault is not None and fault not in FAULTS:
             raise decomposition_error(f"unknown fault '{fault}'; choose one of "
                                       f"{', '.join(FAULTS)}")
-        if advance is None and layout.ndim > 1:
-            raise decomposition_error("a multi-dimensional domain needs an advance hook that "
-                                      "sweeps the kernel along one axis")
+        if layout.ndim > 3:
+            raise decomposition_error(f"a layout of {layout.ndim} axes; sweeps take 1 to 3")
         if fill_edge is None and not all(layout.periodic):
             raise decomposition_error("a non-periodic axis needs fill_edge, which fills the "
                                       "ghost cells beyond the domain's edges")
@@ -75,7 +75,9 @@ class DecomposedDomain:
                          for _ in range(min(kernel.stages - 1, 2))]
         self._spare = np.zeros(self.shape, kernel.dtype)
         self._work = kernel.workspace(self.block.size[0]) if layout.ndim == 1 else None
-        self.advance = advance if advance is not None else self._line_stage
+        if advance is None:
+            advance = self._line_stage if layout.ndim == 1 else AxisSweeps(kernel)
+        self.advance = advance
 
     def free(self) -> None:
         self.cart.Free()
@@ -116,6 +118,18 @@ class DecomposedDomain:
             raise decomposition_error("step is for 1-D domains; advance a multi-dimensional one "
                                       "by sweeps")
         return self.sweep(0, q, u_face, dt_dx)
+
+    def split_step(self, q: np.ndarray, u_faces, dt_dx: float, method: str = "strang",
+                   step: int = 0) -> np.ndarray:
+        """One split step of a 2-D or 3-D block: the sweeps of `method`'s table
+        (compiler/splittings.py) in order, each `sweep` with its share of dt. u_faces:
+        the block's face velocities of every axis (`local_faces(u, axis)`)."""
+        from fluxloom.runtime.splitting import split_step
+
+        def sweep(axis: int, state: np.ndarray, fraction: float) -> np.ndarray:
+            return self.sweep(axis, state, u_faces[axis], dt_dx * fraction)
+
+        return split_step(sweep, q, method, step)
 
     # ---- data in and out -----------------------------------------------------------------
 

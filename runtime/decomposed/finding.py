@@ -8,6 +8,15 @@ sign-changing velocity, on a domain that does not divide evenly among the ranks
 and on blocks as narrow as the halo allows. The single-domain run is the kernel's
 whole step (`NAME_step`, halos filled periodically); the decomposed one calls
 `NAME_stage` with the exchanges of the schedule in between.
+
+In 2-D and 3-D (`--dims`) the domain is split on MPI's balanced process grid
+(MPI.Compute_dims), every axis a prime number of cells (no grid divides it evenly),
+and stepped by the splitting's sweeps (`--split`); the single-domain run is the
+same splitting over the generated sweep on the whole periodic domain (`KernelSweep`,
+NAME_sweep), the decomposed one the per-axis advance of axes.py between exchanges.
+A third layout bounds x by walls (the uneven blocks, x not periodic): the outer
+blocks fill their wall ghosts with the runtime's fill after every exchange, the
+reference is the edge path (`EdgeSweep` with the generated wall helpers).
 """
 from __future__ import annotations
 
@@ -32,8 +41,11 @@ from .stages import kernel_sources
 PROFILES = (SINE, BELL, SQUARE, MIXED)
 STEPS = 40
 BASE_CELLS = 61
-DIMS = (1,)
-"""Dimensions a decomposed run supports until the kernels sweep multi-dimensional arrays."""
+DIMS = (1, 2, 3)
+BASE_CELLS_ND = {2: (23, 19), 3: (13, 11, 7)}
+"""Cells per axis of the 2-D and 3-D test domains (primes, different per axis, so a
+transposed block or exchange shows), raised to a prime that fits the narrowest blocks."""
+DEFAULT_SPLIT = "strang"
 
 
 FAULT_VARIABLE = "FLUXLOOM_DECOMPOSED_FAULT"
@@ -43,8 +55,7 @@ catching it; the finding says when one was injected."""
 
 def check_dims(dims: int) -> None:
     if dims not in DIMS:
-        raise LoomError(f"--dims {dims}: only --dims 1 is available (the kernels do not yet "
-                        "sweep multi-dimensional arrays)", file="--dims")
+        raise LoomError(f"--dims {dims}: decomposed runs take --dims 1, 2 or 3", file="--dims")
 
 
 def check_options(ranks: int | None, dims: int) -> None:
@@ -67,6 +78,23 @@ def domain_cells(ranks: int, width: int) -> int:
     while ranks > 1 and cells % ranks == 0:
         cells += 1
     return cells
+
+
+def is_prime(n: int) -> bool:
+    return n > 1 and all(n % d for d in range(2, int(n ** 0.5) + 1))
+
+
+def domain_cells_nd(dims: int, ranks: int, width: int) -> tuple[int, ...]:
+    """Cells per axis of a 2-D or 3-D test domain: primes larger than the number of
+    ranks (so no process grid divides an axis it splits), with room for blocks of
+    `width` on every rank along any axis."""
+    cells = []
+    for base in BASE_CELLS_ND[dims]:
+        n = max(base, ranks * width + 1)
+        while not is_prime(n) or n in cells:
+            n += 1
+        cells.append(n)
+    return tuple(cells)
 
 
 def layouts(ranks: int, halo: int, face_halo: int) -> dict[str, Layout]:
@@ -104,25 +132,31 @@ class Difference:
     """Where a decomposed run differs most from the single-domain run."""
 
     case: str
-    cell: int
+    cell: int | tuple[int, ...]        # a tuple on 2-D and 3-D domains
     value: float
     expected: float
     size: float          # |value - expected|; inf when either is not finite
     rank: int
-    block: tuple[int, int]
-    from_edge: int       # cells to the nearer edge of the block (0: the edge cell)
+    block: tuple         # (lo, hi) in 1-D; one (lo, hi) per axis otherwise
+    from_edge: int       # cells to the nearest edge of the block (0: an edge cell)
 
     def text(self) -> str:
-        lo, hi = self.block
+        if isinstance(self.cell, tuple):
+            where = " x ".join(f"[{lo}, {hi})" for lo, hi in self.block)
+        else:
+            where = "[{}, {})".format(*self.block)
         return (f"cell {self.cell} in {self.case}: {self.value!r} against {self.expected!r}, "
-                f"in rank {self.rank}'s block [{lo}, {hi}), "
+                f"in rank {self.rank}'s block {where}, "
                 + ("at its edge" if self.from_edge == 0 else
                    f"{self.from_edge} cell{'s' if self.from_edge > 1 else ''} from its nearer edge"))
 
     def to_json(self) -> dict:
-        return {"case": self.case, "cell": self.cell, "value": _finite(self.value),
-                "expected": _finite(self.expected), "difference": _finite(self.size),
-                "rank": self.rank, "block": list(self.block), "from_edge": self.from_edge}
+        nd = isinstance(self.cell, tuple)
+        return {"case": self.case, "cell": list(self.cell) if nd else self.cell,
+                "value": _finite(self.value), "expected": _finite(self.expected),
+                "difference": _finite(self.size), "rank": self.rank,
+                "block": [list(b) for b in self.block] if nd else list(self.block),
+                "from_edge": self.from_edge}
 
 
 def _exchanges(count: float) -> str:
@@ -135,6 +169,8 @@ def _finite(x: float):
 
 def largest_difference(case: str, layout: Layout, got: np.ndarray,
                        expected: np.ndarray) -> Difference | None:
+    """The largest difference (1-D: cell and block as numbers; N-D: as tuples, and the
+    distance to the nearest edge of the block along any axis)."""
     differ = bits(got) != bits(expected)
     if not differ.any():
         return None
@@ -142,12 +178,16 @@ def largest_difference(case: str, layout: Layout, got: np.ndarray,
         size = np.abs(got.astype(float) - expected.astype(float))
     size = np.where(np.isfinite(size), size, np.inf)
     size = np.where(differ, size, -1.0)
-    cell = int(np.argmax(size))
-    rank, (local,) = layout.owner((cell,))
+    index = tuple(int(i) for i in np.unravel_index(int(np.argmax(size)), size.shape))
+    rank, local = layout.owner(index)
     block = layout.block(layout.coords(rank))
-    lo, n = block.start[0], block.size[0]
-    return Difference(case, cell, float(got[cell]), float(expected[cell]), float(size[cell]),
-                      rank, (lo, lo + n), min(local, n - 1 - local))
+    ranges = tuple((lo, lo + n) for lo, n in zip(block.start, block.size))
+    from_edge = min(min(i, n - 1 - i) for i, n in zip(local, block.size))
+    if got.ndim == 1:
+        return Difference(case, index[0], float(got[index]), float(expected[index]),
+                          float(size[index]), rank, ranges[0], from_edge)
+    return Difference(case, index, float(got[index]), float(expected[index]), float(size[index]),
+                      rank, ranges, from_edge)
 
 
 @dataclass(frozen=True)
@@ -156,7 +196,7 @@ class DecomposedVerification:
     backend: str
     precision: str
     ranks: int
-    dims: int
+    dims: int                         # dimensions of the domain
     courant: float
     steps: int
     layouts: dict            # name -> Layout
@@ -167,6 +207,18 @@ class DecomposedVerification:
     exchanges_steady: bool            # every run made the same number per step
     schedule: ExchangeSchedule        # what the kernel's schedule says
     fault: str | None
+    method: str | None = None         # the splitting (2-D and 3-D)
+    sweeps_per_step: float = 1.0      # sweeps of one step (the splitting's, on average)
+
+    @property
+    def grid(self) -> tuple[int, ...]:
+        """The process grid (blocks per axis)."""
+        return next(iter(self.layouts.values())).dims
+
+    @property
+    def expected_exchanges(self) -> float:
+        """The schedule's exchanges per sweep times the sweeps of a step."""
+        return self.schedule.per_step * self.sweeps_per_step
 
     @property
     def identical(self) -> bool:
@@ -179,18 +231,24 @@ class DecomposedVerification:
     @property
     def agree(self) -> bool:
         return (self.identical and self.exchanges_steady
-                and self.exchanges_per_step == self.schedule.per_step)
+                and self.exchanges_per_step == self.expected_exchanges)
 
     def finding(self) -> Finding:
         shapes = "; ".join(f"{name} {layout.describe()}" for name, layout in self.layouts.items())
-        context = (f"{self.ranks} ranks, dims {self.dims}, blocks {shapes} cells; sine, bell, "
-                   f"square, mixed; constant and varying velocity; {self.steps} steps at "
-                   f"c = {self.courant:g}")
+        grid = " x ".join(str(d) for d in self.grid)
+        split = "" if self.method is None else f", {self.method} splitting"
+        walls = "; walls (x) and periodic" if "walls" in self.layouts else "; periodic"
+        context = (f"{self.ranks} ranks, {self.dims}-D on a {grid} process grid{split}, blocks "
+                   f"{shapes} cells{walls}; sine, bell, square, mixed; constant and varying "
+                   f"velocity; {self.steps} steps at c = {self.courant:g}")
         if self.fault:
             context += f"; fault injected for testing: {self.fault}"
         s = self.schedule
-        predicted = (f"bit-identical to the single-domain run, with {_exchanges(s.per_step)} "
-                     f"per step (halo {s.halo}, face halo {s.face_halo})")
+        per = ("" if self.method is None else
+               f" ({_exchanges(s.per_step)} per sweep, {self.sweeps_per_step:g} sweeps)")
+        predicted = (f"bit-identical to the single-domain run, with "
+                     f"{_exchanges(self.expected_exchanges)} per step{per} (halo {s.halo}, "
+                     f"face halo {s.face_halo})")
         if self.identical:
             measured = f"bit-identical in all {self.runs} runs"
         else:
@@ -206,16 +264,21 @@ class DecomposedVerification:
         """The `decomposed` object of `verify --json`."""
         return {
             "ranks": self.ranks,
-            "dims": self.dims,
+            "dims": list(self.grid),
+            "domain_dims": self.dims,
             "identical": self.identical,
             "max_difference": _finite(self.max_difference),
             "exchanges_per_step": self.exchanges_per_step,
+            "expected_exchanges_per_step": self.expected_exchanges,
+            "split": self.method,
+            "sweeps_per_step": self.sweeps_per_step,
             "schedule": self.schedule.to_json(),
             "backend": self.backend,
             "precision": self.precision,
             "steps": self.steps,
             "layouts": {name: [list(s) for s in layout.splits]
                         for name, layout in self.layouts.items()},
+            "periodic": {name: list(layout.periodic) for name, layout in self.layouts.items()},
             "runs": self.runs,
             "differing_runs": list(self.differing),
             "where": None if self.largest is None else self.largest.to_json(),
@@ -230,52 +293,172 @@ def _case(kernel: int, layout: Layout, steps: int, dt_dx: float, fault: str | No
 
 def verify_decomposed(scheme: Scheme, backend: str = "numpy", precision: str = "double",
                       ranks: int = 2, dims: int = 1, courant: float = 0.5, velocity: str = "+1",
-                      fault: str | None = None, steps: int = STEPS,
-                      profiles=PROFILES) -> DecomposedVerification:
+                      fault: str | None = None, steps: int = STEPS, profiles=PROFILES,
+                      method: str | None = None) -> DecomposedVerification:
     """Run scheme decomposed on `ranks` processes and compare with the single-domain run."""
     return verify_many([scheme], backend, precision, ranks, dims, courant, velocity, fault,
-                       steps, profiles)[0]
+                       steps, profiles, method)[0]
+
+
+def cell_fields(profile, cells: tuple[int, ...], clip, dtype) -> np.ndarray:
+    """A 1-D profile's cell averages, or in N-D the mean of the profile along each axis
+    (a convex combination: it stays in a clip range)."""
+    shaped = in_clip_range(profile, clip)
+    if len(cells) == 1:
+        return shaped.cell_averages(cells[0]).astype(dtype)
+    total = np.zeros(cells)
+    for axis, n in enumerate(cells):
+        shape = [1] * len(cells)
+        shape[axis] = n
+        total = total + shaped.cell_averages(n).reshape(shape)
+    field = total / len(cells)
+    if clip is not None:
+        field = np.clip(field, *clip)
+    return field.astype(dtype)
+
+
+def face_fields(cells: tuple[int, ...], sign: float, dtype) -> dict[str, list[np.ndarray]]:
+    """Face velocities of every axis of an N-D domain (n + 1 faces along the axis, face n
+    the same as face 0): constant, of the sign `sign`, and a field of our own that
+    changes sign along and across the lines."""
+    constant, varying = [], []
+    for axis in range(len(cells)):
+        shape = [n + 1 if a == axis else n for a, n in enumerate(cells)]
+        constant.append(np.full(shape, sign * (1.0 - 0.25 * axis), dtype))
+        grids = [(np.arange(m) + (0.0 if a == axis else 0.5)) / cells[a]
+                 for a, m in enumerate(shape)]
+        mesh = np.meshgrid(*grids, indexing="ij")
+        u = 0.4 + np.sin(2 * np.pi * mesh[axis])
+        for a, x in enumerate(mesh):
+            if a != axis:
+                u = u * np.cos(2 * np.pi * x + a)
+        moved = np.moveaxis(u, axis, 0)
+        moved[-1] = moved[0]
+        varying.append(u.astype(dtype))
+    return {"constant": constant, "varying": varying}
+
+
+def single_domain_split(kernel, q0: np.ndarray, u_faces, dt_dx: float, steps: int,
+                        method: str) -> np.ndarray:
+    """The whole-domain split run: the generated sweep on every axis, periodic ghosts."""
+    from ..splitting import advance
+    from ..sweeps import KernelSweep
+
+    sweep = KernelSweep(kernel)
+    with np.errstate(all="ignore"):
+        return advance(lambda axis, q, fraction: sweep(axis, q, u_faces[axis], dt_dx * fraction),
+                       q0, method, steps)
+
+
+def wall_axes(layout_name: str, dims: int) -> list[bool]:
+    """Periodicity per axis: the "walls" layout bounds x (axis 0) by walls."""
+    return [not (layout_name == "walls" and axis == 0) for axis in range(dims)]
+
+
+def single_domain_walls(scheme, backend: str, precision: str, q0: np.ndarray, u_faces,
+                        dt_dx: float, steps: int, method: str) -> np.ndarray:
+    """The whole-domain split run with walls at both ends of x and the other axes
+    periodic: the reference path for edges (`EdgeSweep`, the stage on every line with
+    the generated wall helpers before every stage; the walls' faces zeroed and
+    mirrored by `extend_faces`)."""
+    from ..boundaries import Edge, generated_fills
+    from ..edge_sweeps import EdgeSweep, extend_faces
+    from ..splitting import advance
+
+    dims = q0.ndim
+    edges = tuple((Edge("wall"), Edge("wall")) if axis == 0 else
+                  (Edge("periodic"), Edge("periodic")) for axis in range(dims))
+    sweep = EdgeSweep(scheme, backend, precision)
+    fills = generated_fills(scheme, backend, precision)
+    # a copy: without a face halo extend_faces may hand back (and wall) the array it got
+    faces = [extend_faces(fills, u.copy(), axis, sweep.face_halo, edges)
+             for axis, u in enumerate(u_faces)]
+    with np.errstate(all="ignore"):
+        q = advance(lambda axis, state, fraction: sweep(axis, state, faces[axis],
+                                                         dt_dx * fraction, edges),
+                    sweep.padded(q0), method, steps)
+    return sweep.interior(q).copy()
+
+
+def sweeps_per_step(method: str, dims: int, steps: int) -> float:
+    from fluxloom.compiler.splittings import splitting
+
+    table = splitting(method)
+    return sum(len(table.sweeps(dims, k)) for k in range(steps)) / steps if steps else 0.0
 
 
 def verify_many(schemes, backend: str = "numpy", precision: str = "double", ranks: int = 2,
                 dims: int = 1, courant: float = 0.5, velocity: str = "+1",
                 fault: str | None = None, steps: int = STEPS,
-                profiles=PROFILES) -> list[DecomposedVerification]:
+                profiles=PROFILES, method: str | None = None) -> list[DecomposedVerification]:
     """verify_decomposed for several schemes in one mpiexec launch."""
     check_options(ranks, dims)
     if fault is None:
         fault = os.environ.get(FAULT_VARIABLE) or None
+    if dims > 1 and method is None:
+        method = DEFAULT_SPLIT
     sign = -1.0 if velocity == "-1" else 1.0
     cases, arrays, expected, plans, sources = [], {}, [], [], []
     for scheme in schemes:
         kernel = load_kernel(scheme, backend, precision)
         sources.append(kernel_sources(scheme, backend, precision))
         schedule = exchange_schedule(scheme)
-        found = layouts(ranks, kernel.halo, kernel.face_halo)
-        for layout in found.values():
-            layout.check_widths(kernel.halo, kernel.face_halo)
-        cells = next(iter(found.values())).cells[0]
-        fields = {"constant": constant_velocity(cells, sign), "varying": varying_velocity(cells)}
+        width = max(kernel.halo, kernel.face_halo)
+        if dims == 1:
+            found = layouts(ranks, kernel.halo, kernel.face_halo)
+            for layout in found.values():
+                layout.check_widths(kernel.halo, kernel.face_halo)
+            cells = next(iter(found.values())).cells
+            fields = {"constant": [constant_velocity(cells[0], sign)],
+                      "varying": [varying_velocity(cells[0])]}
+        else:
+            cells = domain_cells_nd(dims, ranks, width)
+            # the ranks' process grid decides the blocks; "walls": uneven blocks, x bounded
+            found = {"uneven": None, "narrowest": None, "walls": None}
+            fields = face_fields(cells, sign, kernel.dtype)
         labels = []
         clip = None if scheme.clip is None else tuple(float(v) for v in scheme.clip)
         for profile in profiles:
-            q0 = in_clip_range(profile, clip).cell_averages(cells).astype(kernel.dtype)
-            for vname, u_face in fields.items():
-                dt_dx = courant / float(np.max(np.abs(u_face)))
-                reference = single_domain(kernel, q0, u_face, dt_dx, steps)
+            q0 = cell_fields(profile, cells, clip, kernel.dtype)
+            for vname, u_faces in fields.items():
+                dt_dx = courant / max(float(np.max(np.abs(u))) for u in u_faces)
+                if dims == 1:
+                    reference = single_domain(kernel, q0, u_faces[0], dt_dx, steps)
+                else:
+                    periodic = single_domain_split(kernel, q0, u_faces, dt_dx, steps, method)
+                    walled = single_domain_walls(scheme, backend, precision, q0, u_faces, dt_dx,
+                                                 steps, method)
                 for lname, layout in found.items():
+                    if dims > 1:
+                        reference = walled if lname == "walls" else periodic
                     i = len(cases)
-                    cases.append(_case(len(sources) - 1, layout, steps, dt_dx, fault))
-                    arrays[f"q{i}"], arrays[f"u{i}"] = q0, u_face
-                    expected.append((layout, reference))
-                    labels.append(f"{profile.name}, {vname} velocity, {lname} blocks")
+                    if dims == 1:
+                        cases.append(_case(len(sources) - 1, layout, steps, dt_dx, fault))
+                        arrays[f"u{i}"] = u_faces[0]
+                    else:
+                        cases.append({"kernel": len(sources) - 1, "cells": list(cells),
+                                      "blocks": "uneven" if lname == "walls" else lname,
+                                      "width": width, "periodic": wall_axes(lname, dims),
+                                      "steps": steps,
+                                      "dt_dx": dt_dx, "fault": fault, "method": method})
+                        for axis, u in enumerate(u_faces):
+                            arrays[f"u{i}_{axis}"] = u
+                    arrays[f"q{i}"] = q0
+                    expected.append((lname, reference))
+                    blocks = ("uneven blocks, walls at both ends of x" if lname == "walls"
+                              else f"{lname} blocks")
+                    labels.append(f"{profile.name}, {vname} velocity, {blocks}")
         plans.append((scheme, found, labels, schedule))
-    finals, exchanges = run_cases(sources, cases, arrays, ranks)
+    finals, exchanges, splits = run_cases(sources, cases, arrays, ranks)
     results, first = [], 0
+    per_sweep_count = 1.0 if dims == 1 else sweeps_per_step(method, dims, steps)
     for scheme, found, labels, schedule in plans:
-        differing, largest = [], None
+        differing, largest, used = [], None, {}
         for k, label in enumerate(labels):
-            layout, reference = expected[first + k]
+            lname, reference = expected[first + k]
+            layout = Layout(tuple(tuple(s) for s in splits[first + k]),
+                            tuple(wall_axes(lname, dims)))
+            used[lname] = layout
             diff = largest_difference(label, layout, finals[first + k], reference)
             if diff is not None:
                 differing.append(label)
@@ -283,7 +466,8 @@ def verify_many(schemes, backend: str = "numpy", precision: str = "double", rank
                     largest = diff
         measured = exchanges[first:first + len(labels)]
         results.append(DecomposedVerification(
-            scheme.name, backend, precision, ranks, dims, courant, steps, found, len(labels),
-            tuple(differing), largest, max(measured), len(set(measured)) == 1, schedule, fault))
+            scheme.name, backend, precision, ranks, dims, courant, steps, used, len(labels),
+            tuple(differing), largest, max(measured), len(set(measured)) == 1, schedule, fault,
+            method, per_sweep_count))
         first += len(labels)
     return results

@@ -55,8 +55,9 @@ def require_mpi(ranks: int) -> str:
 
 
 def run_cases(kernels: list[dict], cases: list[dict], arrays: dict[str, np.ndarray], ranks: int,
-              timeout: float = TIMEOUT) -> tuple[list[np.ndarray], list[float]]:
-    """Run the cases on `ranks` processes; (final global states, exchanges per step) per case.
+              timeout: float = TIMEOUT) -> tuple[list[np.ndarray], list[float], list]:
+    """Run the cases on `ranks` processes; (final global states, exchanges per step, block
+    sizes per axis) per case.
 
     kernels: `stages.kernel_sources` of each kernel; a case names one by its index."""
     mpiexec = require_mpi(ranks)
@@ -79,7 +80,7 @@ def run_cases(kernels: list[dict], cases: list[dict], arrays: dict[str, np.ndarr
             tail = "\n".join((err or out).strip().splitlines()[-15:])
             raise RuntimeError(f"mpiexec -n {ranks} failed (exit status {process.returncode}):\n"
                                f"{tail}")
-        exchanges = json.loads((job / "results.json").read_text())["exchanges_per_step"]
+        reported = json.loads((job / "results.json").read_text())
         with np.load(job / "results.npz") as results:
             finals = [results[f"q{i}"] for i in range(len(cases))]
-    return finals, exchanges
+    return finals, reported["exchanges_per_step"], reported["splits"]

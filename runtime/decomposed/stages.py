@@ -34,6 +34,9 @@ class StageKernel:
     stages: int
     workspace_size: Callable[[int], int]
     run_stage: Callable  # (stage, n, q_start, q_stage, q_out, u_face, dt_dx, work)
+    run_lines: Callable | None = None  # stage on many lines at once, see `stage_lines`
+    line_axis: int = 0   # the axis along the line in run_lines' arrays (numpy 0, C -1)
+    sweeper: object = None  # the same kernel as a runtime.kernel.Kernel (its `sweep`)
 
     @property
     def dtype(self) -> np.dtype:
@@ -46,6 +49,17 @@ class StageKernel:
     def stage(self, stage: int, n: int, q_start, q_stage, q_out, u_face, dt_dx: float,
               work) -> None:
         self.run_stage(stage, n, q_start, q_stage, q_out, u_face, dt_dx, work)
+
+    def stage_lines(self, stage: int, n: int, q_start, q_stage, q_out, u_face, dt_dx: float,
+                    work, rows=None) -> None:
+        """`stage` on many lines: the arrays hold one line per entry of their other axes,
+        the line along `line_axis` (numpy: axis 0, any views; C: the last axis of
+        C-contiguous arrays, one row per line). work holds one workspace per line, laid
+        out the same way; it must persist from stage 0 to the last. C only: `rows`
+        picks line k of the q arrays as their row rows[k] (the arrays' last axis is the
+        line), so lines along the contiguous axis need no copy; u_face and work keep
+        one row per line."""
+        self.run_lines(stage, n, q_start, q_stage, q_out, u_face, dt_dx, work, rows)
 
 
 def kernel_sources(scheme, backend: str = "numpy", precision: str = "double",
@@ -85,8 +99,13 @@ def stage_kernel(sources: dict) -> StageKernel:
         def run_stage(stage, n, q_start, q_stage, q_out, u_face, dt_dx, work):
             module.stage(stage, n, q_start, q_stage, q_out, u_face, real(dt_dx), work)
 
+        def run_lines(stage, n, q_start, q_stage, q_out, u_face, dt_dx, work, rows=None):
+            module.stage(stage, n, q_start, q_stage, q_out, u_face, real(dt_dx), work)
+
+        # the generated stage slices along axis 0 only, so it runs every line at once
         return StageKernel(name, "numpy", precision, module.HALO, module.FACE_HALO,
-                           module.STAGES, module.workspace_size, run_stage)
+                           module.STAGES, module.workspace_size, run_stage, run_lines, 0,
+                           _sweeper(name, precision, module, None))
 
     from ..build import compile_source
 
@@ -102,10 +121,53 @@ def stage_kernel(sources: dict) -> StageKernel:
                 ffi.from_buffer(ctype, u_face), dt_dx,
                 ffi.from_buffer(ctype, work, require_writable=True))
 
+    def run_c_lines(stage, n, q_start, q_stage, q_out, u_face, dt_dx, work, rows=None):
+        # one buffer per array, then a pointer per row: no per-line conversions
+        start, current = ffi.from_buffer(ctype, q_start), ffi.from_buffer(ctype, q_stage)
+        out = ffi.from_buffer(ctype, q_out, require_writable=True)
+        faces = ffi.from_buffer(ctype, u_face)
+        registers = ffi.from_buffer(ctype, work, require_writable=True)
+        size, face_size, work_size = q_start.shape[-1], u_face.shape[-1], work.shape[-1]
+        lines = range(len(u_face)) if rows is None else rows
+        for line, row in enumerate(lines):
+            at = int(row) * size
+            c_stage(stage, n, start + at, current + at, out + at, faces + line * face_size,
+                    dt_dx, registers + line * work_size)
+
     return StageKernel(name, "c", precision, int(getattr(lib, f"{name}_HALO")),
                        int(getattr(lib, f"{name}_FACE_HALO")), int(getattr(lib, f"{name}_STAGES")),
                        getattr(lib, exported_symbol(name, "workspace_size", precision)),
-                       run_c_stage)
+                       run_c_stage, run_c_lines, -1, _sweeper(name, precision, None, (ffi, lib)))
+
+
+def _sweeper(name: str, precision: str, module, built):
+    """The kernel as a runtime.kernel.Kernel, for its generated sweep (`Kernel.sweep`, the
+    argument checks of runtime/array_sweep.py) over the same module or library."""
+    from ..kernel import Kernel
+
+    if module is not None:
+        return Kernel(name, "numpy", precision, module.HALO, module.FACE_HALO, module.STAGES,
+                      module.workspace_size, module.step, module.sweep, module.SWEEP_WIDTHS,
+                      module.SWEEP_THICKNESS)
+    from fluxloom.compiler.emit.plan import exported_symbol
+
+    from ..array_sweep import c_sweep_runner
+
+    ffi, lib = built
+    ctype = C_TYPES[precision]
+    c_step = getattr(lib, exported_symbol(name, "step", precision))
+
+    def run_step(n, q, out, u_face, dt_dx, work):
+        c_step(n, ffi.from_buffer(ctype, q), ffi.from_buffer(ctype, out, require_writable=True),
+               ffi.from_buffer(ctype, u_face), dt_dx,
+               ffi.NULL if work is None else ffi.from_buffer(ctype, work, require_writable=True))
+
+    return Kernel(name, "c", precision, int(getattr(lib, f"{name}_HALO")),
+                  int(getattr(lib, f"{name}_FACE_HALO")), int(getattr(lib, f"{name}_STAGES")),
+                  getattr(lib, exported_symbol(name, "workspace_size", precision)), run_step,
+                  c_sweep_runner(ffi, lib, name, precision),
+                  bool(getattr(lib, f"{name}_SWEEP_WIDTHS")),
+                  bool(getattr(lib, f"{name}_SWEEP_THICKNESS")))
 
 
 def load_stage_kernel(scheme, backend: str = "numpy", precision: str = "double",
