@@ -34,6 +34,9 @@ FLUX_BLOCK = 128
 Small blocks interleave the scan, flux and update loops finely enough that memory
 traffic and arithmetic overlap: at 10^6-10^7 cells 128 ran about 1.5x faster than 512
 (`fluxloom bench`), and no slower from cache."""
+FLUX_SCRATCH = Affine(blocks=1, constant=1)
+"""The face fluxes a stage keeps in workspace: one block's and its left face
+(compiler/emit/plan.py: workspace_layout)."""
 
 
 class KernelPrinter(PlanPrinting, C99CodePrinter):
@@ -379,7 +382,7 @@ def fct_code(printer: KernelPrinter, plan: KernelPlan, fluxes) -> dict:
     """The FCT plan's steps as C: pointers at each work array's index 0, then one loop
     (signed index) or one call of the flux function per step."""
     fct = plan.fct_steps
-    layout = workspace_layout(plan, Affine())
+    layout = workspace_layout(plan, FLUX_SCRATCH)
     pointers = []
     for array in fct.work:
         start = layout.offset(array.name) + Affine(constant=-array.span.first)
@@ -415,7 +418,7 @@ def fct_code(printer: KernelPrinter, plan: KernelPlan, fluxes) -> dict:
 
 def workspace_code(plan: KernelPlan) -> dict:
     """workspace_size and the pointers a whole step takes from the work array."""
-    layout = workspace_layout(plan, Affine(blocks=1, constant=1))
+    layout = workspace_layout(plan, FLUX_SCRATCH)
     buffers = [{"name": b, "offset": c_size(layout.offset(b), plan.name)}
                for b in STAGE_BUFFERS if layout.has(b)]
     return {"size": c_size(layout.size, plan.name),

@@ -39,6 +39,9 @@ C_KINDS = {"double": "c_double", "float": "c_float"}
 COMPILE = ("gfortran", "-std=f2008", "-O2", "-fPIC", "-shared")
 """How the in-process loader builds the module (runtime/build.py: compile_shared)."""
 SOURCE_SUFFIX = ".f90"
+FLUX_SCRATCH = Affine(cells=1, constant=1)
+"""The face fluxes a stage keeps in workspace: all n + 1 of the line
+(compiler/emit/plan.py: workspace_layout)."""
 
 
 class FortranKernelPrinter(PlanPrinting, FCodePrinter):
@@ -261,7 +264,7 @@ def fct_code(printer: FortranKernelPrinter, plan, loops) -> dict:
     """The FCT plan as Fortran: the work arrays (dummies with the plan's bounds), the
     temporaries, and each step as a call of the flux loop or a do loop."""
     fct = plan.fct_steps
-    layout = workspace_layout(plan, Affine())
+    layout = workspace_layout(plan, FLUX_SCRATCH)
     arrays = [{"name": a.name, "about": a.about,
                "bounds": f"{a.span.first}:{index_text('n', a.span.last)}",
                "section": work_section(layout, a.name)} for a in fct.work]
@@ -346,7 +349,7 @@ def fortran_kernel_context(scheme: Scheme, precision: str = "double", verdicts=(
               for p, v in plan.params]
     buffers = stage_buffers(plan)
     banner = comment_lines(banner_lines(scheme, precision, verdicts))
-    layout = workspace_layout(plan, Affine(cells=1, constant=1))
+    layout = workspace_layout(plan, FLUX_SCRATCH)
     workspace = {
         "size": fortran_size(layout.size),
         "regions": [f"{r.name}: {(str(r.count) + ' * ') if r.count > 1 else ''}"

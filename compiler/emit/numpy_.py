@@ -38,6 +38,8 @@ BLOCK_BYTES = 256 * 1024
 """Bytes of one block-sized temporary: small enough to stay in L2 cache, large
 enough for numpy to reuse temporaries in place (it does so from 256 KiB)."""
 ITEM_BYTES = {"double": 8, "float": 4}
+FLUX_SCRATCH = Affine()
+"""Face fluxes the module keeps in workspace: none (a block's fluxes are temporaries)."""
 
 
 class NumpyKernelPrinter(PlanPrinting, NumPyPrinter):
@@ -346,7 +348,7 @@ def fct_code(printer: NumpyKernelPrinter, plan) -> tuple[tuple[str, ...], tuple[
     """The FCT plan as numpy: the work views (name = work[start:end]) and the lines of one
     block lo .. hi."""
     fct = plan.fct_steps
-    layout = workspace_layout(plan, Affine())
+    layout = workspace_layout(plan, FLUX_SCRATCH)
     views = tuple(f"{a.name} = work[{_py_size(layout.offset(a.name))}:"
                   f"{_py_size(layout.offset(a.name) + a.span.count)}]  # {a.about}"
                   for a in fct.work)
@@ -432,7 +434,7 @@ def numpy_module(scheme: Scheme, precision: str = "double", verdicts=()) -> Nump
     programs = [plan.flux] + ([plan.low_flux] if plan.low_flux is not None else [])
     uses_c = any(p.uses_c for p in programs)
     names = [o.name for o in offsets]
-    layout = workspace_layout(plan, Affine())
+    layout = workspace_layout(plan, FLUX_SCRATCH)
     fct_views, fct_lines = fct_code(printer, plan) if plan.fct else ((), ())
     banner = banner_lines(scheme, precision, verdicts)
     return NumpyModule(

@@ -13,13 +13,18 @@ Zero velocity. Where u == 0 the flux is 0. When c appears in a denominator
 (Lax-Friedrichs has 1/c), the program is evaluated with c replaced by 1 where
 c == 0 (`guard_c`), so the finite g times u == 0 gives exactly 0.
 
-FCT (`correct fct`, Zalesak 1979). For the interior faces 0..n the corrected
-flux needs the limiter factors R+/R- of cells -1..n, which need the
-antidiffusive flux A = F_high - F_low on faces -1..n+1 and the low-order
-solution on cells -2..n+1, which needs F_low on faces -2..n+2. So an FCT
-step evaluates FCT_EXTRA_FACES = 2 extra faces on each side, whose
-velocities the caller passes (`face_halo`: u_face then holds n + 1 + 2*2
-values, u_face[2 + i] is face i), and more ghost cells (`kernel_halo`).
+FCT (`correct fct`, Zalesak 1979). The algorithm is data: `fct_steps`
+(compiler/emit/fct_plan.py) orders its steps, gives each its span of faces or
+cells and its expressions, and sizes the work arrays; every target prints it.
+For the interior faces 0..n the corrected flux needs the limiter factors of cells
+-1..n, which need the low-order solution on cells -2..n+1 and so F_low on faces
+-2..n+2: an FCT step evaluates FCT_EXTRA_FACES = 2 extra faces on each side, whose
+velocities the caller passes (`face_halo`: u_face then holds n + 1 + 2*2 values,
+u_face[2 + i] is face i), and more ghost cells (`kernel_halo`).
+
+Workspace. `workspace_layout(plan, flux_scratch)` names the regions of the
+caller's work array with their sizes affine in n (compiler/emit/workspace.py);
+each target prints its workspace_size and its pointers into work from it.
 """
 from __future__ import annotations
 
