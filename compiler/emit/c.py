@@ -22,7 +22,7 @@ from .environment import render
 from .printing import PlanPrinting, check_precision
 from .limited import FLOOR_EXPONENT, LimiterFormCall
 from .fct_plan import CELLS, FluxStep, element_of
-from .plan import (C_FUNCTIONS, EULER, FLUX_SCRATCH, REGISTERS, STAGE_BUFFERS, FaceProgram,
+from .plan import (C_FUNCTIONS, EULER, REGISTERS, STAGE_BUFFERS, FaceProgram,
                    KernelPlan, StageStep, banner_lines, clamp, exported_symbols, plan_kernel,
                    print_stage_sum, stage_steps, step_calls, workspace_layout)
 from .workspace import Affine, print_affine
@@ -428,7 +428,6 @@ def workspace_code(plan: KernelPlan) -> dict:
                          + c_size(r.size, plan.name)} for r in layout.regions],
             "registers": (c_size(layout.offset(REGISTERS), plan.name)
                           if layout.has(REGISTERS) else None),
-            "flux": layout.has(FLUX_SCRATCH),
             "buffers": buffers}
 
 

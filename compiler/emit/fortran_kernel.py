@@ -29,7 +29,7 @@ from .fortran import ConstantPrinter, comment_lines, fortran_identifier
 from .limited import FLOOR_EXPONENT, LimiterFormCall
 from .printing import PlanPrinting, check_precision
 from .fct_plan import CELLS, FluxStep, element_of
-from .plan import (EULER, FLUX_SCRATCH, REGISTERS, STAGE_BUFFERS, FaceProgram, StageSum,
+from .plan import (EULER, FLUX_REGION, REGISTERS, STAGE_BUFFERS, FaceProgram, StageSum,
                    banner_lines, clamp, exported_symbols, plan_kernel, print_stage_sum,
                    stage_buffers, stage_steps, step_calls, workspace_layout)
 from .workspace import Affine, print_affine
@@ -354,7 +354,7 @@ def fortran_kernel_context(scheme: Scheme, precision: str = "double", verdicts=(
         "size": fortran_size(layout.size),
         "regions": [f"{r.name}: {(str(r.count) + ' * ') if r.count > 1 else ''}"
                     f"{fortran_size(r.size)} reals, {r.about}" for r in layout.regions],
-        "flux": work_section(layout, FLUX_SCRATCH) if layout.has(FLUX_SCRATCH) else None,
+        "flux": work_section(layout, FLUX_REGION) if layout.has(FLUX_REGION) else None,
         "registers": work_section(layout, REGISTERS) if layout.has(REGISTERS) else None,
         "base": fortran_size(layout.offset(STAGE_BUFFERS[0])) if buffers else None,
     }

@@ -329,7 +329,7 @@ def stage_buffers(plan) -> int:
 
 # ---- the workspace ---------------------------------------------------------------
 
-FLUX_SCRATCH = "flux"
+FLUX_REGION = "flux"
 REGISTERS = "registers"
 STAGE_BUFFERS = ("stage_a", "stage_b")
 
@@ -348,7 +348,7 @@ def workspace_layout(plan, flux_scratch: Affine) -> WorkspaceLayout:
         return WorkspaceLayout(plan.fct_steps.regions())
     regions = []
     if not flux_scratch.zero:
-        regions.append(Region(FLUX_SCRATCH, flux_scratch, 1, "face fluxes"))
+        regions.append(Region(FLUX_REGION, flux_scratch, 1, "face fluxes"))
     if plan.registers:
         regions.append(Region(REGISTERS, Affine(cells=1), plan.registers,
                               "what the time method keeps from stage to stage"))
