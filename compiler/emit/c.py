@@ -19,7 +19,7 @@ from ..ir import Scheme
 from ..symbols import C, R, LimiterApplication, limiter_name_of, offset_of, q
 from ..upwind import both_cells
 from .environment import render
-from .printing import PlanPrinting, check_precision
+from .printing import PlanPrinting, break_after_commas, check_precision
 from .limited import FLOOR_EXPONENT, LimiterFormCall
 from .fct_plan import CELLS, FluxStep, element_of
 from .plan import (C_FUNCTIONS, EULER, REGISTERS, STAGE_BUFFERS, FaceProgram,
@@ -359,20 +359,6 @@ def comment(text: str, width: int = 88) -> list[str]:
     return textwrap.wrap(text, width, break_long_words=False, break_on_hyphens=False)
 
 
-def statement_lines(text: str, width: int = 88) -> list[str]:
-    """A statement broken after the commas of its argument lists into lines of at most
-    width columns where it can be (continuation lines indented by 8; C reads them as one)."""
-    pieces = text.split(", ")
-    lines, current = [], pieces[0]
-    for piece in pieces[1:]:
-        if len(current) + 2 + len(piece) > width:
-            lines.append(current + ",")
-            current = " " * 8 + piece
-        else:
-            current += ", " + piece
-    return lines + [current]
-
-
 def c_size(value: Affine, name: str) -> str:
     """A workspace size or offset as a C size_t expression."""
     return print_affine(value, "n", f"(size_t){name}_HALO", f"{name}_FLUX_BLOCK")
@@ -408,7 +394,7 @@ def fct_code(printer: KernelPrinter, plan: KernelPlan, fluxes) -> dict:
         body = [f"const {printer.ctype} {printer._print(sym)} = {printer._print(value)};"
                 for sym, value in step.temporaries]
         body += [f"{target}[{index}] = {printer._print(value)};" for target, value in step.writes]
-        body = [line for statement in body for line in statement_lines(statement)]
+        body = [line for statement in body for line in break_after_commas(statement)]
         steps.append({"about": comment(step.about), "call": None, "index": index, "first": str(first),
                       "last": offset_text("(ptrdiff_t)n", last), "body": body})
     printer.loop_index = "j"

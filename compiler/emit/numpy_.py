@@ -9,6 +9,7 @@ domain), and lets a block whose faces share one velocity sign read every
 """
 from __future__ import annotations
 
+import textwrap
 from dataclasses import dataclass, replace
 
 import sympy
@@ -21,7 +22,7 @@ from ..symbols import C, R, LimiterApplication, limiter_name_of, offset_of
 from ..time_methods.low_storage import StageUpdate
 from ..upwind import both_cells
 from . import environment
-from .printing import PlanPrinting, check_precision
+from .printing import PlanPrinting, break_after_commas, check_precision
 from .limited import FLOOR_EXPONENT, LimiterFormCall, Quotient
 from .fct_plan import FluxStep, element_of
 from .plan import (REGISTERS, STAGE_BUFFERS, FaceProgram, banner_lines, plan_kernel,
@@ -349,25 +350,29 @@ def fct_code(printer: NumpyKernelPrinter, plan) -> tuple[tuple[str, ...], tuple[
     block lo .. hi."""
     fct = plan.fct_steps
     layout = workspace_layout(plan, FLUX_SCRATCH)
-    views = tuple(f"{a.name} = work[{_py_size(layout.offset(a.name))}:"
-                  f"{_py_size(layout.offset(a.name) + a.span.count)}]  # {a.about}"
-                  for a in fct.work)
+    views = tuple(line for a in fct.work for line in (
+        f"# {a.about}, {a.span.kind} {a.span.first} .. "
+        f"{print_affine(Affine(cells=1, constant=a.span.last))}",
+        f"{a.name} = work[{_py_size(layout.offset(a.name))}:"
+        f"{_py_size(layout.offset(a.name) + a.span.count)}]"))
     origins = {"q": "HALO", "q_out": "HALO", "u_face": "FACE_HALO",
                **{a.name: -a.span.first for a in fct.work}}
     lines = []
     for step in fct.steps:
-        lines.append(f"# {step.about}")
+        lines += [f"# {line}" for line in textwrap.wrap(step.about, 84)]
         if isinstance(step, FluxStep):
             face = "low_face_values" if step.low_order else "face_values"
-            lines.append(f"{block_slice(step.target, origins[step.target], step.span, 0)} = "
-                         f"face_fluxes({face}, q, {block_slice('u_face', 'FACE_HALO', step.span, 0)}, "
-                         f"dt_dx, {_bound(0, 'lo', step.span.first)})")
+            lines += break_after_commas(
+                f"{block_slice(step.target, origins[step.target], step.span, 0)} = "
+                f"face_fluxes({face}, q, {block_slice('u_face', 'FACE_HALO', step.span, 0)}, "
+                f"dt_dx, {_bound(0, 'lo', step.span.first)})")
             continue
         printer.window = (step.span, origins)
-        lines += [f"{printer.doprint(sym)} = {printer.doprint(value)}"
-                  for sym, value in step.temporaries]
-        lines += [f"{block_slice(target, origins[target], step.span, 0)} = {printer.doprint(value)}"
-                  for target, value in step.writes]
+        statements = [f"{printer.doprint(sym)} = {printer.doprint(value)}"
+                      for sym, value in step.temporaries]
+        statements += [f"{block_slice(target, origins[target], step.span, 0)} = "
+                       f"{printer.doprint(value)}" for target, value in step.writes]
+        lines += [line for statement in statements for line in break_after_commas(statement)]
         printer.window = None
     return views, tuple(lines)
 
