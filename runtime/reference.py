@@ -105,6 +105,12 @@ class PeriodicReference:
         P+/P- the antidiffusive inflow/outflow of a cell, Q+/Q- its room to the local
         bounds of w_old and w_td over the cell and its two neighbours, R+/R- = min(1, Q/P)
         (0 where P = 0); each face takes min(R+ of the cell it feeds, R- of the cell it drains).
+
+        Written here from the paper on purpose, not printed from the kernels' plan
+        (compiler/emit/fct_plan.py): the tests hold the kernels against this stepper, so
+        it must not share their steps. It also shares none of their constants: on a
+        periodic domain every neighbour is an index mod n, so there are no spans, halos
+        or workspace offsets to keep in step with the plan.
         """
         n = len(values)
         low = self.fluxes(self.low, values, u_face, dt_dx)

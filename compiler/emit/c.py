@@ -7,6 +7,7 @@ writes `fabs`/`0.5` for double and `fabsf`/`0.5F` for float. Everything else
 """
 from __future__ import annotations
 
+import textwrap
 from dataclasses import dataclass
 
 import sympy
@@ -18,11 +19,13 @@ from ..ir import Scheme
 from ..symbols import C, R, LimiterApplication, limiter_name_of, offset_of, q
 from ..upwind import both_cells
 from .environment import render
-from .printing import PlanPrinting, check_precision
+from .printing import PlanPrinting, break_after_commas, check_precision
 from .limited import FLOOR_EXPONENT, LimiterFormCall
-from .plan import (C_FUNCTIONS, EULER, FaceProgram, KernelPlan, StageStep, banner_lines, clamp,
-                   exported_symbols, plan_kernel, print_stage_sum, stage_buffers, stage_steps,
-                   step_calls)
+from .fct_plan import CELLS, FluxStep, element_of
+from .plan import (C_FUNCTIONS, EULER, REGISTERS, STAGE_BUFFERS, FaceProgram,
+                   KernelPlan, StageStep, banner_lines, clamp, exported_symbols, plan_kernel,
+                   print_stage_sum, stage_steps, step_calls, workspace_layout)
+from .workspace import Affine, print_affine
 from .sweep import c_sweep_context
 
 PRECISIONS = {"double": float64, "float": float32}
@@ -31,6 +34,9 @@ FLUX_BLOCK = 128
 Small blocks interleave the scan, flux and update loops finely enough that memory
 traffic and arithmetic overlap: at 10^6-10^7 cells 128 ran about 1.5x faster than 512
 (`fluxloom bench`), and no slower from cache."""
+FLUX_SCRATCH = Affine(blocks=1, constant=1)
+"""The face fluxes a stage keeps in workspace: one block's and its left face
+(compiler/emit/plan.py: workspace_layout)."""
 
 
 class KernelPrinter(PlanPrinting, C99CodePrinter):
@@ -57,6 +63,7 @@ class KernelPrinter(PlanPrinting, C99CodePrinter):
         self.limiter_names = {lim.name for lim in plan.limiters}
         self.helpers_used: set[str] = set()
         self.renames: dict = {}
+        self.loop_index = "j"   # the index an FCT step's loop runs over
 
     # -- user text ---------------------------------------------------------
     @staticmethod
@@ -167,6 +174,14 @@ class KernelPrinter(PlanPrinting, C99CodePrinter):
         if name not in self.limiter_names:
             raise AssertionError(f"limiter {name} is called but not in the plan")
         return f"{self.plan.name}_limiter_{name}({', '.join(self._print(a) for a in expr.args)})"
+
+    def _print_Indexed(self, expr):
+        """An FCT plan element: the array (a pointer at its index 0) at the loop's index."""
+        array, shift = element_of(expr)
+        return f"{array}[{offset_text(self.loop_index, shift)}]"
+
+    def _print_Share(self, expr):
+        return self._call("share", *expr.args)
 
     def _print_Piecewise(self, expr):
         """Nested selects on one line, c0 ? e0 : (c1 ? e1 : e2) (the plan's clamp)."""
@@ -332,6 +347,76 @@ def scale_words(printer: KernelPrinter) -> dict[str, str]:
     }
 
 
+def offset_text(base: str, shift: int) -> str:
+    """base + shift as C: `j`, `j + 1`, `q - 3`."""
+    if shift == 0:
+        return base
+    return f"{base} + {shift}" if shift > 0 else f"{base} - {-shift}"
+
+
+def comment(text: str, width: int = 88) -> list[str]:
+    """A comment's text as lines (the template adds the markers)."""
+    return textwrap.wrap(text, width, break_long_words=False, break_on_hyphens=False)
+
+
+def c_size(value: Affine, name: str) -> str:
+    """A workspace size or offset as a C size_t expression."""
+    return print_affine(value, "n", f"(size_t){name}_HALO", f"{name}_FLUX_BLOCK")
+
+
+def fct_code(printer: KernelPrinter, plan: KernelPlan, fluxes) -> dict:
+    """The FCT plan's steps as C: pointers at each work array's index 0, then one loop
+    (signed index) or one call of the flux function per step."""
+    fct = plan.fct_steps
+    layout = workspace_layout(plan, FLUX_SCRATCH)
+    pointers = []
+    for array in fct.work:
+        start = layout.offset(array.name) + Affine(constant=-array.span.first)
+        pointers.append({"name": array.name, "offset": c_size(start, plan.name),
+                         "about": comment(f"{array.name}: {array.about}, {array.span.kind} "
+                                          f"{array.span.first} .. "
+                                          f"{print_affine(Affine(cells=1, constant=array.span.last))}")})
+    steps = []
+    for step in fct.steps:
+        first, last = step.span.first, step.span.last
+        if isinstance(step, FluxStep):
+            flux = fluxes[1] if step.low_order else fluxes[0]
+            arguments = [print_affine(step.span.count), offset_text("q", first - 1),
+                         offset_text("u_face", first)]
+            if flux.uses_c:
+                arguments.append("dt_dx")
+            arguments.append(offset_text(step.target, first))
+            steps.append({"about": comment(step.about),
+                          "call": f"{plan.name}_fluxes{flux.suffix}({', '.join(arguments)});"})
+            continue
+        index = "j" if step.span.kind == CELLS else "f"
+        printer.loop_index = index
+        body = [f"const {printer.ctype} {printer._print(sym)} = {printer._print(value)};"
+                for sym, value in step.temporaries]
+        body += [f"{target}[{index}] = {printer._print(value)};" for target, value in step.writes]
+        body = [line for statement in body for line in break_after_commas(statement)]
+        steps.append({"about": comment(step.about), "call": None, "index": index, "first": str(first),
+                      "last": offset_text("(ptrdiff_t)n", last), "body": body})
+    printer.loop_index = "j"
+    printer.helpers_used.update(("min", "max"))
+    return {"pointers": pointers, "steps": steps}
+
+
+def workspace_code(plan: KernelPlan) -> dict:
+    """workspace_size and the pointers a whole step takes from the work array."""
+    layout = workspace_layout(plan, FLUX_SCRATCH)
+    buffers = [{"name": b, "offset": c_size(layout.offset(b), plan.name)}
+               for b in STAGE_BUFFERS if layout.has(b)]
+    return {"size": c_size(layout.size, plan.name),
+            "uses_n": layout.size.cells != 0,
+            "regions": [{"name": r.name, "about": r.about,
+                         "size": (f"{r.count} * " if r.count > 1 else "")
+                         + c_size(r.size, plan.name)} for r in layout.regions],
+            "registers": (c_size(layout.offset(REGISTERS), plan.name)
+                          if layout.has(REGISTERS) else None),
+            "buffers": buffers}
+
+
 def c_context(scheme: Scheme, precision: str = "double", verdicts=(),
               openmp: bool = False) -> dict:
     """Everything the C templates need, printed."""
@@ -372,8 +457,7 @@ def c_context(scheme: Scheme, precision: str = "double", verdicts=(),
     if plan.clip is not None:
         clip = tuple(real_literal(printer, v) for v in plan.clip)
     params = [{"name": name, "value": printer.real_literal(value)} for name, value in plan.params]
-    if plan.fct:
-        printer.helpers_used.update(("min", "max"))
+    fct = fct_code(printer, plan, fluxes) if plan.fct else None
     helpers = sorted(printer.helpers_used)
     return {
         "plan": plan,
@@ -406,7 +490,8 @@ def c_context(scheme: Scheme, precision: str = "double", verdicts=(),
         "register_reals": "" if not plan.registers else ("n" if plan.registers == 1
                                                          else f"{plan.registers} * n"),
         "stage_calls": step_calls(plan),
-        "stage_buffers": stage_buffers(plan),
+        "workspace": workspace_code(plan),
+        "fct": fct,
         "clip": clip,
         "clamped": None if plan.clip is None else printer._print(clamp(plan.clip)),
         "block": FLUX_BLOCK,

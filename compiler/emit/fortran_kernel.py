@@ -30,10 +30,12 @@ from .environment import render
 from .fortran import ConstantPrinter, comment_lines, fortran_identifier
 from .limited import FLOOR_EXPONENT, LimiterFormCall
 from .printing import PlanPrinting, check_precision
+from .fct_plan import CELLS, FluxStep, element_of
+from .plan import (C_FUNCTIONS, EULER, FLUX_REGION, REGISTERS, STAGE_BUFFERS, FaceProgram,
+                   StageSum, banner_lines, clamp, exported_symbols, plan_kernel,
+                   print_stage_sum, stage_buffers, stage_steps, step_calls, workspace_layout)
 from .sweep import sweep_direct
-from .plan import (C_FUNCTIONS, EULER, FaceProgram, StageSum, banner_lines, clamp,
-                   exported_symbols, plan_kernel, print_stage_sum, stage_buffers, stage_steps,
-                   step_calls)
+from .workspace import Affine, print_affine
 
 KINDS = {"double": "real64", "float": "real32"}
 C_KINDS = {"double": "c_double", "float": "c_float"}
@@ -43,6 +45,9 @@ SOURCE_SUFFIX = ".f90"
 SWEEPS = True
 """The module exports NAME_sweep under the C header's symbols too (runtime/kernel.py
 loads it as Kernel.sweep)."""
+FLUX_SCRATCH = Affine(cells=1, constant=1)
+"""The face fluxes a stage keeps in workspace: all n + 1 of the line
+(compiler/emit/plan.py: workspace_layout)."""
 
 
 class FortranKernelPrinter(PlanPrinting, FCodePrinter):
@@ -66,6 +71,7 @@ class FortranKernelPrinter(PlanPrinting, FCodePrinter):
         self.limiter_names = frozenset(limiter_names)
         self.renames: dict = {}
         self.helpers_used: set[str] = set()
+        self.loop_index = "j"   # the index an FCT step's loop runs over
 
     def helper(self, name: str) -> str:
         self.helpers_used.add(name)
@@ -107,6 +113,16 @@ class FortranKernelPrinter(PlanPrinting, FCodePrinter):
         if name not in self.limiter_names:
             raise AssertionError(f"limiter {name} is called but not in the plan")
         return f"limiter_{name}({', '.join(self._print(a) for a in expr.args)})"
+
+    def _print_Indexed(self, expr):
+        """An FCT plan element at the loop's index: the caller's q arrays hold interior cell
+        j at q(j + 1); every other array is declared with the plan's own bounds."""
+        array, shift = element_of(expr)
+        shift += 1 if array in ("q", "q_out") else 0
+        return f"{array}({index_text(self.loop_index, shift)})"
+
+    def _print_Share(self, expr):
+        return f"{self.helper('share')}({self._print(expr.args[0])}, {self._print(expr.args[1])})"
 
     def _print_Ratio(self, expr):
         return f"{self.helper('ratio')}({self._print(expr.args[0])}, {self._print(expr.args[1])})"
@@ -222,6 +238,70 @@ def _flux_loop(printer: FortranKernelPrinter, name: str, program: FaceProgram,
     return function, FluxLoop(suffix, program.uses_c, call(True), call(False))
 
 
+def index_text(base: str, shift: int) -> str:
+    """base + shift as Fortran: `j`, `j + 1`, `f - 1`."""
+    if shift == 0:
+        return base
+    return f"{base} + {shift}" if shift > 0 else f"{base} - {-shift}"
+
+
+def fortran_size(value: Affine) -> str:
+    """A workspace size or offset as Fortran (nh the module's ghost cells)."""
+    return print_affine(value, "n", "nh", "block")
+
+
+def work_section(layout, name: str) -> str:
+    """The section of work holding region `name` (work is work(1:...))."""
+    start = layout.offset(name)
+    return (f"work({fortran_size(start + Affine(constant=1))}:"
+            f"{fortran_size(start + layout.region(name).total)})")
+
+
+def _comment(text: str) -> tuple[str, ...]:
+    import textwrap
+    return tuple(textwrap.wrap(text, 80, break_long_words=False, break_on_hyphens=False))
+
+
+def _first(value: int) -> str:
+    return f"{value}_c_size_t" if value >= 0 else f"({value}_c_size_t)"
+
+
+def fct_code(printer: FortranKernelPrinter, plan, loops) -> dict:
+    """The FCT plan as Fortran: the work arrays (dummies with the plan's bounds), the
+    temporaries, and each step as a call of the flux loop or a do loop."""
+    fct = plan.fct_steps
+    layout = workspace_layout(plan, FLUX_SCRATCH)
+    arrays = [{"name": a.name, "about": a.about,
+               "bounds": f"{a.span.first}:{index_text('n', a.span.last)}",
+               "section": work_section(layout, a.name)} for a in fct.work]
+    temporaries = []
+    steps = []
+    for step in fct.steps:
+        first, last = step.span.first, index_text("n", step.span.last)
+        if isinstance(step, FluxStep):
+            loop = loops[1] if step.low_order else loops[0]
+            dt = "dt_dx, " if loop.uses_c else ""
+            call = (f"call fluxes{loop.suffix}({_first(first)}, {last}, n, q, u_face, {dt}"
+                    f"{step.target}({first}:{last}))")
+            steps.append({"about": _comment(step.about), "lines": printer.wrap(call),
+                          "index": None})
+            continue
+        index = "j" if step.span.kind == CELLS else "f"
+        printer.loop_index = index
+        body = [f"{printer._print(sym)} = {printer._print(value)}"
+                for sym, value in step.temporaries]
+        temporaries += [printer._print(sym) for sym, _ in step.temporaries]
+        body += [f"{target}({index_text(index, 1 if target == 'q_out' else 0)}) = "
+                 f"{printer._print(value)}" for target, value in step.writes]
+        steps.append({"about": _comment(step.about), "index": index, "first": str(first), "last": last,
+                      "lines": tuple(line for statement in body
+                                     for line in printer.wrap(statement))})
+    printer.loop_index = "j"
+    return {"arrays": arrays, "steps": steps,
+            "temporaries": printer.wrap(f"real(rk) :: {', '.join(dict.fromkeys(temporaries))}")
+            if temporaries else ()}
+
+
 def _stage_text(printer: FortranKernelPrinter, total: StageSum) -> str:
     def operand(name) -> str:
         if name == EULER:
@@ -276,6 +356,16 @@ def fortran_kernel_context(scheme: Scheme, precision: str = "double", verdicts=(
               for p, v in plan.params]
     buffers = stage_buffers(plan)
     banner = comment_lines(banner_lines(scheme, precision, verdicts))
+    layout = workspace_layout(plan, FLUX_SCRATCH)
+    workspace = {
+        "size": fortran_size(layout.size),
+        "regions": [f"{r.name}: {(str(r.count) + ' * ') if r.count > 1 else ''}"
+                    f"{fortran_size(r.size)} reals, {r.about}" for r in layout.regions],
+        "flux": work_section(layout, FLUX_REGION) if layout.has(FLUX_REGION) else None,
+        "registers": work_section(layout, REGISTERS) if layout.has(REGISTERS) else None,
+        "base": fortran_size(layout.offset(STAGE_BUFFERS[0])) if buffers else None,
+    }
+    fct = fct_code(printer, plan, loops) if plan.fct else None
     return {
         "name": name, "plan": plan, "symbols": exported_symbols(name, precision, C_FUNCTIONS), "kind": KINDS[precision], "c_kind": C_KINDS[precision], "banner": banner,
         "exchange": plan.exchange.lines, "params": params, "functions": functions,
@@ -283,6 +373,7 @@ def fortran_kernel_context(scheme: Scheme, precision: str = "double", verdicts=(
         "clamped": None if plan.clip is None else printer._print(clamp(plan.clip)),
         "registers": plan.registers, "uses_start": plan.uses_start,
         "stage_buffers": buffers, "stage_calls": step_calls(plan),
+        "workspace": workspace, "fct": fct,
         "helpers": sorted(printer.helpers_used),
         "sweep": fortran_sweep_context(plan),
     }

@@ -9,6 +9,7 @@ domain), and lets a block whose faces share one velocity sign read every
 """
 from __future__ import annotations
 
+import textwrap
 from dataclasses import dataclass, replace
 
 import sympy
@@ -21,9 +22,12 @@ from ..symbols import C, R, LimiterApplication, limiter_name_of, offset_of
 from ..time_methods.low_storage import StageUpdate
 from ..upwind import both_cells
 from . import environment
-from .printing import PlanPrinting, check_precision
+from .printing import PlanPrinting, break_after_commas, check_precision
 from .limited import FLOOR_EXPONENT, LimiterFormCall, Quotient
-from .plan import FaceProgram, banner_lines, plan_kernel
+from .fct_plan import FluxStep, element_of
+from .plan import (REGISTERS, STAGE_BUFFERS, FaceProgram, banner_lines, plan_kernel,
+                   workspace_layout)
+from .workspace import Affine, print_affine
 
 PRECISIONS = {"double": "np.float64", "float": "np.float32"}
 WORDS = {"double": ("np.uint64", hex(0x7FF << 52), hex(2046 << 52)),
@@ -35,6 +39,8 @@ BLOCK_BYTES = 256 * 1024
 """Bytes of one block-sized temporary: small enough to stay in L2 cache, large
 enough for numpy to reuse temporaries in place (it does so from 256 KiB)."""
 ITEM_BYTES = {"double": 8, "float": 4}
+FLUX_SCRATCH = Affine()
+"""Face fluxes the module keeps in workspace: none (a block's fluxes are temporaries)."""
 
 
 class NumpyKernelPrinter(PlanPrinting, NumPyPrinter):
@@ -54,6 +60,7 @@ class NumpyKernelPrinter(PlanPrinting, NumPyPrinter):
         self.precision = precision
         self.used_helpers: set[str] = set()
         self.renames: dict = {}
+        self.window = None   # (span, origins) of the FCT step being printed
 
     @staticmethod
     def escape_text(text: str) -> str:
@@ -118,6 +125,27 @@ class NumpyKernelPrinter(PlanPrinting, NumPyPrinter):
 
     def _print_Quotient(self, expr):
         return f"({self._print(expr.args[0])})/({self._print(expr.args[1])})"
+
+    def _print_Indexed(self, expr):
+        """An FCT plan element: the slice of its array over the block's span."""
+        array, shift = element_of(expr)
+        span, origins = self.window
+        return block_slice(array, origins[array], span, shift)
+
+    def _print_Share(self, expr):
+        self.used_helpers.add("share")
+        return f"bounded_share({self._print(expr.args[0])}, {self._print(expr.args[1])})"
+
+    def _print_Piecewise(self, expr):
+        """Nested np.where, first condition outermost (the clamp, the FCT factor)."""
+        *pieces, (otherwise, _) = expr.args
+        text = self._print(otherwise)
+        for value, condition in reversed(pieces):
+            text = f"np.where({self._print(condition)}, {self._print(value)}, {text})"
+        return text
+
+    def _print_Relational(self, expr):
+        return f"{self._print(expr.lhs)} {expr.rel_op} {self._print(expr.rhs)}"
 
     def _print_NonzeroOr(self, expr):
         b, x = expr.args
@@ -248,6 +276,7 @@ class NumpyModule:
     stages: tuple[Stage, ...]
     registers: tuple[tuple[str, str], ...]     # (name, its slice of work for the block)
     register_reals: str                        # "n", "2 * n" or "0"
+    buffers: tuple[tuple[str, str], ...]       # (stage array, its start in work)
     block_cells: int
     params: tuple[tuple[str, str, str], ...]   # (python name, spec name escaped, value)
     limiters: tuple[Function, ...]
@@ -262,6 +291,9 @@ class NumpyModule:
     fct: bool
     clip: tuple[str, str] | None
     workspace: str
+    workspace_regions: tuple[str, ...]         # "name: size reals, what it holds"
+    fct_views: tuple[str, ...]                 # the FCT plan's work arrays of one step
+    fct_lines: tuple[str, ...]                 # the FCT plan's steps on a block lo .. hi
 
 
 def print_function(printer: NumpyKernelPrinter, name: str, doc: str,
@@ -294,30 +326,76 @@ def stage_expression(printer: NumpyKernelPrinter, update: StageUpdate) -> Stage:
                  tuple((f"acc{k}[...]", combo(c)) for k, c in update.writes))
 
 
+def _bound(origin, var: str, k: int) -> str:
+    """origin + var + k as Python: `HALO + lo - 2`, `hi + 5`, `lo`."""
+    parts = [origin] if isinstance(origin, str) else []
+    k += origin if isinstance(origin, int) else 0
+    parts.append(var)
+    text = " + ".join(parts)
+    return text if k == 0 else (f"{text} + {k}" if k > 0 else f"{text} - {-k}")
+
+
+def block_slice(array: str, origin, span, shift: int) -> str:
+    """array over the span of a block lo .. hi (cells lo .. hi - 1, faces lo .. hi): an
+    index i of the plan's frame lies at origin + i of the array."""
+    return (f"{array}[{_bound(origin, 'lo', span.first + shift)}:"
+            f"{_bound(origin, 'hi', span.last + shift + 1)}]")
+
+
+FCT_NAMES = {"q": "q", "q_out": "q_out", "u_face": "u_face"}
+
+
+def fct_code(printer: NumpyKernelPrinter, plan) -> tuple[tuple[str, ...], tuple[str, ...]]:
+    """The FCT plan as numpy: the work views (name = work[start:end]) and the lines of one
+    block lo .. hi."""
+    fct = plan.fct_steps
+    layout = workspace_layout(plan, FLUX_SCRATCH)
+    views = tuple(line for a in fct.work for line in (
+        f"# {a.about}, {a.span.kind} {a.span.first} .. "
+        f"{print_affine(Affine(cells=1, constant=a.span.last))}",
+        f"{a.name} = work[{_py_size(layout.offset(a.name))}:"
+        f"{_py_size(layout.offset(a.name) + a.span.count)}]"))
+    origins = {"q": "HALO", "q_out": "HALO", "u_face": "FACE_HALO",
+               **{a.name: -a.span.first for a in fct.work}}
+    lines = []
+    for step in fct.steps:
+        lines += [f"# {line}" for line in textwrap.wrap(step.about, 84)]
+        if isinstance(step, FluxStep):
+            face = "low_face_values" if step.low_order else "face_values"
+            lines += break_after_commas(
+                f"{block_slice(step.target, origins[step.target], step.span, 0)} = "
+                f"face_fluxes({face}, q, {block_slice('u_face', 'FACE_HALO', step.span, 0)}, "
+                f"dt_dx, {_bound(0, 'lo', step.span.first)})")
+            continue
+        printer.window = (step.span, origins)
+        statements = [f"{printer.doprint(sym)} = {printer.doprint(value)}"
+                      for sym, value in step.temporaries]
+        statements += [f"{block_slice(target, origins[target], step.span, 0)} = "
+                       f"{printer.doprint(value)}" for target, value in step.writes]
+        lines += [line for statement in statements for line in break_after_commas(statement)]
+        printer.window = None
+    return views, tuple(lines)
+
+
+def _py_size(value: Affine) -> str:
+    return print_affine(value, "n", "HALO", "BLOCK")
+
+
 def _shift(k: int) -> str:
     if k == 0:
         return "HALO"
     return f"HALO + {k}" if k > 0 else f"HALO - {-k}"
 
 
-def _register_reals(registers: int) -> str:
-    return "0" if not registers else ("n" if registers == 1 else f"{registers} * n")
-
-
-def _workspace_formula(stage_buffers: int, registers: int) -> str:
-    """Reals `step` keeps between stages: the time method's registers, then stage arrays
-    with halos."""
-    parts = ([_register_reals(registers)] if registers else []) + \
-        ([f"{stage_buffers} * (n + 2 * HALO)" if stage_buffers > 1 else "n + 2 * HALO"]
-         if stage_buffers else [])
-    return " + ".join(parts) or "0"
-
-
-def _register_slices(registers: int) -> tuple[tuple[str, str], ...]:
-    """Register k of a block lo:hi is work[k n + lo:k n + hi]."""
-    return tuple((f"acc{k}", "work[lo:hi]" if k == 0 else
-                  ("work[n + lo:n + hi]" if k == 1 else f"work[{k} * n + lo:{k} * n + hi]"))
-                 for k in range(registers))
+def _register_slices(layout) -> tuple[tuple[str, str], ...]:
+    """Register k of a block lo:hi is work[start + k n + lo:start + k n + hi]."""
+    if not layout.has(REGISTERS):
+        return ()
+    start = layout.offset(REGISTERS)
+    return tuple((f"acc{k}", f"work[{_py_size(start + Affine(cells=k))} + lo:"
+                             f"{_py_size(start + Affine(cells=k))} + hi]"
+                  if not (start + Affine(cells=k)).zero else "work[lo:hi]")
+                 for k in range(layout.region(REGISTERS).count))
 
 
 def _divides(body: sympy.Expr) -> bool:
@@ -361,7 +439,8 @@ def numpy_module(scheme: Scheme, precision: str = "double", verdicts=()) -> Nump
     programs = [plan.flux] + ([plan.low_flux] if plan.low_flux is not None else [])
     uses_c = any(p.uses_c for p in programs)
     names = [o.name for o in offsets]
-    stage_buffers = min(plan.stages - 1, 2)
+    layout = workspace_layout(plan, FLUX_SCRATCH)
+    fct_views, fct_lines = fct_code(printer, plan) if plan.fct else ((), ())
     banner = banner_lines(scheme, precision, verdicts)
     return NumpyModule(
         name=plan.name,
@@ -374,8 +453,10 @@ def numpy_module(scheme: Scheme, precision: str = "double", verdicts=()) -> Nump
         halo=plan.halo,
         face_halo=plan.face_halo,
         stages=tuple(stage_expression(printer, u) for u in plan.stage_updates),
-        registers=_register_slices(plan.registers),
-        register_reals=_register_reals(plan.registers),
+        registers=_register_slices(layout),
+        register_reals=(_py_size(layout.region(REGISTERS).total) if layout.has(REGISTERS)
+                        else "0"),
+        buffers=tuple((b, _py_size(layout.offset(b))) for b in STAGE_BUFFERS if layout.has(b)),
         block_cells=BLOCK_BYTES // ITEM_BYTES[precision],
         params=tuple((param_name(name), printer.escape_text(name),
                       f"REAL({printer.real_literal(value)})") for name, value in plan.params),
@@ -390,7 +471,11 @@ def numpy_module(scheme: Scheme, precision: str = "double", verdicts=()) -> Nump
         guard_c=any(p.guard_c for p in programs),
         fct=plan.fct,
         clip=None if plan.clip is None else tuple(printer.doprint(v) for v in plan.clip),
-        workspace=_workspace_formula(stage_buffers, plan.registers),
+        workspace=_py_size(layout.size),
+        workspace_regions=tuple(f"{r.name}: {(str(r.count) + ' * ') if r.count > 1 else ''}"
+                                f"{_py_size(r.size)} reals, {r.about}" for r in layout.regions),
+        fct_views=fct_views,
+        fct_lines=fct_lines,
     )
 
 

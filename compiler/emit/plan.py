@@ -13,13 +13,18 @@ Zero velocity. Where u == 0 the flux is 0. When c appears in a denominator
 (Lax-Friedrichs has 1/c), the program is evaluated with c replaced by 1 where
 c == 0 (`guard_c`), so the finite g times u == 0 gives exactly 0.
 
-FCT (`correct fct`, Zalesak 1979). For the interior faces 0..n the corrected
-flux needs the limiter factors R+/R- of cells -1..n, which need the
-antidiffusive flux A = F_high - F_low on faces -1..n+1 and the low-order
-solution on cells -2..n+1, which needs F_low on faces -2..n+2. So an FCT
-step evaluates FCT_EXTRA_FACES = 2 extra faces on each side, whose
-velocities the caller passes (`face_halo`: u_face then holds n + 1 + 2*2
-values, u_face[2 + i] is face i), and more ghost cells (`kernel_halo`).
+FCT (`correct fct`, Zalesak 1979). The algorithm is data: `fct_steps`
+(compiler/emit/fct_plan.py) orders its steps, gives each its span of faces or
+cells and its expressions, and sizes the work arrays; every target prints it.
+For the interior faces 0..n the corrected flux needs the limiter factors of cells
+-1..n, which need the low-order solution on cells -2..n+1 and so F_low on faces
+-2..n+2: an FCT step evaluates FCT_EXTRA_FACES = 2 extra faces on each side, whose
+velocities the caller passes (`face_halo`: u_face then holds n + 1 + 2*2 values,
+u_face[2 + i] is face i), and more ghost cells (`kernel_halo`).
+
+Workspace. `workspace_layout(plan, flux_scratch)` names the regions of the
+caller's work array with their sizes affine in n (compiler/emit/workspace.py);
+each target prints its workspace_size and its pointers into work from it.
 """
 from __future__ import annotations
 
@@ -31,6 +36,8 @@ from ..ir import Scheme
 from ..symbols import C, R, limiter_calls, limiter_name_of, offsets_in
 from ..time_methods.low_storage import StageUpdate, low_storage_form
 from .exchange import ExchangeSchedule
+from .fct_plan import FCT_EXTRA_FACES, FctPlan, fct_plan
+from .workspace import Affine, Region, WorkspaceLayout
 from .limited import LimiterForm, safe_limiters
 from .boundaries import KINDS as BOUNDARY_KINDS
 from .scaled_face import scaled_face
@@ -57,10 +64,6 @@ def exported_symbols(name: str, precision: str,
                      functions: tuple[str, ...] = EXPORTED_FUNCTIONS) -> dict[str, str]:
     """{plain name: link symbol} of every exported function."""
     return {f"{name}_{f}": exported_symbol(name, f, precision) for f in functions}
-
-
-FCT_EXTRA_FACES = 2
-"""Extra face velocities (and faces) per side an FCT step evaluates."""
 
 
 @dataclass(frozen=True)
@@ -116,6 +119,7 @@ class KernelPlan:
     registers: int      # arrays of n values kept in workspace from stage to stage
     uses_start: bool    # whether a stage reads q_start
     exchange: ExchangeSchedule  # what a decomposed host refreshes, how wide, when
+    fct_steps: FctPlan | None = None  # flux correction as steps (compiler/emit/fct_plan.py)
 
     @property
     def offsets(self) -> tuple[int, ...]:
@@ -238,6 +242,8 @@ def plan_kernel(scheme: Scheme) -> KernelPlan:
         uses_start=stepping.uses_start,
         exchange=ExchangeSchedule(kernel_halo(scheme), face_halo(scheme), len(stepping.updates),
                                   fct),
+        fct_steps=fct_plan(None if scheme.clip is None else lambda value: clamp(scheme.clip, value))
+        if fct else None,
     )
 
 
@@ -247,11 +253,11 @@ CLIPPED = sympy.Symbol("value", real=True)
 """The value the clip step holds in [LO, HI] (each target names it `value`)."""
 
 
-def clamp(clip) -> sympy.Expr:
+def clamp(clip, value: sympy.Expr = CLIPPED) -> sympy.Expr:
     """The clip step as one expression every target prints: LO where value < LO, HI where
     value > HI, else value (a NaN stays NaN)."""
     low, high = clip
-    return sympy.Piecewise((low, CLIPPED < low), (high, CLIPPED > high), (CLIPPED, True))
+    return sympy.Piecewise((low, value < low), (high, value > high), (value, True))
 
 
 # ---- stage updates as sums the compiled kernels print -------------------------
@@ -319,6 +325,36 @@ def print_stage_sum(total: StageSum, operand_text, coefficient_text) -> str:
 def stage_buffers(plan) -> int:
     """Stage arrays (with halos) a whole step keeps in workspace: 0, 1 or 2."""
     return min(plan.stages - 1, 2)
+
+
+# ---- the workspace ---------------------------------------------------------------
+
+FLUX_REGION = "flux"
+REGISTERS = "registers"
+STAGE_BUFFERS = ("stage_a", "stage_b")
+
+
+def workspace_layout(plan, flux_scratch: Affine) -> WorkspaceLayout:
+    """The caller's work array of one step (compiler/emit/workspace.py).
+
+    With flux correction: the FCT plan's arrays (compiler/emit/fct_plan.py). Otherwise
+    the face fluxes a target keeps while it updates cells (`flux_scratch`: the C kernel
+    one block of faces and its left face, FLUX_BLOCK + 1; the native Fortran kernel the
+    n + 1 faces of the line; numpy none, its block temporaries are its own), then the
+    time method's registers (n reals each), then the stage arrays with halos a whole
+    step passes from stage to stage.
+    """
+    if plan.fct_steps is not None:
+        return WorkspaceLayout(plan.fct_steps.regions())
+    regions = []
+    if not flux_scratch.zero:
+        regions.append(Region(FLUX_REGION, flux_scratch, 1, "face fluxes"))
+    if plan.registers:
+        regions.append(Region(REGISTERS, Affine(cells=1), plan.registers,
+                              "what the time method keeps from stage to stage"))
+    for buffer in STAGE_BUFFERS[:stage_buffers(plan)]:
+        regions.append(Region(buffer, Affine(cells=1, halos=2), 1, "a stage state with halos"))
+    return WorkspaceLayout(tuple(regions))
 
 
 @dataclass(frozen=True)

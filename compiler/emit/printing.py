@@ -23,6 +23,22 @@ SMALL_POWERS = range(2, 5)
 """Integer powers written as repeated products (exact as in the source and vectorisable)."""
 
 
+def break_after_commas(text: str, width: int = 88, indent: int = 8) -> list[str]:
+    """A statement broken after the commas of its argument lists into lines of at most
+    width columns where it can be, continuation lines indented by `indent`. Every comma
+    in the statements this is used for (C, numpy) lies inside brackets, so each target
+    reads the lines as one statement."""
+    pieces = text.split(", ")
+    lines, current = [], pieces[0]
+    for piece in pieces[1:]:
+        if len(current) + 2 + len(piece) > width:
+            lines.append(current + ",")
+            current = " " * indent + piece
+        else:
+            current += ", " + piece
+    return lines + [current]
+
+
 def check_precision(precision: str) -> None:
     if precision not in PRECISIONS:
         raise LoomError(f"unknown precision '{precision}' (use 'double' or 'float')",
