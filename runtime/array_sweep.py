@@ -1,6 +1,7 @@
 """`Kernel.sweep`: the generated NAME_sweep (C) or sweep (numpy), with its arguments checked.
 
-    kernel.sweep(q, u_face, dt_dx, axis, halo=None, out=None, h_old=None, h_new=None)
+    kernel.sweep(q, u_face, dt_dx, axis, halo=None, out=None, h_old=None, h_new=None,
+                 edges=None, time=0.0)
 
 - q: C-ordered array of rank R (1 to 3) with the caller's ghost cells, shape
   shape[d] + 2*halo[d] per axis; or R + 1 with several tracers stacked along a
@@ -13,7 +14,13 @@
 - halo: the caller's ghost cells per side, one number or one per axis (default:
   the kernel's halo on every axis); halo[axis] >= kernel.halo.
 - h_old, h_new: layer thicknesses laid out like one tracer (thickness-weighted
-  form; u_face then holds mass fluxes).
+  form; u_face then holds mass fluxes). With several stages, the mass and the
+  thickness go through the same stage combinations (the generated header says how).
+- edges: None (both ends periodic inside the step), or the (low, high) `Edge`s of the
+  swept axis (runtime/boundaries.py): every intermediate stage's ghost cells are filled
+  by their rules; an inflow end's values (`Edge.slab(time)`) broadcast to the slab
+  halo_inflow takes (q's shape, halo[axis] deep along axis). q's own ghost cells are
+  the caller's, as without edges.
 Only interior cells of interior lines of `out` are written.
 """
 from __future__ import annotations
@@ -27,7 +34,12 @@ from .kernel import C_TYPES, Kernel, KernelError
 MAX_RANK = 3
 
 
-def run_sweep(kernel: Kernel, q, u_face, dt_dx, axis, halo, out, h_old, h_new):
+EDGE_KINDS = ("periodic", "outflow", "wall", "inflow")
+"""The edge kinds in the order of the generated NAME_EDGE_* numbers."""
+
+
+def run_sweep(kernel: Kernel, q, u_face, dt_dx, axis, halo, out, h_old, h_new, edges=None,
+              time=0.0):
     name = kernel.name
     q = _array(kernel, "q", q)
     u_face = _array(kernel, "u_face", u_face)
@@ -65,9 +77,9 @@ def run_sweep(kernel: Kernel, q, u_face, dt_dx, axis, halo, out, h_old, h_new):
         raise KernelError(f"{name}: per-cell dt/dx needs a scheme without flux correction; "
                           "this one sweeps through its step (one dt/dx)")
     if h_old is not None and not kernel.sweep_thickness:
-        raise KernelError(f"{name}: thickness weighting needs a single-stage scheme without "
-                          "flux correction (a multi-stage one would need the thickness of "
-                          "every stage)")
+        raise KernelError(f"{name}: thickness weighting needs a scheme without flux "
+                          "correction")
+    ends = _ends(kernel, edges, q, lead, axis, halo[axis], time)
     if per_cell:
         dt_dx = _array(kernel, "dt_dx", np.asarray(dt_dx) if not isinstance(dt_dx, np.ndarray)
                        else dt_dx)
@@ -98,8 +110,48 @@ def run_sweep(kernel: Kernel, q, u_face, dt_dx, axis, halo, out, h_old, h_new):
         for what, other in (("q", q), ("u_face", u_face), ("h_old", h_old), ("h_new", h_new)):
             if other is not None and np.shares_memory(out, other):
                 raise KernelError(f"{name}: out must not overlap {what}")
-    kernel._run_sweep(q, out, u_face, dt_dx, axis, halo, h_old, h_new)
+    if ends is None:
+        kernel._run_sweep(q, out, u_face, dt_dx, axis, halo, h_old, h_new)
+    else:
+        kernel._run_sweep(q, out, u_face, dt_dx, axis, halo, h_old, h_new, *ends)
     return out
+
+
+def _ends(kernel: Kernel, edges, q, lead: int, axis: int, width: int, time: float):
+    """(low kind, high kind, low slab, high slab) for the generated sweep, or None for
+    periodic ends; an inflow slab is q's shape with `width` cells along axis, C-contiguous."""
+    if edges is None:
+        return None
+    from .boundaries import Edge, check_edges
+    try:
+        low, high = edges
+    except (TypeError, ValueError):
+        raise KernelError(f"{kernel.name}: edges must be (low, high) Edges, not "
+                          f"{edges!r}") from None
+    if not (isinstance(low, Edge) and isinstance(high, Edge)):
+        raise KernelError(f"{kernel.name}: edges must be (low, high) Edges, not {edges!r}")
+    check_edges(((low, high),))
+    if low.kind == "periodic":
+        return None
+    shape = list(q.shape)
+    shape[lead + axis] = width
+    slabs = []
+    for edge in (low, high):
+        if edge.kind != "inflow":
+            slabs.append(None)
+            continue
+        values = edge.slab(time)
+        if values is None:
+            raise KernelError(f"{kernel.name}: an inflow end needs its values")
+        try:
+            slab = np.broadcast_to(np.asarray(values, kernel.dtype), shape)
+        except ValueError:
+            raise KernelError(f"{kernel.name}: inflow values of shape {np.shape(values)} do "
+                              f"not broadcast to the slab {tuple(shape)}") from None
+        if not np.all(np.isfinite(slab)):
+            raise KernelError(f"{kernel.name}: inflow values must be finite")
+        slabs.append(np.ascontiguousarray(slab))
+    return EDGE_KINDS.index(low.kind), EDGE_KINDS.index(high.kind), slabs[0], slabs[1]
 
 
 def _array(kernel: Kernel, what: str, value) -> np.ndarray:
@@ -141,21 +193,24 @@ def _extend(faces: np.ndarray, face_halo: int) -> np.ndarray:
 
 
 def c_sweep_runner(ffi, lib, name: str, precision: str):
-    """The C sweep as Kernel._run_sweep(q, out, u_face, dt_dx, axis, halo, h_old, h_new)."""
-    c_sweep = getattr(lib, exported_symbol(name, "sweep", precision))
+    """The C sweep (NAME_sweep_edges) as Kernel._run_sweep(q, out, u_face, dt_dx, axis, halo,
+    h_old, h_new[, low_edge, high_edge, inflow_low, inflow_high])."""
+    c_sweep = getattr(lib, exported_symbol(name, "sweep_edges", precision))
     c_work = getattr(lib, exported_symbol(name, "sweep_workspace_size", precision))
+    threads = getattr(lib, exported_symbol(name, "sweep_threads", precision))
     ctype = C_TYPES[precision]
     dtype = np.float32 if precision == "float" else np.float64
     null = ffi.NULL
 
-    def run(q, out, u_face, dt_dx, axis, halo, h_old, h_new):
+    def run(q, out, u_face, dt_dx, axis, halo, h_old, h_new, low_edge=0, high_edge=0,
+            inflow_low=None, inflow_high=None):
         rank = u_face.ndim
         tracers = q.shape[0] if q.ndim > rank else 1
         n = q.shape[q.ndim - rank + axis] - 2 * halo[axis]
         shape = [s - 2 * h for s, h in zip(q.shape[q.ndim - rank:], halo)]
         per_cell = np.ndim(dt_dx) > 0
         d = np.ascontiguousarray(dt_dx if per_cell else [dt_dx], dtype=dtype)
-        size = int(c_work(n))
+        size = int(c_work(n)) * max(int(threads()), 1)    # a line's workspace per thread
         work = np.empty(max(size, 1), dtype)
 
         def ptr(a, writable=False):
@@ -163,7 +218,8 @@ def c_sweep_runner(ffi, lib, name: str, precision: str):
 
         status = c_sweep(rank, ffi.new("size_t[]", shape), ffi.new("size_t[]", list(halo)),
                          axis, tracers, ptr(q), ptr(out, True), ptr(u_face), ptr(d),
-                         int(per_cell), ptr(h_old), ptr(h_new), ptr(work, True))
+                         int(per_cell), ptr(h_old), ptr(h_new), low_edge, high_edge,
+                         ptr(inflow_low), ptr(inflow_high), ptr(work, True), size)
         if status != 0:
             raise KernelError(f"{name}: {name}_sweep refused its arguments (status {status})")
 

@@ -1,6 +1,8 @@
 """`verify --boundary wall|open`: a pulse through an inflow/outflow channel and a
-wall-bounded basin, in 1-D and (with --dims 2) 2-D, run through `EdgeSweep` with the
-boundary helpers generated for the back end being verified.
+wall-bounded basin, in 1-D and (with --dims 2) 2-D, run through the generated sweep with
+edges (`BoundarySweep`: NAME_sweep_edges, every stage's ghost cells filled inside it) and
+the boundary helpers generated for the back end being verified. The cases take any
+sweep with `EdgeSweep`'s interface (the tests run them through both).
 
 Measured (runs) and judged (findings, agree / disagree / no claim as in rules.py):
 
@@ -40,6 +42,7 @@ import numpy as np
 from fluxloom.compiler import LoomError
 
 from .boundaries import Edge, injected_fault
+from .boundary_sweep import BoundarySweep
 from .edge_sweeps import EdgeSweep, extend_faces
 from .harness import DIVERGENCE_FACTOR
 from .measurements import mass_tolerance
@@ -340,11 +343,12 @@ class BoundaryVerification:
     fault: str | None
     runs: tuple[BoundaryRun, ...]
     findings: tuple[Finding, ...]
+    path: str = BoundarySweep.path
 
     def to_json(self) -> dict:
         return {"kind": self.kind, "dims": self.dims, "split": self.method,
                 "backend": self.backend, "precision": self.precision,
-                "path": "reference (1-D kernel per line and stage, generated fills)",
+                "path": self.path,
                 "injected_fault": self.fault,
                 "runs": [r.to_json() for r in self.runs]}
 
@@ -352,7 +356,7 @@ class BoundaryVerification:
 def measure_boundary(scheme, kind: str, backend: str, precision: str, courant: float,
                      dims: int = 1, method: str = "strang", progress=None) -> tuple[BoundaryRun, ...]:
     say = progress or (lambda message: None)
-    sweep = EdgeSweep(scheme, backend, precision)
+    sweep = BoundarySweep(scheme, backend, precision)
     runs = []
     if kind == "wall":
         say("boundary: wall-bounded basin")

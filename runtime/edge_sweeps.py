@@ -10,7 +10,8 @@ n + 1 + 2*face_halo faces along axis (`extend_faces` makes them from n + 1). Unl
 stage here sees the edges' ghost cells: walls, outflow and inflow hold inside a step.
 
 It is the reference path for edges (one kernel call per line and stage, Python in
-between), used by verify --boundary until generated sweep kernels take its place.
+between); verify --boundary runs the generated sweep with edges behind the same
+interface (runtime/boundary_sweep.py), and the tests hold the two to round-off.
 """
 from __future__ import annotations
 
@@ -23,6 +24,8 @@ from .kernel import DTYPES, numpy_module
 
 
 class EdgeSweep:
+    path = "reference (1-D kernel per line and stage, generated fills)"
+
     def __init__(self, scheme, backend: str = "numpy", precision: str = "double"):
         plan = plan_kernel(scheme)
         self.name = scheme.name

@@ -132,14 +132,16 @@ class Kernel:
         self._run_step(n, q, out, u_face, dt_dx, self._workspace(n))
         return out
 
-    def sweep(self, q, u_face, dt_dx, axis, halo=None, out=None, h_old=None, h_new=None):
-        """Every line of an array of rank 1 to 3 along `axis`: the generated NAME_sweep.
+    def sweep(self, q, u_face, dt_dx, axis, halo=None, out=None, h_old=None, h_new=None,
+              edges=None, time=0.0):
+        """Every line of an array of rank 1 to 3 along `axis`: the generated NAME_sweep
+        (NAME_sweep_edges with `edges`, the low and high ends of the axis).
 
         See runtime/array_sweep.py for the arguments; returns `out` (a copy of q
         with the interior of every interior line advanced, when not given)."""
         from .array_sweep import run_sweep
 
-        return run_sweep(self, q, u_face, dt_dx, axis, halo, out, h_old, h_new)
+        return run_sweep(self, q, u_face, dt_dx, axis, halo, out, h_old, h_new, edges, time)
 
     def _check_dt_dx(self, dt_dx) -> float:
         try:
@@ -279,7 +281,7 @@ def step_declarations(scheme: Scheme, precision: str) -> str:
 
     name = scheme.name
     sweep = (f"{name}_sweep(", f"{name}_sweep_workspace_size(", f"{name}_sweep_threads(",
-             f"{name}_SWEEP_")
+             f"{name}_SWEEP_", f"{name}_sweep_edges", f"{name}_EDGE_")
     text = c_declarations(scheme, precision)
     return "\n".join(line for line in text.splitlines()
                       if not any(mark in line for mark in sweep)) + "\n"

@@ -188,9 +188,12 @@ def test_sweep_refuses_what_it_cannot_do():
     q = np.zeros((8, 12))
     u = np.ones((8, 9))
     rk_q = np.zeros((8, 8 + 2 * rk.halo))
-    with pytest.raises(KernelError, match="single-stage"):
-        rk.sweep(rk_q, u, 0.1, 1, halo=(0, rk.halo), h_old=np.ones_like(rk_q),
-                 h_new=np.ones_like(rk_q))
+    fct_q = np.zeros((8, 8 + 2 * fct.halo))
+    with pytest.raises(KernelError, match="flux correction"):
+        fct.sweep(fct_q, np.ones((8, 13)), 0.1, 1, halo=(0, fct.halo), h_old=np.ones_like(fct_q),
+                  h_new=np.ones_like(fct_q))
+    with pytest.raises(KernelError, match="both h_old and h_new"):
+        rk.sweep(rk_q, u, 0.1, 1, halo=(0, rk.halo), h_old=np.ones_like(rk_q))
     with pytest.raises(KernelError, match="flux correction"):
         fct.sweep(np.zeros((8, 8 + 2 * fct.halo)), u, np.full(10, 0.1), 1,
                   halo=(0, fct.halo))

@@ -301,6 +301,29 @@ def stage_expression(printer: KernelPrinter, step: StageStep) -> StageCode:
     return StageCode(saves, combo(step.out), writes)
 
 
+def weighted_stage_expression(printer: KernelPrinter, step: StageStep, prefix: str) -> StageCode:
+    """One stage update of a thickness-weighted sweep: the same combination applied to
+    the mass h q (prefix "m_", increment m_dq) or to the thickness (prefix "h_",
+    increment h_dq, the mass fluxes' own), each with its own start, state and registers."""
+    def operand(name) -> str:
+        if name == EULER:
+            return f"({prefix}state[j] - {prefix}dq)"
+        if isinstance(name, tuple):
+            kind, k = name
+            register = f"{prefix}{register_name(k)}"
+            return f"{register}_old" if kind == "saved" else f"{register}[j]"
+        return f"{prefix}{name}[j]"
+
+    def combo(total) -> str:
+        return print_stage_sum(total, operand, lambda value: _coefficient(printer, value),
+                               f"{prefix}dq")
+
+    saves = tuple(f"const {printer.ctype} {prefix}{register_name(k)}_old = "
+                  f"{prefix}{register_name(k)}[j];" for k in step.saved)
+    writes = tuple((f"{prefix}{register_name(k)}[j]", combo(c)) for k, c in step.writes)
+    return StageCode(saves, combo(step.out), writes)
+
+
 def block_signature(ctype: str, plan: KernelPlan, uses_start: bool):
     """Parameter list of the per-block function and the matching call (m as '@M')."""
     entries = []
@@ -444,8 +467,11 @@ def c_context(scheme: Scheme, precision: str = "double", verdicts=(),
     stages = []
     for s, step in enumerate(stage_steps(plan)):
         code = stage_expression(printer, step)
+        weighted = [weighted_stage_expression(printer, step, prefix) for prefix in ("m_", "h_")]
         stages.append({"index": s, "out": code.out, "saves": code.saves, "writes": code.writes,
-                       "clip": plan.clip is not None and s == plan.stages - 1})
+                       "clip": plan.clip is not None and s == plan.stages - 1,
+                       "weighted": [{"out": w.out, "saves": w.saves, "writes": w.writes}
+                                    for w in weighted]})
     uses_start = plan.uses_start
     parameters, arguments = block_signature(printer.ctype, plan, uses_start)
     block_parameters = wrap_list(parameters, len(f"{plan.name}_INLINE void {plan.name}_block("), 8)

@@ -294,6 +294,7 @@ class NumpyModule:
     workspace_regions: tuple[str, ...]         # "name: size reals, what it holds"
     fct_views: tuple[str, ...]                 # the FCT plan's work arrays of one step
     fct_lines: tuple[str, ...]                 # the FCT plan's steps on a block lo .. hi
+    weighted: tuple[tuple[Stage, Stage], ...] = ()   # per stage: the mass's, the thickness's
 
 
 def print_function(printer: NumpyKernelPrinter, name: str, doc: str,
@@ -306,8 +307,10 @@ def print_function(printer: NumpyKernelPrinter, name: str, doc: str,
         return Function(name, doc, assignments, printer.doprint(program.result), arguments)
 
 
-def stage_expression(printer: NumpyKernelPrinter, update: StageUpdate) -> Stage:
-    """One stage update of the time method's low-storage form as numpy expressions."""
+def stage_expression(printer: NumpyKernelPrinter, update: StageUpdate, prefix: str = "") -> Stage:
+    """One stage update of the time method's low-storage form as numpy expressions; a
+    prefix names another set of operands (the thickness-weighted sweep's mass "m_" and
+    thickness "h_": start, current, rate and registers of their own)."""
     def register(k: int) -> str:
         return f"acc{k}_old" if k in update.saved else f"acc{k}"
 
@@ -318,12 +321,13 @@ def stage_expression(printer: NumpyKernelPrinter, update: StageUpdate) -> Stage:
                                   + [(c.rate, "rate")]):
             if coefficient == 0:
                 continue
+            name = prefix + name
             parts.append(name if coefficient == 1 else f"({printer.doprint(coefficient)})*{name}")
         return " + ".join(parts) or "0"
 
-    return Stage(tuple(f"acc{k}_old = acc{k}.copy()" for k in update.saved),
+    return Stage(tuple(f"{prefix}acc{k}_old = {prefix}acc{k}.copy()" for k in update.saved),
                  combo(update.out),
-                 tuple((f"acc{k}[...]", combo(c)) for k, c in update.writes))
+                 tuple((f"{prefix}acc{k}[...]", combo(c)) for k, c in update.writes))
 
 
 def _bound(origin, var: str, k: int) -> str:
@@ -476,6 +480,8 @@ def numpy_module(scheme: Scheme, precision: str = "double", verdicts=()) -> Nump
                                 f"{_py_size(r.size)} reals, {r.about}" for r in layout.regions),
         fct_views=fct_views,
         fct_lines=fct_lines,
+        weighted=tuple((stage_expression(printer, u, "m_"), stage_expression(printer, u, "h_"))
+                       for u in plan.stage_updates),
     )
 
 

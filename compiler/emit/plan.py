@@ -54,7 +54,7 @@ def exported_symbol(name: str, function: str, precision: str) -> str:
     return f"{name}_{function}_{PRECISION_TAGS[precision]}"
 
 
-C_FUNCTIONS = (EXPORTED_FUNCTIONS + ("sweep_workspace_size", "sweep_threads", "sweep")
+C_FUNCTIONS = (EXPORTED_FUNCTIONS + ("sweep_workspace_size", "sweep_threads", "sweep", "sweep_edges")
                + tuple(f"halo_{kind}" for kind in BOUNDARY_KINDS) + ("faces_wall",))
 """What the C kernel exports besides EXPORTED_FUNCTIONS: the sweep over arrays and the
 halo fill helpers (compiler/emit/boundaries.py), under precision-carrying symbols too."""
@@ -309,15 +309,16 @@ def stage_steps(plan) -> tuple[StageStep, ...]:
                  for u in plan.stage_updates)
 
 
-def print_stage_sum(total: StageSum, operand_text, coefficient_text) -> str:
-    """A StageSum as text in any target's syntax (operand_text: operand -> text)."""
+def print_stage_sum(total: StageSum, operand_text, coefficient_text, rate_text: str = "dq") -> str:
+    """A StageSum as text in any target's syntax (operand_text: operand -> text; rate_text
+    names dq, e.g. the thickness's own increment in a thickness-weighted sweep)."""
     parts = [operand_text(operand) if coef == 1 else f"{coefficient_text(coef)}*{operand_text(operand)}"
              for coef, operand in total.terms]
     text = " + ".join(parts)
     if len(parts) == 1 and text.startswith("(") and text.endswith(")"):
         text = text[1:-1]
     if total.rate != 0:
-        term = "dq" if total.rate == 1 else f"{coefficient_text(total.rate)}*dq"
+        term = rate_text if total.rate == 1 else f"{coefficient_text(total.rate)}*{rate_text}"
         text = f"{text} - {term}" if text else f"-{term}"
     return text
 

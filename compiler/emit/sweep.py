@@ -3,8 +3,11 @@
 A single-stage scheme without flux correction gets a sweep of its own (fluxes of
 face rows across neighbouring lines, per-cell dt/dx, thickness weighting, several
 tracers, OpenMP); multi-stage and flux-corrected schemes sweep line by line
-through their step. The face function and its loads are the step's own, so the
-values a sweep computes are the step's values.
+through their step's stages (lines across OpenMP threads, each in its slice of the
+caller's workspace), filling every intermediate stage's ghost cells by the ends'
+edge kinds (NAME_sweep_edges) and carrying the thickness through the stages. The
+face function and its loads are the step's own, so the values a sweep computes are
+the step's values.
 """
 from __future__ import annotations
 

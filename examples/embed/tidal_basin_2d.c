@@ -14,12 +14,16 @@
  * (KERNEL(faces_wall)). One step is Strang split: x for dt/2, y for dt, x for dt/2,
  * the ghost cells of the swept axis filled before every sweep.
  *
- * The grid is stretched along the basin (finer cells at the mouth, STRETCH). Each
- * sweep is one call of the generated KERNEL(sweep): every line of all three tracers,
- * per-cell dt/dx along x (a face's Courant number from its upwind cell).
+ * The grid is stretched along the basin (finer cells at the mouth, STRETCH). The
+ * sweeps call the generated KERNEL(sweep_edges), which fills the ghost cells of every
+ * Runge-Kutta stage inside the step by the same rules: across the basin one call
+ * sweeps every line of all three tracers between the two shores (walls); along it,
+ * the mouth is an inflow on some lines and an outflow on others, so each line is one
+ * call with its own ends. Per-cell dt/dx along x (a face's Courant number from its
+ * upwind cell).
  *
- * Build with the Makefile (SCHEME names the generated kernel, a `time euler` one:
- * the fills before each sweep then hold at every stage).
+ * Build with the Makefile: SCHEME names the generated kernel (tidewater, a `time
+ * euler` one, and vanleer_rk3, SSP-RK3: the same host).
  * Usage: tidal_basin_2d [steps]   (default: one tidal period)
  */
 #include <math.h>
@@ -55,6 +59,7 @@ struct basin {
     real *u, *v;                    /* u[j * (NX + 1) + f]: x faces; v[f * NX + i]: y faces */
     real dt_dx[NX + 2];             /* dt over the widths of x cells -1 .. NX */
     real *work;
+    size_t work_reals;              /* a line's sweep workspace per thread */
 };
 
 /* The tidal exchange (in along one shore, out along the other, nothing at the head)
@@ -117,21 +122,35 @@ static void fill_edges(struct basin *b, int axis)
 }
 
 /* Every line of every tracer along `axis` for time step dt: b->next from b->q (interior
- * cells of interior lines), in one call. */
+ * cells of interior lines). Across the basin one call with walls at both shores; along
+ * it one call per line: the mouth an inflow of the sea's values where the water comes
+ * in, a zero-gradient outflow where it goes out, the head a wall. */
 static void sweep_axis(struct basin *b, int axis, double dt)
 {
-    const size_t shape[2] = {NY, NX}, halo[2] = {b->halo, b->halo};
-    int status;
+    int status = 0;
     if (axis == 1) {
+        const size_t line[1] = {NX}, width[1] = {b->halo};
         for (size_t c = 0; c < NX + 2; ++c) {   /* the ghost cells take the end cells' widths */
             b->dt_dx[c] = (real)(dt / b->dx[c == 0 ? 0 : c > NX ? NX - 1 : c - 1]);
         }
-        status = KERNEL(sweep)(2, shape, halo, 1, TRACERS, b->q, b->next, b->u, b->dt_dx, 1,
-                               NULL, NULL, b->work);
+        for (size_t t = 0; t < TRACERS && status == 0; ++t) {
+            const real sea[8] = {(real)SEA[t], (real)SEA[t], (real)SEA[t], (real)SEA[t],
+                                 (real)SEA[t], (real)SEA[t], (real)SEA[t], (real)SEA[t]};
+            for (size_t j = 0; j < NY && status == 0; ++j) {
+                const size_t row = (t * b->ey + b->halo + j) * b->ex;
+                const real *u = b->u + j * (NX + 1);
+                const int mouth = u[0] >= 0 ? KERNEL(EDGE_INFLOW) : KERNEL(EDGE_OUTFLOW);
+                status = KERNEL(sweep_edges)(1, line, width, 0, 1, b->q + row, b->next + row, u,
+                                             b->dt_dx, 1, NULL, NULL, mouth, KERNEL(EDGE_WALL),
+                                             u[0] >= 0 ? sea : NULL, NULL, b->work, b->work_reals);
+            }
+        }
     } else {
+        const size_t shape[2] = {NY, NX}, halo[2] = {b->halo, b->halo};
         const real dt_dy = (real)(dt / b->dy);
-        status = KERNEL(sweep)(2, shape, halo, 0, TRACERS, b->q, b->next, b->v, &dt_dy, 0,
-                               NULL, NULL, b->work);
+        status = KERNEL(sweep_edges)(2, shape, halo, 0, TRACERS, b->q, b->next, b->v, &dt_dy, 0,
+                                     NULL, NULL, KERNEL(EDGE_WALL), KERNEL(EDGE_WALL), NULL, NULL,
+                                     b->work, b->work_reals);
     }
     if (status != 0) {
         fprintf(stderr, "the sweep refused its arguments (status %d)\n", status);
@@ -181,7 +200,8 @@ int main(int argc, char **argv)
     b.next = calloc(cells, sizeof *b.next);
     b.u = calloc(NY * (NX + 1), sizeof *b.u);
     b.v = calloc((NY + 1) * NX, sizeof *b.v);
-    b.work = calloc(KERNEL(sweep_workspace_size)(NX > NY ? NX : NY) + 1, sizeof *b.work);
+    b.work_reals = KERNEL(sweep_workspace_size)(NX > NY ? NX : NY) * (size_t)KERNEL(sweep_threads)();
+    b.work = calloc(b.work_reals + 1, sizeof *b.work);
     if (!b.q || !b.next || !b.u || !b.v || !b.work || !KERNEL(SWEEP_WIDTHS) || KERNEL(HALO) > 8) {
         fprintf(stderr, "out of memory, or a kernel whose sweep takes no per-cell widths\n");
         return 1;
