@@ -270,9 +270,8 @@ def _shared_kernel(scheme: Scheme, backend: str, precision: str, opt: str | None
     if not sweeps:
         return _abi_kernel(scheme, backend, precision, ffi, lib)
     return _abi_kernel(scheme, backend, precision, ffi, lib,
-                       c_sweep_runner(ffi, lib, scheme.name, precision),
-                       bool(getattr(lib, f"{scheme.name}_SWEEP_WIDTHS")),
-                       bool(getattr(lib, f"{scheme.name}_SWEEP_THICKNESS")))
+                       c_sweep_runner(ffi, lib, scheme.name, precision, edges=False),
+                       *emitter.sweep_features(plan_kernel(scheme)))
 
 
 def step_declarations(scheme: Scheme, precision: str) -> str:

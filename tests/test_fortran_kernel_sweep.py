@@ -20,7 +20,8 @@ from test_sweep_fortran import PROGRAM
 
 from fluxloom.compiler import load_scheme
 from fluxloom.compiler.emit.c import c_declarations
-from fluxloom.compiler.emit.plan import exported_symbol
+from fluxloom.compiler.emit.fortran_kernel import sweep_features
+from fluxloom.compiler.emit.plan import exported_symbol, plan_kernel
 from fluxloom.compiler.emit.targets import target
 from fluxloom.runtime.array_sweep import c_sweep_runner
 from fluxloom.runtime.kernel import Kernel, load_kernel
@@ -53,8 +54,8 @@ def strict_sweep_kernel(tmp_path, scheme, precision) -> tuple[Kernel, object, ob
     c_kernel = load_kernel(scheme, "c", precision)
     kernel = Kernel(scheme.name, "fortran", precision, c_kernel.halo, c_kernel.face_halo,
                     c_kernel.stages, None, None,
-                    c_sweep_runner(ffi, lib, scheme.name, precision),
-                    c_kernel.sweep_widths, c_kernel.sweep_thickness)
+                    c_sweep_runner(ffi, lib, scheme.name, precision, edges=False),
+                    *sweep_features(plan_kernel(scheme)))
     return kernel, ffi, lib
 
 
@@ -75,9 +76,9 @@ def compare_sweeps(fortran: Kernel, c_kernel: Kernel, rng) -> None:
             u = rng.uniform(-1.0, 1.0, faces).astype(dtype)
             u[rng.random(faces) < 0.15] = 0.0
             runs = [dict(dt_dx=0.45)]
-            if c_kernel.sweep_widths:
+            if fortran.sweep_widths:
                 runs.append(dict(dt_dx=rng.uniform(0.2, 0.5, shape[axis] + 2).astype(dtype)))
-            if c_kernel.sweep_thickness:
+            if fortran.sweep_thickness:
                 h_old = rng.uniform(0.5, 1.5, extents).astype(dtype)
                 runs.append(dict(dt_dx=runs[-1]["dt_dx"], h_old=h_old,
                                  h_new=(h_old * rng.uniform(0.9, 1.1, extents)).astype(dtype)))

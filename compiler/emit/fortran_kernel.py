@@ -389,6 +389,14 @@ def fortran_sweep_context(plan) -> dict:
             if not plan.fct else "0_c_size_t"}
 
 
+def sweep_features(plan) -> tuple[bool, bool]:
+    """(per-cell dt/dx, thickness weighting) this module's NAME_sweep takes. Thicknesses
+    only where the scheme sweeps directly (one stage, no FCT): unlike the C sweep, the
+    module does not yet carry them through Runge-Kutta stages, so the C header's
+    SWEEP_THICKNESS does not describe it (runtime/kernel.py asks this instead)."""
+    return not plan.fct, sweep_direct(plan)
+
+
 def files(scheme: Scheme, precision: str = "double", verdicts=()) -> dict[str, str]:
     """{'NAME_kernel.f90': the module} (the target registry's entry point)."""
     context = fortran_kernel_context(scheme, precision, verdicts)
