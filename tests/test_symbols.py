@@ -101,3 +101,19 @@ def test_the_native_fortran_target_holds_the_longest_scheme_name(tmp_path, stem)
         done = subprocess.run([tool("gfortran"), standard, "-Wall", "-Wextra", "-Werror", "-c",
                                file_name], cwd=tmp_path, capture_output=True, text=True)
         assert done.returncode == 0 and not done.stderr, done.stderr
+
+
+@pytest.mark.parametrize("precision, tag", [("double", "f64"), ("float", "f32")])
+def test_every_function_the_c_object_exports_carries_the_precision(tmp_path, precision, tag):
+    """nm lists the object's global functions: the step, the sweeps and every halo fill
+    end in the precision tag, and none is left under its plain name."""
+    from fluxloom.compiler.emit.plan import C_FUNCTIONS, exported_symbol
+
+    built = write(tmp_path / precision, precision)
+    listing = subprocess.run([tool("nm"), "--defined-only", "-g", "upwind.o"], cwd=built,
+                             capture_output=True, text=True, check=True).stdout
+    # T: a function; i: one the compiler dispatches per CPU (target_clones)
+    defined = {line.split()[-1] for line in listing.splitlines()
+               if line.split()[-2] in ("T", "i")}
+    assert defined == {exported_symbol("upwind", f, precision) for f in C_FUNCTIONS}
+    assert all(symbol.endswith(f"_{tag}") for symbol in defined)
