@@ -279,8 +279,7 @@ def step_declarations(scheme: Scheme, precision: str) -> str:
     from fluxloom.compiler.emit.c import c_declarations
 
     name = scheme.name
-    sweep = (f"{name}_sweep(", f"{name}_sweep_workspace_size(", f"{name}_sweep_threads(",
-             f"{name}_SWEEP_", f"{name}_sweep_edges", f"{name}_EDGE_")
+    sweep = (f"{name}_sweep", f"{name}_SWEEP_", f"{name}_EDGE_")   # suffixed or not
     text = c_declarations(scheme, precision)
     return "\n".join(line for line in text.splitlines()
                       if not any(mark in line for mark in sweep)) + "\n"
