@@ -52,6 +52,7 @@ def write_sources(directory, precision, verdicts=()):
 
 # ---- compiling -------------------------------------------------------------------
 
+@pytest.mark.slow
 @pytest.mark.parametrize("precision", PRECISIONS)
 def test_every_example_compiles_without_a_warning(tmp_path, precision):
     write_sources(tmp_path, precision)
@@ -411,6 +412,7 @@ int main(void)
 """
 
 
+@pytest.mark.slow
 @pytest.mark.parametrize("precision", PRECISIONS)
 def test_every_example_runs_clean_under_the_sanitizers(tmp_path, precision):
     write_sources(tmp_path, precision)

@@ -111,6 +111,7 @@ def without_comments_c(path, cwd) -> str:
     return done.stdout
 
 
+@pytest.mark.slow
 def test_c_files_compile_strictly_and_are_the_harmless_code(tmp_path):
     files = []
     for scheme, _ in VARIANTS:
