@@ -175,6 +175,7 @@ def random_limiters(draw):
     return body
 
 
+@pytest.mark.slow
 @settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.too_slow])
 @given(random_limiters())
 def test_exact_sweby_verdict_against_sampling(body):

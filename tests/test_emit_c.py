@@ -93,6 +93,7 @@ int main() {
 
 # ---- the text ----------------------------------------------------------------------
 
+@pytest.mark.slow
 def test_generation_is_deterministic_across_processes():
     """Same spec, same bytes: two interpreters with different hash seeds agree."""
     script = ("import hashlib, sys\n"
@@ -458,6 +459,7 @@ def test_ratio_on_flat_data_is_zero_as_defined(name):
     assert np.max(np.abs(got - want)) < 1e-14
 
 
+@pytest.mark.slow
 @pytest.mark.parametrize("precision", PRECISIONS)
 def test_every_fortran_module_compiles_as_fortran_2003(tmp_path, precision):
     names = []

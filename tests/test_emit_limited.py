@@ -196,6 +196,7 @@ int main(void)
 """
 
 
+@pytest.mark.slow
 @pytest.mark.parametrize("precision", ["double", "float"])
 def test_c_forms_give_the_numpy_bits(tmp_path, precision):
     """Bit-stable across back ends: the C functions, compiled as the build compiles them,

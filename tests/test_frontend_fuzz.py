@@ -9,6 +9,7 @@ from pathlib import Path
 
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
+import pytest
 
 from fluxloom.compiler import LoomError, Scheme, scheme_from_text
 
@@ -64,6 +65,7 @@ def _compiles_or_located(text: str) -> None:
     assert isinstance(result, Scheme)
 
 
+@pytest.mark.slow
 @settings(max_examples=1500, deadline=None, suppress_health_check=list(HealthCheck))
 @given(mutated_example())
 def test_mutated_examples_compile_or_fail_located(text):
