@@ -17,17 +17,16 @@ from pathlib import Path
 
 import numpy as np
 import pytest
-from conftest import EXAMPLE_FILES, EXAMPLES
+from conftest import EXAMPLE_FILES, EXAMPLES, require_mpi_or_skip
 
 from fluxloom.compiler import load_scheme
 from fluxloom.compiler.emit.exchange import exchange_schedule
 from fluxloom.runtime.cli import main
 from fluxloom.runtime.decomposed.finding import FAULT_VARIABLE, verify_decomposed, verify_many
-from fluxloom.runtime.decomposed.launch import find_mpiexec, missing_mpi
+from fluxloom.runtime.decomposed.launch import find_mpiexec
 from fluxloom.runtime.profiles import MIXED
 
-if missing_mpi() is not None:  # the only guard: MPI itself is absent
-    pytest.skip(missing_mpi(), allow_module_level=True)
+require_mpi_or_skip()  # the only guard: MPI itself is absent (a failure under CI)
 
 SWEEP_PROGRAM = Path(__file__).with_name("mpi_sweep_program.py")
 
