@@ -85,9 +85,10 @@ def _with_face_halo(faces: np.ndarray, axis: int, face_halo: int) -> np.ndarray:
 
 
 class _Sweeps:
-    """The generated sweep of one precision, called through cffi without argument checks."""
+    """The generated sweep of one precision (NAME_sweep_edges with periodic ends and a
+    workspace for `threads` threads), called through cffi without argument checks."""
 
-    def __init__(self, scheme: Scheme, precision: str, n: int, tracers: int):
+    def __init__(self, scheme: Scheme, precision: str, n: int, tracers: int, threads: int = 1):
         self.ffi, self.lib = build.compile_c(scheme, precision, OPT, openmp=True)
         self.name = scheme.name
         self.dtype = np.float32 if precision == "float" else np.float64
@@ -103,9 +104,13 @@ class _Sweeps:
         self.dt_dx = np.array([0.5], self.dtype)
         self.shape = self.ffi.new("size_t[]", [n, n])
         self.halo = self.ffi.new("size_t[]", [HALO, HALO])
-        self.work = np.empty(max(1, int(getattr(self.lib, exported_symbol(self.name, "sweep_workspace_size", precision))(n))),
-                             self.dtype)
-        self.sweep = getattr(self.lib, exported_symbol(self.name, "sweep", precision))
+        # one line workspace per thread, so that multi-stage sweeps use every thread too
+        line_work = int(getattr(self.lib, exported_symbol(self.name, "sweep_workspace_size",
+                                                          precision))(n))
+        self.work_reals = line_work * max(threads, 1)
+        self.work = np.empty(max(1, self.work_reals), self.dtype)
+        self.periodic = int(getattr(self.lib, f"{self.name}_EDGE_PERIODIC"))
+        self.sweep = getattr(self.lib, exported_symbol(self.name, "sweep_edges", precision))
 
     def _ptr(self, array):
         return self.ffi.from_buffer(self.ctype, array)
@@ -120,7 +125,8 @@ class _Sweeps:
         def run():
             status = self.sweep(2, self.shape, self.halo, axis, count, pointers[0], pointers[1],
                                 pointers[2], pointers[3], 0, self.ffi.NULL, self.ffi.NULL,
-                                pointers[4])
+                                self.periodic, self.periodic, self.ffi.NULL, self.ffi.NULL,
+                                pointers[4], self.work_reals)
             assert status == 0
         return run
 
@@ -136,7 +142,7 @@ def measure_sweeps(scheme: Scheme, n: int = 4096, threads: int = 2, tracers: int
                    "note": "wall-clock best of the repeats on a machine that may be shared "
                            "with other jobs: the ratios are indicative"}
     say("double precision, one thread")
-    double = _Sweeps(scheme, "double", n, max(tracers, 1))
+    double = _Sweeps(scheme, "double", n, max(tracers, 1), threads)
     set_threads(1)
     seconds = {}
     for axis, label in ((1, "x"), (0, "y")):
