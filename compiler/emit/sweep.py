@@ -29,6 +29,12 @@ def sweep_direct(plan) -> bool:
     """True when the scheme sweeps with its own loops (widths, thickness, threads)."""
     return plan.stages == 1 and not plan.fct
 
+SWEEP_LINES = 8
+"""Neighbouring lines a multi-stage or flux-corrected sweep along a strided axis copies
+into its workspace together: each row's cells are read and written SWEEP_LINES at a
+time (a cache line of doubles) instead of one real per cache line; the workspace holds
+that many lines."""
+
 
 def sweep_stack_reals(flux_block: int) -> int:
     """Reals a direct sweep keeps on the stack, the larger of its two paths: the
@@ -46,6 +52,7 @@ def c_sweep_context(plan, fluxes, openmp: bool = False, flux_block: int = 128) -
         "direct": sweep_direct(plan),
         "piece": SWEEP_PIECE,
         "run": SWEEP_RUN,
+        "lines": SWEEP_LINES,
         "stack_reals": sweep_stack_reals(flux_block),
         "segment": SWEEP_SEGMENT,
         "flux": flux,
