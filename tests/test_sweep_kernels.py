@@ -12,7 +12,7 @@ import numpy as np
 import pytest
 
 from fluxloom.compiler import load_scheme, scheme_from_text
-from fluxloom.compiler.emit.sweep import SWEEP_PIECE, SWEEP_RUN, SWEEP_SEGMENT
+from fluxloom.compiler.emit.sweep import SWEEP_LINES, SWEEP_PIECE, SWEEP_RUN, SWEEP_SEGMENT
 from fluxloom.runtime.array_sweep import fill_periodic_axis
 from fluxloom.runtime.kernel import KernelError, load_kernel
 from fluxloom.runtime.sweeps import KernelSweep, LineSweep
@@ -221,55 +221,51 @@ def test_kernel_sweep_is_one_call_per_sweep():
     assert sweep.calls == 1
 
 
-def test_long_lines_across_segments_and_blocks():
-    # lines longer than one segment of shared velocity parts and not a multiple of the
-    # block: the C sweep against the reference line sweep bit for bit, against numpy
-    # with widths, thickness and tracers to round-off
-    scheme = load_scheme(EXAMPLES / "lw_vanleer.loom")
+def _against_reference_numpy_and_separate_calls(stem, rng, shape, axis):
+    """The C sweep along `axis` of `shape`: bit for bit against the reference line sweep;
+    with widths, thickness and 3 tracers against numpy to round-off and against one call
+    per tracer bit for bit."""
+    scheme = load_scheme(EXAMPLES / f"{stem}.loom")
     c_kernel, np_kernel = load_kernel(scheme, "c"), load_kernel(scheme, "numpy")
-    rng = np.random.default_rng(17)
-    cells = SWEEP_SEGMENT + 2 * 128 + 37
-    shape = (2, cells)
+    h = c_kernel.halo
     q = rng.random(shape)
-    u = _faces(rng, shape, 1)
-    got = c_kernel.sweep(_padded(c_kernel, q, 1), u, 0.35, 1)
-    assert np.array_equal(_interior(c_kernel, got, shape), LineSweep(c_kernel)(1, q, u, 0.35))
-    tracers = rng.random((3, 3, cells + 4))
-    d = rng.uniform(0.1, 0.4, cells + 2)
-    thick = rng.uniform(1, 2, (2, 3, cells + 4))
-    u = rng.standard_normal((3, cells + 1))
+    u = _faces(rng, shape, axis)
+    got = c_kernel.sweep(_padded(c_kernel, q, axis), u, 0.35, axis)
+    assert np.array_equal(_interior(c_kernel, got, shape), LineSweep(c_kernel)(axis, q, u, 0.35))
+    halo = tuple(h if a == axis else 0 for a in range(len(shape)))
+    padded = tuple(s + 2 * g for s, g in zip(shape, halo))
+    tracers = rng.random((3,) + padded)
+    d = rng.uniform(0.1, 0.4, shape[axis] + 2)
+    thick = rng.uniform(1, 2, (2,) + padded)
     for kw in ({}, {"h_old": thick[0], "h_new": thick[1]}):
-        a = c_kernel.sweep(tracers, u, d, 1, halo=(0, 2), **kw)
-        b = np_kernel.sweep(tracers, u, d, 1, halo=(0, 2), **kw)
+        a = c_kernel.sweep(tracers, u, d, axis, halo=halo, **kw)
+        b = np_kernel.sweep(tracers, u, d, axis, halo=halo, **kw)
         np.testing.assert_allclose(a, b, rtol=1e-14, atol=1e-15)
-        apart = np.stack([c_kernel.sweep(np.ascontiguousarray(t), u, d, 1, halo=(0, 2), **kw)
+        apart = np.stack([c_kernel.sweep(np.ascontiguousarray(t), u, d, axis, halo=halo, **kw)
                           for t in tracers])
         assert np.array_equal(a, apart)
+
+
+def test_long_lines_across_segments_and_blocks():
+    # lines longer than one segment of shared velocity parts, not a multiple of the block
+    _against_reference_numpy_and_separate_calls(
+        "lw_vanleer", np.random.default_rng(17), (2, SWEEP_SEGMENT + 2 * 128 + 37), 1)
 
 
 def test_wide_rows_across_runs_and_pieces():
     # a strided sweep over rows wider than one run of shared Courant numbers and not a
-    # multiple of the piece: bit for bit against the reference line sweep (one line at
-    # a time), and tracers and thickness against numpy and against separate calls
-    scheme = load_scheme(EXAMPLES / "lw_vanleer.loom")
-    c_kernel, np_kernel = load_kernel(scheme, "c"), load_kernel(scheme, "numpy")
-    rng = np.random.default_rng(23)
-    width = SWEEP_RUN + SWEEP_PIECE + 11
-    shape = (9, width)
-    q = rng.random(shape)
-    u = _faces(rng, shape, 0)
-    got = c_kernel.sweep(_padded(c_kernel, q, 0), u, 0.35, 0)
-    assert np.array_equal(_interior(c_kernel, got, shape), LineSweep(c_kernel)(0, q, u, 0.35))
-    tracers = rng.random((2, 13, width))
-    d = rng.uniform(0.1, 0.4, 11)
-    thick = rng.uniform(1, 2, (2, 13, width))
-    for kw in ({}, {"h_old": thick[0], "h_new": thick[1]}):
-        a = c_kernel.sweep(tracers, u, d, 0, halo=(2, 0), **kw)
-        b = np_kernel.sweep(tracers, u, d, 0, halo=(2, 0), **kw)
-        np.testing.assert_allclose(a, b, rtol=1e-14, atol=1e-15)
-        apart = np.stack([c_kernel.sweep(np.ascontiguousarray(t), u, d, 0, halo=(2, 0), **kw)
-                          for t in tracers])
-        assert np.array_equal(a, apart)
+    # multiple of the piece
+    _against_reference_numpy_and_separate_calls(
+        "lw_vanleer", np.random.default_rng(23), (9, SWEEP_RUN + SWEEP_PIECE + 11), 0)
+
+
+def test_multi_stage_strided_sweep_in_groups_of_neighbouring_lines():
+    # a multi-stage sweep along a strided axis copies SWEEP_LINES neighbouring lines
+    # together: rows of 2 groups and a part, in 3-D, along the first and middle axes
+    rng = np.random.default_rng(29)
+    for axis in (0, 1):
+        _against_reference_numpy_and_separate_calls(
+            "kappa_rk3", rng, (7, 6, 2 * SWEEP_LINES + 3), axis)
 
 
 RANDOM_LINEAR_RK3 = """
