@@ -15,7 +15,10 @@ Measured (runs) and judged (findings, agree / disagree / no claim as in rules.py
   scheme treats a mirrored field with mirrored velocities as the mirror image, so a wall
   with a mirrored halo is exactly the periodic run of the domain reflected across the
   wall (twice as long per axis, velocities negated in the reflection); the two must
-  agree to round-off. This holds for every scheme, so it is always claimed.
+  agree to round-off. This holds for every scheme, so it is always claimed. With
+  --dims 3 also `box_3d`: the pulse carried round the closed box by the deformational
+  flow of the 3-D split cases (divergence-free, zero normal velocity on every wall face
+  by itself), one period, the same two findings.
 - open (`channel_right`, `channel_left`, `channel_2d`, `channel_3d`): a pulse on a
   background carried out through a zero-gradient outflow, prescribed background at the
   inflow, walls on the other axes, compared with the same run in a channel four times
@@ -277,14 +280,25 @@ BASIN_PULSE = {1: ((0.7,), 0.4), 2: ((0.7, 0.6), 0.6), 3: ((0.7, 0.6, 0.4), 0.6)
 BASIN_CURRENT = (1.0, 0.6, 0.8)
 """The tidal current's speed along each axis (a diagonal current; c is axis 0's Courant
 number, the largest)."""
-BASIN_NAME = {1: "basin", 2: "basin_2d", 3: "basin_3d"}
+FLOWS = ("tide", "circulation")
+"""The basin's flows: a uniform tidal current, nonzero up to the walls (the faces helper
+zeroes the wall faces), or a closed circulation (2-D, 3-D: the deformational flows of the
+split cases, divergence-free with zero normal velocity on every wall face)."""
+BASIN_NAME = {("tide", 1): "basin", ("tide", 2): "basin_2d", ("tide", 3): "basin_3d",
+              ("circulation", 2): "box_2d", ("circulation", 3): "box_3d"}
 BASIN_TEXT = {
-    1: "a pulse sloshed against the walls of a closed basin by a reversing current, "
-       "{tides} tides",
-    2: "a 2-D pulse sloshed against the four walls of a closed basin by a reversing "
-       "diagonal current, {tides} tides, {method} splitting",
-    3: "a 3-D pulse sloshed against the six walls of a closed box by a reversing "
-       "diagonal current, {tides} tides, {method} splitting",
+    ("tide", 1): "a pulse sloshed against the walls of a closed basin by a reversing "
+                 "current, {tides} tides",
+    ("tide", 2): "a 2-D pulse sloshed against the four walls of a closed basin by a "
+                 "reversing diagonal current, {tides} tides, {method} splitting",
+    ("tide", 3): "a 3-D pulse sloshed against the six walls of a closed box by a "
+                 "reversing diagonal current, {tides} tides, {method} splitting",
+    ("circulation", 2): "a 2-D pulse carried round a closed square by the swirling flow "
+                        "(zero normal velocity on every wall), which reverses and undoes "
+                        "itself, {method} splitting",
+    ("circulation", 3): "a 3-D pulse carried round a closed box by the deformational flow "
+                        "(zero normal velocity on every wall), which reverses and undoes "
+                        "itself, {method} splitting",
 }
 
 
@@ -312,13 +326,42 @@ def _image_faces(base: np.ndarray, axis: int, dims: int) -> np.ndarray:
     return np.ascontiguousarray(mirrored)
 
 
+def _tidal_current(n: int, dims: int, courant: float, method: str, dtype):
+    """(steps, dt/dx, largest Courant number, faces of step k) of the tide."""
+    steps = _check_steps(math.ceil(TIDES * n / courant))
+
+    def faces(step: int) -> list[np.ndarray]:
+        tide = _tide(step, steps)
+        return [np.full((n,) * a + (n + 1,) + (n,) * (dims - 1 - a), BASIN_CURRENT[a] * tide,
+                        dtype) for a in range(dims)]
+    return steps, courant, courant, faces
+
+
+def _circulation(n: int, dims: int, courant: float, method: str, dtype):
+    """The same for the closed circulation: one period of the flow at (at most) c."""
+    from .multidim.cases import step_count
+    from .multidim.flows import SWIRL
+    from .multidim.flows3d import DEFORMATION
+
+    flow = {2: SWIRL, 3: DEFORMATION}[dims]
+    steps = _check_steps(step_count(flow, n, courant, method))
+    dt = flow.period / steps
+    base = flow.face_velocities(n)
+
+    def faces(step: int) -> list[np.ndarray]:
+        g = flow.time_factor((step + 0.5) * dt)
+        return [(f * g).astype(dtype) for f in base]
+    return steps, dt * n, flow.max_speed(n) * dt * n, faces
+
+
 def basin(sweep: EdgeSweep, courant: float, dims: int = 1, method: str = "strang",
-          n: int | None = None) -> BoundaryRun:
-    """A pulse sloshed by a reversing current in a closed basin (walls on every axis), with
-    the periodic run of the domain mirrored across its walls beside it."""
+          n: int | None = None, flow: str = "tide") -> BoundaryRun:
+    """A pulse carried by `flow` in a closed basin (walls on every axis), with the periodic
+    run of the domain mirrored across its walls beside it."""
     n = CELLS[dims] if n is None else n
     q0 = _pulse(n, dims, *BASIN_PULSE[dims])
-    steps = _check_steps(math.ceil(TIDES * n / courant))
+    current = _tidal_current if flow == "tide" else _circulation
+    steps, dt_dx, used, faces_of = current(n, dims, courant, method, sweep.dtype)
     walls = ((Edge("wall"), Edge("wall")),) * dims
     periodic = ((Edge("periodic"), Edge("periodic")),) * dims
     q = sweep.padded(q0.astype(sweep.dtype))
@@ -330,15 +373,13 @@ def basin(sweep: EdgeSweep, courant: float, dims: int = 1, method: str = "strang
     box = _box(h, q0.shape)
     watch, drift, mismatch, stopped = _Watch(q0), 0.0, 0.0, None
     for step in range(1, steps + 1):
-        tide = _tide(step - 1, steps)
-        base = [np.full((n,) * a + (n + 1,) + (n,) * (dims - 1 - a), BASIN_CURRENT[a] * tide,
-                        sweep.dtype) for a in range(dims)]
+        base = faces_of(step - 1)
         faces = [extend_faces(sweep.fills, base[a], a, sweep.face_halo, walls)
                  for a in range(dims)]
         image_faces = [extend_faces(sweep.fills, _image_faces(base[a], a, dims), a,
                                     sweep.face_halo, periodic) for a in range(dims)]
-        q = _advance(sweep, q, faces, courant, walls, method, step - 1)
-        image = _advance(sweep, image, image_faces, courant, periodic, method, step - 1)
+        q = _advance(sweep, q, faces, dt_dx, walls, method, step - 1)
+        image = _advance(sweep, image, image_faces, dt_dx, periodic, method, step - 1)
         inside = q[box]
         if watch.bad(inside) or watch.bad(image[_box(h, full.shape)]):
             stopped = step
@@ -346,8 +387,8 @@ def basin(sweep: EdgeSweep, courant: float, dims: int = 1, method: str = "strang
         drift = max(drift, abs(float(np.sum(inside, dtype=np.float64)) - total) / abs(total))
         mismatch = max(mismatch, float(np.max(np.abs(inside - image[box]))) / scale)
     return BoundaryRun(
-        BASIN_NAME[dims], "wall", dims, n, steps, courant,
-        BASIN_TEXT[dims].format(tides=TIDES, method=method),
+        BASIN_NAME[flow, dims], "wall", dims, n, steps, used,
+        BASIN_TEXT[flow, dims].format(tides=TIDES, method=method),
         mass_drift=drift, image_mismatch=mismatch, min=watch.low, max=watch.high,
         diverged_at=stopped)
 
@@ -362,6 +403,10 @@ def basin_2d(sweep: EdgeSweep, courant: float, method: str, n: int = CELLS_2D) -
 
 def basin_3d(sweep: EdgeSweep, courant: float, method: str, n: int = CELLS_3D) -> BoundaryRun:
     return basin(sweep, courant, 3, method, n)
+
+
+def box_3d(sweep: EdgeSweep, courant: float, method: str, n: int = CELLS_3D) -> BoundaryRun:
+    return basin(sweep, courant, 3, method, n, flow="circulation")
 
 # ---- verification ------------------------------------------------------------------------------
 
@@ -396,6 +441,8 @@ def measure_boundary(scheme, kind: str, backend: str, precision: str, courant: f
         runs.append(basin(sweep, courant))
         if dims > 1:
             runs.append(basin(sweep, courant, dims, method))
+        if dims == 3:
+            runs.append(basin(sweep, courant, dims, method, flow="circulation"))
     else:
         say("boundary: inflow/outflow channel")
         runs.append(channel(sweep, courant, direction=+1))
