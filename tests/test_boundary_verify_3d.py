@@ -282,6 +282,7 @@ def test_verify_dims_3_open_json(capsys):
     assert ours == {"channel_right": "agree", "channel_left": "agree", "channel_3d": "agree"}
 
 
+@pytest.mark.slow
 def test_verify_dims_3_wall_text(capsys):
     status, out = _verify(capsys, "lw_vanleer", "--backend", "c", "--boundary", "wall")
     assert status == 0
