@@ -1,32 +1,38 @@
 """`verify --boundary wall|open`: a pulse through an inflow/outflow channel and a
-wall-bounded basin, in 1-D and (with --dims 2) 2-D, run through the generated sweep with
-edges (`BoundarySweep`: NAME_sweep_edges, every stage's ghost cells filled inside it) and
-the boundary helpers generated for the back end being verified. The cases take any
-sweep with `EdgeSweep`'s interface (the tests run them through both).
+wall-bounded basin, in 1-D and (with --dims 2 or 3) 2-D or 3-D, run through the generated
+sweep with edges (`BoundarySweep`: NAME_sweep_edges, every stage's ghost cells filled inside
+it) and the boundary helpers generated for the back end being verified. One builder per
+case (`basin`, `channel`) serves every dimension; 2-D and 3-D runs advance by split sweeps.
+The cases take any sweep with `EdgeSweep`'s interface (the tests run them through both).
 
 Measured (runs) and judged (findings, agree / disagree / no claim as in rules.py):
 
-- wall (`basin`, `basin_2d`): a tidal current that reverses (uniform, nonzero up to the
-  walls: the faces helper zeroes the wall faces) sloshes a pulse against the walls for
-  two tides. *Conservation*: no flux crosses a wall, so the total stays to round-off
-  (relative drift <= 1e-12 in double, 1e-5 in float) wherever the analysis claims the
-  scheme conservative. *Mirror image*: in the upwind frame every scheme treats a
-  mirrored field with mirrored velocities as the mirror image, so a wall with a
-  mirrored halo is exactly the periodic run of the domain reflected across the wall
-  (twice as long, velocities negated in the reflection); the two must agree to
-  round-off. This holds for every scheme, so it is always claimed.
-- open (`channel_right`, `channel_left`, `channel_2d`): a pulse on a background carried
-  out through a zero-gradient outflow, prescribed background at the inflow, compared
-  with the same run in a channel four times as long (the same inflow, its outflow far
-  downstream). *Outflow reflection*: the largest difference at the end, when the pulse
-  has left the channel, relative to the pulse's amplitude (`exit_difference`: the
-  largest at any step, while the pulse passes the outflow). A scheme whose faces read no cell downwind of the
-  face (every stencil offset <= 0: upwind, upwind_rk3) never reads the outflow's
+- wall (`basin`, `basin_2d`, `basin_3d`): a tidal current that reverses (uniform,
+  nonzero up to the walls: the faces helper zeroes the wall faces) sloshes a pulse
+  against the walls for two tides. *Conservation*: no flux crosses a wall, so the total
+  stays to round-off (relative drift <= 1e-12 in double, 1e-5 in float) wherever the
+  analysis claims the scheme conservative. *Mirror image*: in the upwind frame every
+  scheme treats a mirrored field with mirrored velocities as the mirror image, so a wall
+  with a mirrored halo is exactly the periodic run of the domain reflected across the
+  wall (twice as long per axis, velocities negated in the reflection); the two must
+  agree to round-off. This holds for every scheme, so it is always claimed. With
+  --dims 3 also `box_3d`: the pulse carried round the closed box by the deformational
+  flow of the 3-D split cases (divergence-free, zero normal velocity on every wall face
+  by itself), one period, the same two findings.
+- open (`channel_right`, `channel_left`, `channel_2d`, `channel_3d`): a pulse on a
+  background carried out through a zero-gradient outflow, prescribed background at the
+  inflow, walls on the other axes, compared with the same run in a channel four times
+  as long (the same inflow, its outflow far downstream: the pulse never reaches it).
+  *Outflow reflection*: the largest difference at the end, when the pulse has left the
+  channel, relative to the pulse's amplitude (`exit_difference`: the largest at any
+  step, while the pulse passes the outflow). A scheme whose faces read no cell downwind
+  of the face (every stencil offset <= 0: upwind, upwind_rk3) never reads the outflow's
   ghost cells, so its channel is the long channel's to round-off at every step:
   claimed (exit difference and reflection <= 1e-13; 1e-5 in float). Schemes that read
-  downwind cells feel the outflow's copied ghost cells: measured and reported, no claim. `remaining` is the largest departure from the
-  background left in the channel at the end, when the pulse has left it, beside the
-  long channel's own (`reference_remaining`: the scheme's numerical tail).
+  downwind cells feel the outflow's copied ghost cells: measured and reported, no
+  claim. `remaining` is the largest departure from the background left in the channel
+  at the end, when the pulse has left it, beside the long channel's own
+  (`reference_remaining`: the scheme's numerical tail).
 
 A run that grows past DIVERGENCE_FACTOR times its initial maximum or leaves the finite
 numbers stops there; that disagrees where the analysis claims stability at c.
@@ -53,6 +59,8 @@ from .splitting import split_step
 KINDS = ("wall", "open")
 CELLS_1D = 100
 CELLS_2D = 24
+CELLS_3D = 16
+CELLS = {1: CELLS_1D, 2: CELLS_2D, 3: CELLS_3D}
 BACKGROUND, AMPLITUDE = 0.2, 0.8
 TRAVEL = 1.3                 # channel lengths the pulse travels: its tail leaves by 1.15
 TIDES = 2
@@ -108,9 +116,9 @@ def _check_steps(steps: int) -> int:
 
 def boundary_steps(courant: float) -> int:
     """The most steps any boundary case takes at this Courant number (checked before work)."""
-    return _check_steps(max(math.ceil(TRAVEL * CELLS_1D / courant),
-                            math.ceil(TRAVEL * CELLS_2D / (SLOWEST * courant)),
-                            math.ceil(TIDES * CELLS_1D / courant)))
+    channels = (math.ceil(TRAVEL * n / ((1.0 if dims == 1 else SLOWEST) * courant))
+                for dims, n in CELLS.items())
+    return _check_steps(max(*channels, math.ceil(TIDES * CELLS_1D / courant)))
 
 
 class _Watch:
@@ -129,106 +137,119 @@ class _Watch:
         return False
 
 
+# ---- shared by the cases -----------------------------------------------------------------
+
+def _centres(n: int) -> np.ndarray:
+    return (np.arange(n) + 0.5) / n
+
+
+def _pulse(n: int, dims: int, centre: tuple[float, ...], width: float) -> np.ndarray:
+    """The bell on n^dims cells of the unit line, square or cube, round `centre`."""
+    coords = np.meshgrid(*(_centres(n),) * dims, indexing="ij")
+    if dims == 1:
+        return _bell(coords[0], centre[0], width)
+    distance = np.hypot(coords[0] - centre[0], coords[1] - centre[1])
+    for axis in range(2, dims):
+        distance = np.hypot(distance, coords[axis] - centre[axis])
+    return _bell(distance, 0.0, width)
+
+
+def _advance(sweep: EdgeSweep, q: np.ndarray, faces, courant: float, edges, method: str,
+             step: int) -> np.ndarray:
+    """One step: the sweep itself on a line, split sweeps (`method`) in 2-D and 3-D."""
+    if q.ndim == 1:
+        return sweep(0, q, faces[0], courant, edges)
+    return split_step(lambda axis, arr, fraction: sweep(axis, arr, faces[axis],
+                                                        fraction * courant, edges),
+                      q, method, step)
+
+
+def _box(h: int, extents) -> tuple[slice, ...]:
+    """The interior of a padded array whose interior starts at `h` on every axis."""
+    return tuple(slice(h, h + m) for m in extents)
+
+
 # ---- open: the channel ----------------------------------------------------------------------
 
-def channel_1d(sweep: EdgeSweep, courant: float, direction: int = 1,
-               n: int = CELLS_1D) -> BoundaryRun:
-    """A pulse carried out of a channel at speed 1 (direction +1: left to right)."""
-    name = "channel_right" if direction > 0 else "channel_left"
-    x = (np.arange(n) + 0.5) / n
-    q0 = _bell(x, 0.25 if direction > 0 else 0.75, 0.3)
-    steps = _check_steps(math.ceil(TRAVEL * n / courant))
+SLOWEST = 0.75
+CHANNEL_PULSE = {1: ((0.25,), 0.3), 2: ((0.25, 0.5), 0.5), 3: ((0.25, 0.5, 0.5), 0.5)}
+"""Per dimension: the pulse's centre (flow from left to right) and its width."""
+CHANNEL_TEXT = {
+    1: "a cosine-squared pulse on a background leaves a channel through a zero-gradient "
+       "outflow; background prescribed at the inflow",
+    2: "a 2-D pulse leaves a channel (walls along its sides) in a shear flow, {method} "
+       "splitting",
+    3: "a 3-D pulse leaves a square duct (walls on its four sides) in a shear flow, {method} "
+       "splitting",
+}
+
+
+def _channel_flow(n: int, dims: int) -> np.ndarray | float:
+    """Along-channel speed across it (axes 1 and up): SLOWEST at the walls, 1 in the middle
+    (1 everywhere on a line)."""
+    if dims == 1:
+        return 1.0
+    across = np.meshgrid(*(_centres(n),) * (dims - 1), indexing="ij")
+    profile = np.sin(np.pi * across[0])
+    for coord in across[1:]:
+        profile = profile * np.sin(np.pi * coord)
+    return SLOWEST + (1 - SLOWEST) * profile
+
+
+def _channel_name(dims: int, direction: int) -> str:
+    if dims == 1:
+        return "channel_right" if direction > 0 else "channel_left"
+    return f"channel_{dims}d" + ("" if direction > 0 else "_left")
+
+
+def channel(sweep: EdgeSweep, courant: float, dims: int = 1, method: str = "strang",
+            direction: int = 1, n: int | None = None) -> BoundaryRun:
+    """A pulse carried out of a channel along axis 0 (direction +1: left to right), walls on
+    the other axes, against the same run in a channel 1 + DOWNSTREAM times as long."""
+    n = CELLS[dims] if n is None else n
+    centre, width = CHANNEL_PULSE[dims]
+    if direction < 0:
+        centre = (1 - centre[0],) + centre[1:]
+    q0 = _pulse(n, dims, centre, width)
+    slowest = 1.0 if dims == 1 else SLOWEST
+    steps = _check_steps(math.ceil(TRAVEL * n / (slowest * courant)))
     inflow, outflow = Edge("inflow", BACKGROUND), Edge("outflow")
-    edges = ((inflow, outflow),) if direction > 0 else ((outflow, inflow),)
-    u = np.full(n + 1, float(direction), sweep.dtype)
-    faces = extend_faces(sweep.fills, u, 0, sweep.face_halo, edges)
+    ends = (inflow, outflow) if direction > 0 else (outflow, inflow)
+    edges = (ends,) + ((Edge("wall"), Edge("wall")),) * (dims - 1)
+    speed = direction * _channel_flow(n, dims)
+
+    def faces(cells: int):
+        extents = (cells,) + (n,) * (dims - 1)
+        u = [np.broadcast_to(speed, (cells + 1,) + extents[1:]).astype(sweep.dtype)]
+        u += [np.zeros(extents[:b] + (n + 1,) + extents[b + 1:], sweep.dtype)
+              for b in range(1, dims)]
+        return [extend_faces(sweep.fills, u[a], a, sweep.face_halo, edges)
+                for a in range(dims)]
+
     q = sweep.padded(q0.astype(sweep.dtype))
     # the long channel: the same inflow, its outflow DOWNSTREAM channel lengths further on
     first = 0 if direction > 0 else DOWNSTREAM * n
     total = (1 + DOWNSTREAM) * n
-    long0 = np.full(total, BACKGROUND)
-    long0[first:first + n] = q0
-    long_edges = edges
-    long_faces = extend_faces(sweep.fills, np.full(total + 1, float(direction), sweep.dtype), 0,
-                              sweep.face_halo, long_edges)
-    reference = sweep.padded(long0.astype(sweep.dtype))
-    h = sweep.halo
-    watch, exit_difference, stopped = _Watch(q0), 0.0, None
-    for step in range(1, steps + 1):
-        sweep(0, q, faces, courant, edges)
-        sweep(0, reference, long_faces, courant, long_edges)
-        inside = q[h:h + n]
-        if watch.bad(inside) or watch.bad(reference[h:h + total]):
-            stopped = step
-            break
-        exit_difference = max(exit_difference,
-                              float(np.max(np.abs(inside - reference[h + first:h + first + n]))))
-    inside = q[h:h + n]
-    return BoundaryRun(
-        name, "open", 1, n, steps, courant,
-        "a cosine-squared pulse on a background leaves a channel through a zero-gradient "
-        "outflow; background prescribed at the inflow",
-        exit_difference=exit_difference / AMPLITUDE,
-        reflection=float(np.max(np.abs(inside - reference[h + first:h + first + n]))) / AMPLITUDE,
-        remaining=float(np.max(np.abs(inside - BACKGROUND))) / AMPLITUDE,
-        reference_remaining=float(np.max(np.abs(reference[h + first:h + first + n]
-                                                - BACKGROUND))) / AMPLITUDE,
-        min=watch.low, max=watch.high, diverged_at=stopped)
-
-
-SLOWEST = 0.75
-
-
-def _channel_flow(y: np.ndarray) -> np.ndarray:
-    """Along-channel speed across it: SLOWEST at the walls, 1 in the middle."""
-    return SLOWEST + (1 - SLOWEST) * np.sin(np.pi * y)
-
-
-def channel_2d(sweep: EdgeSweep, courant: float, method: str, n: int = CELLS_2D) -> BoundaryRun:
-    """A 2-D pulse carried out of a channel (x: inflow, outflow; y: walls) by a shear flow."""
-    x = (np.arange(n) + 0.5) / n
-    X, Y = np.meshgrid(x, x, indexing="ij")
-    q0 = BACKGROUND + (_bell(np.hypot(X - 0.25, Y - 0.5), 0.0, 0.5) - BACKGROUND)
-    steps = _check_steps(math.ceil(TRAVEL * n / (SLOWEST * courant)))
-    wall = (Edge("wall"), Edge("wall"))
-    edges = ((Edge("inflow", BACKGROUND), Edge("outflow")), wall)
-    total = (1 + DOWNSTREAM) * n
-    long_edges = edges
-    speed = _channel_flow(x)
-
-    def faces(cells: int, with_edges):
-        u = np.broadcast_to(speed, (cells + 1, n)).astype(sweep.dtype)
-        v = np.zeros((cells, n + 1), sweep.dtype)
-        return (extend_faces(sweep.fills, u, 0, sweep.face_halo, with_edges),
-                extend_faces(sweep.fills, v, 1, sweep.face_halo, with_edges))
-
-    q = sweep.padded(q0.astype(sweep.dtype))
-    long0 = np.full((total, n), BACKGROUND)
-    first = 0
+    long0 = np.full((total,) + (n,) * (dims - 1), BACKGROUND)
     long0[first:first + n] = q0
     reference = sweep.padded(long0.astype(sweep.dtype))
-    short_faces, long_faces = faces(n, edges), faces(total, long_edges)
+    short_faces, long_faces = faces(n), faces(total)
     h = sweep.halo
+    box = _box(h, q0.shape)
+    beside = (slice(h + first, h + first + n),) + box[1:]
     watch, exit_difference, stopped = _Watch(q0), 0.0, None
     for step in range(1, steps + 1):
-        q = split_step(lambda axis, a, fraction: sweep(axis, a, short_faces[axis],
-                                                       fraction * courant, edges), q, method,
-                       step - 1)
-        reference = split_step(lambda axis, a, fraction: sweep(axis, a, long_faces[axis],
-                                                               fraction * courant, long_edges),
-                               reference, method, step - 1)
-        inside = q[h:h + n, h:h + n]
-        if watch.bad(inside) or watch.bad(reference[h:h + total, h:h + n]):
+        q = _advance(sweep, q, short_faces, courant, edges, method, step - 1)
+        reference = _advance(sweep, reference, long_faces, courant, edges, method, step - 1)
+        inside = q[box]
+        if watch.bad(inside) or watch.bad(reference[_box(h, long0.shape)]):
             stopped = step
             break
-        exit_difference = max(exit_difference, float(np.max(np.abs(
-            inside - reference[h + first:h + first + n, h:h + n]))))
-    inside = q[h:h + n, h:h + n]
-    alongside = reference[h + first:h + first + n, h:h + n]
+        exit_difference = max(exit_difference, float(np.max(np.abs(inside - reference[beside]))))
+    inside, alongside = q[box], reference[beside]
     return BoundaryRun(
-        "channel_2d", "open", 2, n, steps, courant,
-        f"a 2-D pulse leaves a channel (walls along its sides) in a shear flow, {method} "
-        "splitting",
+        _channel_name(dims, direction), "open", dims, n, steps, courant,
+        CHANNEL_TEXT[dims].format(method=method),
         exit_difference=exit_difference / AMPLITUDE,
         reflection=float(np.max(np.abs(inside - alongside))) / AMPLITUDE,
         remaining=float(np.max(np.abs(inside - BACKGROUND))) / AMPLITUDE,
@@ -236,7 +257,50 @@ def channel_2d(sweep: EdgeSweep, courant: float, method: str, n: int = CELLS_2D)
         min=watch.low, max=watch.high, diverged_at=stopped)
 
 
+def channel_1d(sweep: EdgeSweep, courant: float, direction: int = 1,
+               n: int = CELLS_1D) -> BoundaryRun:
+    """A pulse carried out of a channel at speed 1 (direction +1: left to right)."""
+    return channel(sweep, courant, 1, direction=direction, n=n)
+
+
+def channel_2d(sweep: EdgeSweep, courant: float, method: str, n: int = CELLS_2D) -> BoundaryRun:
+    """A 2-D pulse carried out of a channel (x: inflow, outflow; y: walls) by a shear flow."""
+    return channel(sweep, courant, 2, method, n=n)
+
+
+def channel_3d(sweep: EdgeSweep, courant: float, method: str, n: int = CELLS_3D) -> BoundaryRun:
+    """A 3-D pulse carried out of a square duct (x: inflow, outflow; y, z: walls)."""
+    return channel(sweep, courant, 3, method, n=n)
+
+
 # ---- wall: the basin ---------------------------------------------------------------------
+
+BASIN_PULSE = {1: ((0.7,), 0.4), 2: ((0.7, 0.6), 0.6), 3: ((0.7, 0.6, 0.4), 0.6)}
+"""Per dimension: the pulse's centre and width."""
+BASIN_CURRENT = (1.0, 0.6, 0.8)
+"""The tidal current's speed along each axis (a diagonal current; c is axis 0's Courant
+number, the largest)."""
+FLOWS = ("tide", "circulation")
+"""The basin's flows: a uniform tidal current, nonzero up to the walls (the faces helper
+zeroes the wall faces), or a closed circulation (2-D, 3-D: the deformational flows of the
+split cases, divergence-free with zero normal velocity on every wall face)."""
+BASIN_NAME = {("tide", 1): "basin", ("tide", 2): "basin_2d", ("tide", 3): "basin_3d",
+              ("circulation", 2): "box_2d", ("circulation", 3): "box_3d"}
+BASIN_TEXT = {
+    ("tide", 1): "a pulse sloshed against the walls of a closed basin by a reversing "
+                 "current, {tides} tides",
+    ("tide", 2): "a 2-D pulse sloshed against the four walls of a closed basin by a "
+                 "reversing diagonal current, {tides} tides, {method} splitting",
+    ("tide", 3): "a 3-D pulse sloshed against the six walls of a closed box by a "
+                 "reversing diagonal current, {tides} tides, {method} splitting",
+    ("circulation", 2): "a 2-D pulse carried round a closed square by the swirling flow "
+                        "(zero normal velocity on every wall), which reverses and undoes "
+                        "itself, {method} splitting",
+    ("circulation", 3): "a 3-D pulse carried round a closed box by the deformational flow "
+                        "(zero normal velocity on every wall), which reverses and undoes "
+                        "itself, {method} splitting",
+}
+
 
 def _tide(step: int, steps: int) -> float:
     """The tidal current at the middle of a step: TIDES periods over the run."""
@@ -250,86 +314,99 @@ def _mirrored_faces(base: np.ndarray, axis: int) -> np.ndarray:
     return np.moveaxis(image, -1, axis)
 
 
-def basin_1d(sweep: EdgeSweep, courant: float, n: int = CELLS_1D) -> BoundaryRun:
-    x = (np.arange(n) + 0.5) / n
-    q0 = _bell(x, 0.7, 0.4)
+def _image_faces(base: np.ndarray, axis: int, dims: int) -> np.ndarray:
+    """Faces normal to `axis` of the domain mirrored across its high end on every axis:
+    negated where reflected along `axis`, the same across the others; walls' faces zero."""
+    walled = np.moveaxis(base.copy(), axis, 0)
+    walled[0] = walled[-1] = 0.0
+    mirrored = _mirrored_faces(np.moveaxis(walled, 0, axis), axis)
+    for other in range(dims):
+        if other != axis:
+            mirrored = np.concatenate((mirrored, np.flip(mirrored, other)), axis=other)
+    return np.ascontiguousarray(mirrored)
+
+
+def _tidal_current(n: int, dims: int, courant: float, method: str, dtype):
+    """(steps, dt/dx, largest Courant number, faces of step k) of the tide."""
     steps = _check_steps(math.ceil(TIDES * n / courant))
-    walls = ((Edge("wall"), Edge("wall")),)
-    periodic = ((Edge("periodic"), Edge("periodic")),)
+
+    def faces(step: int) -> list[np.ndarray]:
+        tide = _tide(step, steps)
+        return [np.full((n,) * a + (n + 1,) + (n,) * (dims - 1 - a), BASIN_CURRENT[a] * tide,
+                        dtype) for a in range(dims)]
+    return steps, courant, courant, faces
+
+
+def _circulation(n: int, dims: int, courant: float, method: str, dtype):
+    """The same for the closed circulation: one period of the flow at (at most) c."""
+    from .multidim.cases import step_count
+    from .multidim.flows import SWIRL
+    from .multidim.flows3d import DEFORMATION
+
+    flow = {2: SWIRL, 3: DEFORMATION}[dims]
+    steps = _check_steps(step_count(flow, n, courant, method))
+    dt = flow.period / steps
+    base = flow.face_velocities(n)
+
+    def faces(step: int) -> list[np.ndarray]:
+        g = flow.time_factor((step + 0.5) * dt)
+        return [(f * g).astype(dtype) for f in base]
+    return steps, dt * n, flow.max_speed(n) * dt * n, faces
+
+
+def basin(sweep: EdgeSweep, courant: float, dims: int = 1, method: str = "strang",
+          n: int | None = None, flow: str = "tide") -> BoundaryRun:
+    """A pulse carried by `flow` in a closed basin (walls on every axis), with the periodic
+    run of the domain mirrored across its walls beside it."""
+    n = CELLS[dims] if n is None else n
+    q0 = _pulse(n, dims, *BASIN_PULSE[dims])
+    current = _tidal_current if flow == "tide" else _circulation
+    steps, dt_dx, used, faces_of = current(n, dims, courant, method, sweep.dtype)
+    walls = ((Edge("wall"), Edge("wall")),) * dims
+    periodic = ((Edge("periodic"), Edge("periodic")),) * dims
     q = sweep.padded(q0.astype(sweep.dtype))
-    image = sweep.padded(np.concatenate((q0, q0[::-1])).astype(sweep.dtype))
+    full = q0
+    for axis in range(dims):
+        full = np.concatenate((full, np.flip(full, axis)), axis=axis)
+    image = sweep.padded(full.astype(sweep.dtype))
     h, total, scale = sweep.halo, float(np.sum(q0)), float(np.max(np.abs(q0)))
+    box = _box(h, q0.shape)
     watch, drift, mismatch, stopped = _Watch(q0), 0.0, 0.0, None
     for step in range(1, steps + 1):
-        u = np.full(n + 1, _tide(step - 1, steps), sweep.dtype)
-        faces = extend_faces(sweep.fills, u, 0, sweep.face_halo, walls)
-        walled = u.copy()
-        walled[0] = walled[-1] = 0.0
-        image_faces = extend_faces(sweep.fills, _mirrored_faces(walled, 0), 0, sweep.face_halo,
-                                   periodic)
-        sweep(0, q, faces, courant, walls)
-        sweep(0, image, image_faces, courant, periodic)
-        inside = q[h:h + n]
-        if watch.bad(inside) or watch.bad(image[h:h + 2 * n]):
+        base = faces_of(step - 1)
+        faces = [extend_faces(sweep.fills, base[a], a, sweep.face_halo, walls)
+                 for a in range(dims)]
+        image_faces = [extend_faces(sweep.fills, _image_faces(base[a], a, dims), a,
+                                    sweep.face_halo, periodic) for a in range(dims)]
+        q = _advance(sweep, q, faces, dt_dx, walls, method, step - 1)
+        image = _advance(sweep, image, image_faces, dt_dx, periodic, method, step - 1)
+        inside = q[box]
+        if watch.bad(inside) or watch.bad(image[_box(h, full.shape)]):
             stopped = step
             break
         drift = max(drift, abs(float(np.sum(inside, dtype=np.float64)) - total) / abs(total))
-        mismatch = max(mismatch, float(np.max(np.abs(inside - image[h:h + n]))) / scale)
+        mismatch = max(mismatch, float(np.max(np.abs(inside - image[box]))) / scale)
     return BoundaryRun(
-        "basin", "wall", 1, n, steps, courant,
-        f"a pulse sloshed against the walls of a closed basin by a reversing current, "
-        f"{TIDES} tides",
+        BASIN_NAME[flow, dims], "wall", dims, n, steps, used,
+        BASIN_TEXT[flow, dims].format(tides=TIDES, method=method),
         mass_drift=drift, image_mismatch=mismatch, min=watch.low, max=watch.high,
         diverged_at=stopped)
+
+
+def basin_1d(sweep: EdgeSweep, courant: float, n: int = CELLS_1D) -> BoundaryRun:
+    return basin(sweep, courant, 1, n=n)
 
 
 def basin_2d(sweep: EdgeSweep, courant: float, method: str, n: int = CELLS_2D) -> BoundaryRun:
-    x = (np.arange(n) + 0.5) / n
-    X, Y = np.meshgrid(x, x, indexing="ij")
-    q0 = _bell(np.hypot(X - 0.7, Y - 0.6), 0.0, 0.6)
-    steps = _check_steps(math.ceil(TIDES * n / courant))
-    walls = ((Edge("wall"), Edge("wall")),) * 2
-    periodic = ((Edge("periodic"), Edge("periodic")),) * 2
-    q = sweep.padded(q0.astype(sweep.dtype))
-    full = np.concatenate((q0, q0[::-1]), axis=0)
-    image = sweep.padded(np.concatenate((full, full[:, ::-1]), axis=1).astype(sweep.dtype))
-    h, total, scale = sweep.halo, float(np.sum(q0)), float(np.max(np.abs(q0)))
-    watch, drift, mismatch, stopped = _Watch(q0), 0.0, 0.0, None
-    speeds = (1.0, 0.6)   # a diagonal current; c is the larger axis' Courant number
-    for step in range(1, steps + 1):
-        tide = _tide(step - 1, steps)
-        base = (np.full((n + 1, n), speeds[0] * tide, sweep.dtype),
-                np.full((n, n + 1), speeds[1] * tide, sweep.dtype))
-        faces = [extend_faces(sweep.fills, base[a], a, sweep.face_halo, walls) for a in (0, 1)]
-        image_faces = []
-        for a in (0, 1):
-            walled = np.moveaxis(base[a].copy(), a, 0)
-            walled[0] = walled[-1] = 0.0
-            walled = np.moveaxis(walled, 0, a)
-            mirrored = _mirrored_faces(walled, a)                  # reflected along a: negated
-            other = 1 - a
-            mirrored = np.concatenate((mirrored, np.flip(mirrored, other)), axis=other)
-            image_faces.append(extend_faces(sweep.fills, np.ascontiguousarray(mirrored), a,
-                                            sweep.face_halo, periodic))
-        q = split_step(lambda axis, arr, fraction: sweep(axis, arr, faces[axis],
-                                                         fraction * courant, walls),
-                       q, method, step - 1)
-        image = split_step(lambda axis, arr, fraction: sweep(axis, arr, image_faces[axis],
-                                                             fraction * courant, periodic),
-                           image, method, step - 1)
-        inside = q[h:h + n, h:h + n]
-        if watch.bad(inside) or watch.bad(image[h:h + 2 * n, h:h + 2 * n]):
-            stopped = step
-            break
-        drift = max(drift, abs(float(np.sum(inside, dtype=np.float64)) - total) / abs(total))
-        mismatch = max(mismatch, float(np.max(np.abs(inside - image[h:h + n, h:h + n]))) / scale)
-    return BoundaryRun(
-        "basin_2d", "wall", 2, n, steps, courant,
-        f"a 2-D pulse sloshed against the four walls of a closed basin by a reversing "
-        f"diagonal current, {TIDES} tides, {method} splitting",
-        mass_drift=drift, image_mismatch=mismatch, min=watch.low, max=watch.high,
-        diverged_at=stopped)
+    return basin(sweep, courant, 2, method, n)
 
+
+def basin_3d(sweep: EdgeSweep, courant: float, method: str, n: int = CELLS_3D) -> BoundaryRun:
+    return basin(sweep, courant, 3, method, n)
+
+
+def box_3d(sweep: EdgeSweep, courant: float, method: str, n: int = CELLS_3D) -> BoundaryRun:
+    return basin(sweep, courant, 3, method, n, flow="circulation")
 
 # ---- verification ------------------------------------------------------------------------------
 
@@ -354,21 +431,24 @@ class BoundaryVerification:
 
 
 def measure_boundary(scheme, kind: str, backend: str, precision: str, courant: float,
-                     dims: int = 1, method: str = "strang", progress=None) -> tuple[BoundaryRun, ...]:
+                     dims: int = 1, method: str = "strang",
+                     progress=None) -> tuple[BoundaryRun, ...]:
     say = progress or (lambda message: None)
     sweep = BoundarySweep(scheme, backend, precision)
     runs = []
     if kind == "wall":
         say("boundary: wall-bounded basin")
-        runs.append(basin_1d(sweep, courant))
+        runs.append(basin(sweep, courant))
         if dims > 1:
-            runs.append(basin_2d(sweep, courant, method))
+            runs.append(basin(sweep, courant, dims, method))
+        if dims == 3:
+            runs.append(basin(sweep, courant, dims, method, flow="circulation"))
     else:
         say("boundary: inflow/outflow channel")
-        runs.append(channel_1d(sweep, courant, +1))
-        runs.append(channel_1d(sweep, courant, -1))
+        runs.append(channel(sweep, courant, direction=+1))
+        runs.append(channel(sweep, courant, direction=-1))
         if dims > 1:
-            runs.append(channel_2d(sweep, courant, method))
+            runs.append(channel(sweep, courant, dims, method))
     return tuple(runs)
 
 

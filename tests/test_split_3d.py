@@ -183,7 +183,7 @@ def test_a_leaky_3d_sweep_is_caught(monkeypatch):
 
 
 @pytest.mark.parametrize("args, message", [
-    (["--boundary", "open"], "--boundary open with --dims 3"),
+    (["--grid", "stretched"], "--grid stretched with --dims 3"),
 ])
 def test_verify_dims_3_refuses_what_is_not_built(capsys, args, message):
     assert main(["verify", str(EXAMPLES / "upwind.loom"), "--dims", "3", *args]) == 2

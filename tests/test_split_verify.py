@@ -75,7 +75,6 @@ def test_check_refuses_bad_dims(capsys, args, message):
 
 @pytest.mark.parametrize("args, message", [
     (["--dims", "2", "--grid", "stretched"], "--grid stretched with --dims 2"),
-    (["--dims", "3", "--boundary", "wall"], "--boundary wall with --dims 3"),
     (["--dims", "3", "--grid", "perturbed"], "--grid perturbed with --dims 3"),
     (["--split", "strang"], "give --dims 2 or 3"),
 ])

@@ -67,7 +67,7 @@ def add_split_options(parser) -> None:
     parser.add_argument("--boundary", choices=BOUNDARIES, default="periodic",
                         help="domain edges: periodic (default), wall (also a wall-bounded "
                              "basin: mass drift, mirror image) or open (also an inflow/outflow "
-                             "channel: outflow reflection); 2-D cases too with --dims 2")
+                             "channel: outflow reflection); 2-D or 3-D cases too with --dims 2 or 3")
 
 
 def check_split_options(args) -> tuple[int, str | None]:
@@ -79,10 +79,6 @@ def check_split_options(args) -> tuple[int, str | None]:
         raise LoomError(f"--grid {args.grid} with --dims {dims}: the {dims}-D cases run on "
                         "uniform cells; --grid measures 1-D convergence on non-uniform cells",
                         file="--grid")
-    if dims == 3 and args.boundary != "periodic":
-        raise LoomError(f"--boundary {args.boundary} with --dims 3: the 3-D cases run on a "
-                        "periodic cube; the wall and open cases run in 1-D and 2-D "
-                        "(--dims 1 or 2)", file="--boundary")
     return dims, method
 
 
