@@ -257,21 +257,11 @@ def _shared_kernel(scheme: Scheme, backend: str, precision: str, opt: str | None
     its sweep where the emitter says it exports one (`SWEEPS`: NAME_sweep_edges and the
     header's SWEEP_* features, as the C kernel), else `Kernel.sweep` is unavailable.
     openmp: built with the compiler's OpenMP flag too, where the emitter names one."""
-    from fluxloom.compiler.emit.c import c_declarations
-
     from .array_sweep import c_sweep_runner
-    from .build import compile_shared
 
     emitter = targets.target(backend).emitter()
-    (source,) = emitter.files(scheme, precision).values()
     sweeps = getattr(emitter, "SWEEPS", False)
-    declarations = (c_declarations(scheme, precision) if sweeps
-                    else step_declarations(scheme, precision))
-    command = tuple(emitter.COMPILE)
-    if openmp and getattr(emitter, "OPENMP", None):
-        command += (emitter.OPENMP,)
-    ffi, lib = compile_shared(f"{scheme.name}_{backend}", source, emitter.SOURCE_SUFFIX,
-                              command, declarations)
+    ffi, lib = shared_library(scheme, backend, precision, openmp)
     if not sweeps:
         return _abi_kernel(scheme, backend, precision, ffi, lib)
     kernel = _abi_kernel(scheme, backend, precision, ffi, lib,
@@ -280,6 +270,24 @@ def _shared_kernel(scheme: Scheme, backend: str, precision: str, opt: str | None
                          bool(getattr(lib, f"{scheme.name}_SWEEP_THICKNESS")))
     kernel.threads = getattr(lib, exported_symbol(scheme.name, "sweep_threads", precision))
     return kernel
+
+
+def shared_library(scheme: Scheme, backend: str, precision: str, openmp: bool = False):
+    """(ffi, lib) of a "shared" target's library (built once, then cached): the C header's
+    declarations over it, the sweep's and halo fills' where the emitter exports them."""
+    from fluxloom.compiler.emit.c import c_declarations
+
+    from .build import compile_shared
+
+    emitter = targets.target(backend).emitter()
+    (source,) = emitter.files(scheme, precision).values()
+    declarations = (c_declarations(scheme, precision) if getattr(emitter, "SWEEPS", False)
+                    else step_declarations(scheme, precision))
+    command = tuple(emitter.COMPILE)
+    if openmp and getattr(emitter, "OPENMP", None):
+        command += (emitter.OPENMP,)
+    return compile_shared(f"{scheme.name}_{backend}", source, emitter.SOURCE_SUFFIX, command,
+                          declarations)
 
 
 def step_declarations(scheme: Scheme, precision: str) -> str:

@@ -26,6 +26,8 @@ from ..constants import nearest, shortest_text
 from ..ir import Scheme
 from ..symbols import C, R, LimiterApplication, limiter_name_of, q
 from ..upwind import both_cells
+from .c import FLUX_BLOCK
+from .c import FLUX_SCRATCH as C_FLUX_SCRATCH
 from .environment import render
 from .fortran import ConstantPrinter, comment_lines, fortran_identifier
 from .limited import FLOOR_EXPONENT, LimiterFormCall
@@ -433,17 +435,20 @@ def _weighted_calls(plan) -> list[dict]:
     return calls
 
 
-def _sweep_work(name: str, plan, printer: FortranKernelPrinter) -> tuple[str, ...]:
+def _sweep_work(plan, printer: FortranKernelPrinter) -> tuple[str, ...]:
     """NAME_sweep_workspace_size as the C sweep counts it (compiler/emit/templates/
-    c_sweep.c.j2; tests hold the two equal): the line and its result, its faces, dt/dx and
-    thicknesses, the inflow values, then the larger of a step's workspace and the stages'
-    own arrays (thickness weighted: mass and thickness of two stages and their registers)."""
+    c_sweep.c.j2; tests hold the two equal), so one array serves both: the line and its
+    result, its faces, dt/dx and thicknesses, the inflow values, then the larger of the C
+    step's workspace and the stages' own arrays (thickness weighted: mass and thickness of
+    two stages and their registers). The stages' part holds this module's step workspace
+    (n + 1 fluxes, the registers, two stage lines), which the sweep hands its step."""
     registers = plan.registers
+    step = print_affine(workspace_layout(plan, C_FLUX_SCRATCH).size, "n", "nh", str(FLUX_BLOCK))
     stages = ("0_c_size_t" if plan.fct else
               f"2 * (n + 2 * nh) + 2 * (n + 1) + n + 2 + {registers} * n"
               f" + (5 + 2 * {registers}) * n")
     return printer.wrap(f"reals = 2 * (n + 2 * nh) + n + 1 + 2 * nfh + 3 * n + 4 + 2 * nh"
-                        f" + max({name}_workspace_size(n), {stages})")
+                        f" + max(int({step}, c_size_t), {stages})")
 
 
 def fortran_sweep_context(plan, printer: FortranKernelPrinter) -> dict:
@@ -468,7 +473,7 @@ def fortran_sweep_context(plan, printer: FortranKernelPrinter) -> dict:
                 if edges else [])
     return {"direct": direct, "edges": edges, "uses_c": plan.flux.uses_c,
             "stage_buffers": stage_buffers(plan),
-            "work": () if direct else _sweep_work(plan.name, plan, printer),
+            "work": () if direct else _sweep_work(plan, printer),
             "lines_arguments": lines[0], "lines_call": lines[1],
             "line_arguments": line, "line_work": line_work,
             "weighted_stages": weighted, "weighted_calls": _weighted_calls(plan) if edges else []}
