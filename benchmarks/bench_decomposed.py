@@ -63,20 +63,10 @@ def rank_program_2d(spec: str, backend: str, cells: int, steps: int) -> None:
     q[h:h + side, h:h + side] = np.sin(2 * np.pi * x)[:, None] * np.cos(2 * np.pi * y)[None, :]
     faces = [np.full((side + 1 + 2 * f, side), 0.6), np.full((side, side + 1 + 2 * f), -0.4)]
     dt_dx = 0.5 / 0.6
-    for k in range(2):  # warm up (first touch, caches)
-        q = domain.split_step(q, faces, dt_dx, "lie", k)
-    comm.Barrier()
-    exchange_time[0] = 0.0
-    begin = time.perf_counter()
-    for k in range(steps):
-        q = domain.split_step(q, faces, dt_dx, "lie", k)
-    elapsed = time.perf_counter() - begin
-    rows = comm.gather((elapsed, exchange_time[0]), root=0)
-    if comm.Get_rank() == 0:
-        slowest = max(rows)
-        print(json.dumps({"seconds_per_step": slowest[0] / steps,
-                          "exchange_seconds_per_step": slowest[1] / steps,
-                          "cells": side * side, "grid": list(dims)}))
+    found = _timed_steps(comm, lambda v, k: domain.split_step(v, faces, dt_dx, "lie", k), q,
+                         steps, exchange_time)
+    if found is not None:
+        print(json.dumps(found | {"cells": side * side, "grid": list(dims)}))
 
 
 def _timed_exchanges(domain) -> list[float]:
@@ -93,6 +83,25 @@ def _timed_exchanges(domain) -> list[float]:
     return exchange_time
 
 
+def _timed_steps(comm, advance, q, steps: int, exchange_time: list[float]) -> dict | None:
+    """Seconds per step of `advance(q, k)` (and of its exchanges) on the slowest process,
+    after two warm-up steps (first touch, caches); on rank 0, else None."""
+    for k in range(2):
+        q = advance(q, k)
+    comm.Barrier()
+    exchange_time[0] = 0.0
+    begin = time.perf_counter()
+    for k in range(steps):
+        q = advance(q, k)
+    elapsed = time.perf_counter() - begin
+    rows = comm.gather((elapsed, exchange_time[0]), root=0)
+    if comm.Get_rank() != 0:
+        return None
+    slowest = max(rows)
+    return {"seconds_per_step": slowest[0] / steps,
+            "exchange_seconds_per_step": slowest[1] / steps}
+
+
 def rank_program(spec: str, backend: str, cells: int, steps: int) -> None:
     import numpy as np
     from mpi4py import MPI
@@ -106,15 +115,7 @@ def rank_program(spec: str, backend: str, cells: int, steps: int) -> None:
     size = comm.Get_size()
     kernel = load_stage_kernel(load_scheme(spec), backend)
     domain = DecomposedDomain(kernel, Layout(((cells,) * size,), (True,)), comm)
-    exchange_time = [0.0]
-    for name in ("cells", "faces"):
-        original = getattr(domain.exchange, name)
-
-        def timed(*args, _original=original):
-            start = time.perf_counter()
-            _original(*args)
-            exchange_time[0] += time.perf_counter() - start
-        setattr(domain.exchange, name, timed)
+    exchange_time = _timed_exchanges(domain)
     x = (domain.block.start[0] + np.arange(cells) + 0.5) / (cells * size)
     q = domain.local_cells(np.zeros(cells * size))
     q[kernel.halo:kernel.halo + cells] = np.sin(2 * np.pi * x)
@@ -122,19 +123,10 @@ def rank_program(spec: str, backend: str, cells: int, steps: int) -> None:
     faces[kernel.face_halo:kernel.face_halo + cells + 1] = 0.5 + 0.4 * np.sin(
         2 * np.pi * (domain.block.start[0] + np.arange(cells + 1)) / (cells * size))
     dt_dx = 0.5 / 0.9
-    for _ in range(2):  # warm up (first touch, caches)
-        q = domain.step(q, faces, dt_dx)
-    comm.Barrier()
-    exchange_time[0] = 0.0
-    start = time.perf_counter()
-    for _ in range(steps):
-        q = domain.step(q, faces, dt_dx)
-    elapsed = time.perf_counter() - start
-    rows = comm.gather((elapsed, exchange_time[0]), root=0)
-    if comm.Get_rank() == 0:
-        slowest = max(rows)
-        print(json.dumps({"seconds_per_step": slowest[0] / steps,
-                          "exchange_seconds_per_step": slowest[1] / steps}))
+    found = _timed_steps(comm, lambda v, k: domain.step(v, faces, dt_dx), q, steps,
+                         exchange_time)
+    if found is not None:
+        print(json.dumps(found))
 
 
 def measure(spec: Path, backend: str, cells: int, steps: int, ranks: int, dims: int = 1) -> dict:

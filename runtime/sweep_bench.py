@@ -1,6 +1,6 @@
 """`fluxloom bench FILE --dims 2`: the generated NAME_sweep on a 2-D array, measured.
 
-On an n x n array (4096 by default, halo 2) with a solid-body rotation's face velocities
+On an n x n array (4096 by default, the scheme's halo) with a solid-body rotation's face velocities
 (every sweep sees both signs): each axis's generated sweep against the hand-written plain
 C sweeps of the same scheme (benchmarks/handwritten_sweep.c, only where the scheme is the
 van Leer limited Lax-Wendroff scheme) and a 2-D streaming copy of the array; the sweeps
@@ -22,7 +22,6 @@ from fluxloom.compiler.emit.plan import exported_symbol
 
 from . import build
 
-HALO = 2
 OPT = "-O2"
 TARGETS = {"vs_handwritten": 2.0, "vs_copy": 0.35, "threads": 1.6, "tracers": 1.3,
            "float": 1.5}
@@ -85,15 +84,17 @@ def _with_face_halo(faces: np.ndarray, axis: int, face_halo: int) -> np.ndarray:
 
 
 class _Sweeps:
-    """The generated sweep of one precision, called through cffi without argument checks."""
+    """The generated sweep of one precision (NAME_sweep_edges with periodic ends and a
+    workspace for `threads` threads), called through cffi without argument checks."""
 
-    def __init__(self, scheme: Scheme, precision: str, n: int, tracers: int):
+    def __init__(self, scheme: Scheme, precision: str, n: int, tracers: int, threads: int = 1):
         self.ffi, self.lib = build.compile_c(scheme, precision, OPT, openmp=True)
         self.name = scheme.name
         self.dtype = np.float32 if precision == "float" else np.float64
         self.ctype = "float[]" if precision == "float" else "double[]"
         self.n, self.tracers = n, tracers
-        extent = n + 2 * HALO
+        self.halo_cells = int(getattr(self.lib, f"{self.name}_HALO"))   # the scheme's own
+        extent = n + 2 * self.halo_cells
         rng = np.random.default_rng(0)
         self.q = rng.random((tracers, extent, extent)).astype(self.dtype)
         self.out = np.empty_like(self.q)
@@ -102,10 +103,14 @@ class _Sweeps:
                            for axis, f in enumerate(rotation_faces(n, self.dtype)))
         self.dt_dx = np.array([0.5], self.dtype)
         self.shape = self.ffi.new("size_t[]", [n, n])
-        self.halo = self.ffi.new("size_t[]", [HALO, HALO])
-        self.work = np.empty(max(1, int(getattr(self.lib, exported_symbol(self.name, "sweep_workspace_size", precision))(n))),
-                             self.dtype)
-        self.sweep = getattr(self.lib, exported_symbol(self.name, "sweep", precision))
+        self.halo = self.ffi.new("size_t[]", [self.halo_cells, self.halo_cells])
+        # one line workspace per thread, so that multi-stage sweeps use every thread too
+        line_work = int(getattr(self.lib, exported_symbol(self.name, "sweep_workspace_size",
+                                                          precision))(n))
+        self.work_reals = line_work * max(threads, 1)
+        self.work = np.empty(max(1, self.work_reals), self.dtype)
+        self.periodic = int(getattr(self.lib, f"{self.name}_EDGE_PERIODIC"))
+        self.sweep = getattr(self.lib, exported_symbol(self.name, "sweep_edges", precision))
 
     def _ptr(self, array):
         return self.ffi.from_buffer(self.ctype, array)
@@ -120,7 +125,8 @@ class _Sweeps:
         def run():
             status = self.sweep(2, self.shape, self.halo, axis, count, pointers[0], pointers[1],
                                 pointers[2], pointers[3], 0, self.ffi.NULL, self.ffi.NULL,
-                                pointers[4])
+                                self.periodic, self.periodic, self.ffi.NULL, self.ffi.NULL,
+                                pointers[4], self.work_reals)
             assert status == 0
         return run
 
@@ -136,7 +142,8 @@ def measure_sweeps(scheme: Scheme, n: int = 4096, threads: int = 2, tracers: int
                    "note": "wall-clock best of the repeats on a machine that may be shared "
                            "with other jobs: the ratios are indicative"}
     say("double precision, one thread")
-    double = _Sweeps(scheme, "double", n, max(tracers, 1))
+    double = _Sweeps(scheme, "double", n, max(tracers, 1), threads)
+    found["halo"] = double.halo_cells
     set_threads(1)
     seconds = {}
     for axis, label in ((1, "x"), (0, "y")):
@@ -202,7 +209,7 @@ def sweep_targets(seconds: dict, threads: int, tracers: int) -> list[Target]:
 
 
 def render_sweeps(found: dict) -> str:
-    lines = [f"{found['scheme']}: {found['n']} x {found['n']} array, halo {HALO}, {OPT}, "
+    lines = [f"{found['scheme']}: {found['n']} x {found['n']} array, halo {found['halo']}, {OPT}, "
              f"best of {found['repeats']} runs; {found['velocity']}",
              found["note"], "", "seconds per sweep:"]
     for key, value in found["seconds"].items():

@@ -126,3 +126,14 @@ def test_bench_dims_2_reports_every_ratio(capsys):
     assert {"generated_x", "handwritten_y", "copy", "threads_x", "tracers_one_call_y",
             "float_x"} <= set(found["seconds"])
     assert "shared" in found["note"]
+
+
+@pytest.mark.parametrize("stem", ["kappa_rk3", "lw_fct"])
+def test_bench_dims_2_runs_multi_stage_and_flux_corrected_sweeps(stem, capsys):
+    # schemes with a wider halo than the van Leer example's and a workspace per thread
+    # (a fixed halo of 2 once made the flux-corrected sweep refuse its arguments)
+    assert main(["bench", str(EXAMPLES / f"{stem}.loom"), "--dims", "2", "--size", "24",
+                 "--threads", "2", "--tracers", "2", "--json"]) == 0
+    found = json.loads(capsys.readouterr().out)
+    assert found["halo"] == load_kernel(load_scheme(EXAMPLES / f"{stem}.loom"), "c").halo
+    assert all(v > 0 for v in found["seconds"].values())

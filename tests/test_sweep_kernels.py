@@ -12,6 +12,7 @@ import numpy as np
 import pytest
 
 from fluxloom.compiler import load_scheme, scheme_from_text
+from fluxloom.compiler.emit.sweep import SWEEP_PIECE, SWEEP_RUN, SWEEP_SEGMENT
 from fluxloom.runtime.array_sweep import fill_periodic_axis
 from fluxloom.runtime.kernel import KernelError, load_kernel
 from fluxloom.runtime.sweeps import KernelSweep, LineSweep
@@ -221,26 +222,52 @@ def test_kernel_sweep_is_one_call_per_sweep():
 
 
 def test_long_lines_across_segments_and_blocks():
-    # lines longer than one segment of shared velocity parts (1024 cells) and not a
-    # multiple of the block: the C sweep against the reference line sweep bit for bit,
-    # against numpy with widths, thickness and tracers to round-off
+    # lines longer than one segment of shared velocity parts and not a multiple of the
+    # block: the C sweep against the reference line sweep bit for bit, against numpy
+    # with widths, thickness and tracers to round-off
     scheme = load_scheme(EXAMPLES / "lw_vanleer.loom")
     c_kernel, np_kernel = load_kernel(scheme, "c"), load_kernel(scheme, "numpy")
     rng = np.random.default_rng(17)
-    shape = (3, 2600)
+    cells = SWEEP_SEGMENT + 2 * 128 + 37
+    shape = (2, cells)
     q = rng.random(shape)
     u = _faces(rng, shape, 1)
     got = c_kernel.sweep(_padded(c_kernel, q, 1), u, 0.35, 1)
     assert np.array_equal(_interior(c_kernel, got, shape), LineSweep(c_kernel)(1, q, u, 0.35))
-    tracers = rng.random((3, 7, 2604))
-    d = rng.uniform(0.1, 0.4, 2602)
-    thick = rng.uniform(1, 2, (2, 7, 2604))
-    u = rng.standard_normal((7, 2601))
+    tracers = rng.random((3, 3, cells + 4))
+    d = rng.uniform(0.1, 0.4, cells + 2)
+    thick = rng.uniform(1, 2, (2, 3, cells + 4))
+    u = rng.standard_normal((3, cells + 1))
     for kw in ({}, {"h_old": thick[0], "h_new": thick[1]}):
         a = c_kernel.sweep(tracers, u, d, 1, halo=(0, 2), **kw)
         b = np_kernel.sweep(tracers, u, d, 1, halo=(0, 2), **kw)
         np.testing.assert_allclose(a, b, rtol=1e-14, atol=1e-15)
         apart = np.stack([c_kernel.sweep(np.ascontiguousarray(t), u, d, 1, halo=(0, 2), **kw)
+                          for t in tracers])
+        assert np.array_equal(a, apart)
+
+
+def test_wide_rows_across_runs_and_pieces():
+    # a strided sweep over rows wider than one run of shared Courant numbers and not a
+    # multiple of the piece: bit for bit against the reference line sweep (one line at
+    # a time), and tracers and thickness against numpy and against separate calls
+    scheme = load_scheme(EXAMPLES / "lw_vanleer.loom")
+    c_kernel, np_kernel = load_kernel(scheme, "c"), load_kernel(scheme, "numpy")
+    rng = np.random.default_rng(23)
+    width = SWEEP_RUN + SWEEP_PIECE + 11
+    shape = (9, width)
+    q = rng.random(shape)
+    u = _faces(rng, shape, 0)
+    got = c_kernel.sweep(_padded(c_kernel, q, 0), u, 0.35, 0)
+    assert np.array_equal(_interior(c_kernel, got, shape), LineSweep(c_kernel)(0, q, u, 0.35))
+    tracers = rng.random((2, 13, width))
+    d = rng.uniform(0.1, 0.4, 11)
+    thick = rng.uniform(1, 2, (2, 13, width))
+    for kw in ({}, {"h_old": thick[0], "h_new": thick[1]}):
+        a = c_kernel.sweep(tracers, u, d, 0, halo=(2, 0), **kw)
+        b = np_kernel.sweep(tracers, u, d, 0, halo=(2, 0), **kw)
+        np.testing.assert_allclose(a, b, rtol=1e-14, atol=1e-15)
+        apart = np.stack([c_kernel.sweep(np.ascontiguousarray(t), u, d, 0, halo=(2, 0), **kw)
                           for t in tracers])
         assert np.array_equal(a, apart)
 

@@ -524,7 +524,7 @@ def c_context(scheme: Scheme, precision: str = "double", verdicts=(),
         # continuation lines of the two long prototypes line up under "("
         "stage_indent": " " * len(f"void {plan.name}_stage("),
         "step_indent": " " * len(f"void {plan.name}_step("),
-        **c_sweep_context(plan, fluxes, openmp),
+        **c_sweep_context(plan, fluxes, openmp, FLUX_BLOCK),
     }
 
 

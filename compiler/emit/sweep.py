@@ -11,18 +11,18 @@ the step's values.
 """
 from __future__ import annotations
 
-SWEEP_CHUNK = 1024
-"""Neighbouring lines a strided sweep handles together (8 KiB of a double row per
-array): long runs of contiguous loads keep the hardware prefetchers streaming while
-the sweep walks down the rows (256 ran about 2x slower at 1024 x 1024)."""
-SWEEP_SEGMENT = 1024
+SWEEP_SEGMENT = 4096
 """Cells of a contiguous line whose face velocity parts (Courant numbers, frames) are
 computed once and then used by every tracer in turn (a multiple of FLUX_BLOCK)."""
 SWEEP_PIECE = 128
-"""The constant width the rest of a chunk is swept in (vectorised at -O2)."""
-SWEEP_GROUP = 8
-"""Tracers whose fluxes one pass keeps (stack arrays of fixed size: a strided sweep
-keeps 2 x SWEEP_GROUP x SWEEP_CHUNK reals of flux rows, 128 KiB in double)."""
+"""Neighbouring lines a strided sweep takes together at each face row (a constant
+width, so the loops across them vectorise at -O2). A row is taken piece after piece
+along its whole width, so every array streams row after row as it lies in memory;
+the flux of a face waits in the output cell it will finish, so no flux rows are kept.""" 
+SWEEP_RUN = 4096
+"""Neighbouring lines of a strided sweep whose Courant numbers (one face row of them)
+are computed once and kept for every tracer in turn (a multiple of SWEEP_PIECE): each
+tracer then streams a whole run of its row, not a piece of every tracer in turn."""
 
 
 def sweep_direct(plan) -> bool:
@@ -30,17 +30,24 @@ def sweep_direct(plan) -> bool:
     return plan.stages == 1 and not plan.fct
 
 
-def c_sweep_context(plan, fluxes, openmp: bool = False) -> dict:
+def sweep_stack_reals(flux_block: int) -> int:
+    """Reals a direct sweep keeps on the stack, the larger of its two paths: the
+    contiguous axis (a segment's Courant numbers and three block-sized arrays) and
+    a strided one (a run's Courant numbers, a piece of fluxes and two spare rows)."""
+    return max(SWEEP_SEGMENT + 1 + 3 * (flux_block + 1), SWEEP_RUN + 3 * SWEEP_PIECE)
+
+
+def c_sweep_context(plan, fluxes, openmp: bool = False, flux_block: int = 128) -> dict:
     """openmp: the C file requires OpenMP (`build --openmp`); without it the sweep is
     still threaded wherever the file is compiled with OpenMP."""
     flux = fluxes[0]
     return {"sweep": {
         "openmp": openmp,
         "direct": sweep_direct(plan),
-        "chunk": SWEEP_CHUNK,
         "piece": SWEEP_PIECE,
+        "run": SWEEP_RUN,
+        "stack_reals": sweep_stack_reals(flux_block),
         "segment": SWEEP_SEGMENT,
-        "group": SWEEP_GROUP,
         "flux": flux,
         "uses_c": flux.uses_c,
         "c_argument": "c[k] != 0 ? c[k] : 1" if flux.guard_c else "c[k]",
