@@ -192,11 +192,11 @@ def _extend(faces: np.ndarray, face_halo: int) -> np.ndarray:
     return np.concatenate((left, faces, right), axis=-1)
 
 
-def c_sweep_runner(ffi, lib, name: str, precision: str, edges: bool = True):
-    """The C sweep (NAME_sweep_edges) as Kernel._run_sweep(q, out, u_face, dt_dx, axis, halo,
-    h_old, h_new[, low_edge, high_edge, inflow_low, inflow_high]). edges=False: a library
-    that exports only NAME_sweep (periodic stage halos; the native Fortran target)."""
-    c_sweep = getattr(lib, exported_symbol(name, "sweep_edges" if edges else "sweep", precision))
+def c_sweep_runner(ffi, lib, name: str, precision: str):
+    """The sweep NAME_sweep_edges of a library with the C header's functions (the C kernel,
+    the native Fortran module) as Kernel._run_sweep(q, out, u_face, dt_dx, axis, halo,
+    h_old, h_new[, low_edge, high_edge, inflow_low, inflow_high])."""
+    c_sweep = getattr(lib, exported_symbol(name, "sweep_edges", precision))
     c_work = getattr(lib, exported_symbol(name, "sweep_workspace_size", precision))
     threads = getattr(lib, exported_symbol(name, "sweep_threads", precision))
     ctype = C_TYPES[precision]
@@ -220,14 +220,8 @@ def c_sweep_runner(ffi, lib, name: str, precision: str, edges: bool = True):
         arguments = (rank, ffi.new("size_t[]", shape), ffi.new("size_t[]", list(halo)),
                      axis, tracers, ptr(q), ptr(out, True), ptr(u_face), ptr(d),
                      int(per_cell), ptr(h_old), ptr(h_new))
-        if edges:
-            status = c_sweep(*arguments, low_edge, high_edge, ptr(inflow_low),
-                             ptr(inflow_high), ptr(work, True), size)
-        elif low_edge or high_edge:
-            raise KernelError(f"{name}: this target's sweep refreshes stage halos "
-                              "periodically; edges need the C kernel's NAME_sweep_edges")
-        else:
-            status = c_sweep(*arguments, ptr(work, True))
+        status = c_sweep(*arguments, low_edge, high_edge, ptr(inflow_low), ptr(inflow_high),
+                         ptr(work, True), size)
         if status != 0:
             raise KernelError(f"{name}: {name}_sweep refused its arguments (status {status})")
 

@@ -301,16 +301,22 @@ class _CFills:
 
 
 def generated_fills(scheme, backend: str, precision: str = "double"):
-    """The halo fills generated with the scheme's kernel for `backend` ('numpy' or 'c'),
-    with the injected bug of FLUXLOOM_BOUNDARY_FAULT, if any."""
+    """The halo fills generated with the scheme's kernel for `backend` ('numpy', 'c' or
+    'fortran'), with the injected bug of FLUXLOOM_BOUNDARY_FAULT, if any."""
     if backend == "numpy":
         from .kernel import numpy_module
         fills = _NumpyFills(numpy_module(scheme, precision))
-    elif backend == "c":
-        from .build import compile_c
-        ffi, lib = compile_c(scheme, precision)
+    elif backend in ("c", "fortran"):
+        # the C kernel's helpers, or the native Fortran module's under the same symbols
         from fluxloom.compiler.emit.plan import plan_kernel
+        if backend == "c":
+            from .build import compile_c
+            ffi, lib = compile_c(scheme, precision)
+        else:
+            from .kernel import shared_library
+            ffi, lib = shared_library(scheme, backend, precision)
         fills = _CFills(ffi, lib, scheme.name, precision, plan_kernel(scheme).face_halo)
+        fills.backend = backend
     else:
         raise BoundaryError(f"unknown back end '{backend}'")
     fault = injected_fault()

@@ -190,8 +190,9 @@ def load_kernel(scheme: Scheme, backend: str = "numpy", precision: str = "double
     """The scheme's kernel for one back end and precision (generated and cached on first use).
 
     opt (C only) is the optimisation flag, e.g. "-O2" or "-O3"; None keeps the build default.
-    openmp (C only): build with OpenMP where the compiler supports it, so sweeps share
-    their lines among OMP_NUM_THREADS threads (`kernel.threads()` says how many).
+    openmp (C and native Fortran): build with OpenMP where the compiler supports it, so
+    sweeps share their lines among OMP_NUM_THREADS threads (`kernel.threads()` says how
+    many).
     """
     if backend not in BACKENDS:
         raise KernelError(f"unknown back end '{backend}'; choose one of {', '.join(BACKENDS)}")
@@ -253,25 +254,40 @@ def _abi_kernel(scheme: Scheme, backend: str, precision: str, ffi, lib, *sweep) 
 def _shared_kernel(scheme: Scheme, backend: str, precision: str, opt: str | None,
                    openmp: bool = False) -> Kernel:
     """A target that builds its own shared library with the C header's functions; with
-    its sweep where the emitter says it exports one (`SWEEPS`), else `Kernel.sweep` is
-    unavailable."""
+    its sweep where the emitter says it exports one (`SWEEPS`: NAME_sweep_edges and the
+    header's SWEEP_* features, as the C kernel), else `Kernel.sweep` is unavailable.
+    openmp: built with the compiler's OpenMP flag too, where the emitter names one."""
+    from .array_sweep import c_sweep_runner
+
+    emitter = targets.target(backend).emitter()
+    sweeps = getattr(emitter, "SWEEPS", False)
+    ffi, lib = shared_library(scheme, backend, precision, openmp)
+    if not sweeps:
+        return _abi_kernel(scheme, backend, precision, ffi, lib)
+    kernel = _abi_kernel(scheme, backend, precision, ffi, lib,
+                         c_sweep_runner(ffi, lib, scheme.name, precision),
+                         bool(getattr(lib, f"{scheme.name}_SWEEP_WIDTHS")),
+                         bool(getattr(lib, f"{scheme.name}_SWEEP_THICKNESS")))
+    kernel.threads = getattr(lib, exported_symbol(scheme.name, "sweep_threads", precision))
+    return kernel
+
+
+def shared_library(scheme: Scheme, backend: str, precision: str, openmp: bool = False):
+    """(ffi, lib) of a "shared" target's library (built once, then cached): the C header's
+    declarations over it, the sweep's and halo fills' where the emitter exports them."""
     from fluxloom.compiler.emit.c import c_declarations
 
-    from .array_sweep import c_sweep_runner
     from .build import compile_shared
 
     emitter = targets.target(backend).emitter()
     (source,) = emitter.files(scheme, precision).values()
-    sweeps = getattr(emitter, "SWEEPS", False)
-    declarations = (c_declarations(scheme, precision) if sweeps
+    declarations = (c_declarations(scheme, precision) if getattr(emitter, "SWEEPS", False)
                     else step_declarations(scheme, precision))
-    ffi, lib = compile_shared(f"{scheme.name}_{backend}", source, emitter.SOURCE_SUFFIX,
-                              emitter.COMPILE, declarations)
-    if not sweeps:
-        return _abi_kernel(scheme, backend, precision, ffi, lib)
-    return _abi_kernel(scheme, backend, precision, ffi, lib,
-                       c_sweep_runner(ffi, lib, scheme.name, precision, edges=False),
-                       *emitter.sweep_features(plan_kernel(scheme)))
+    command = tuple(emitter.COMPILE)
+    if openmp and getattr(emitter, "OPENMP", None):
+        command += (emitter.OPENMP,)
+    return compile_shared(f"{scheme.name}_{backend}", source, emitter.SOURCE_SUFFIX, command,
+                          declarations)
 
 
 def step_declarations(scheme: Scheme, precision: str) -> str:

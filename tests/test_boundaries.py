@@ -11,6 +11,8 @@ import numpy as np
 import pytest
 from conftest import EXAMPLES
 
+from sweep_hosts import build_fortran_host, run
+
 from fluxloom.compiler import load_scheme
 from fluxloom.compiler.check import LONGEST_FORTRAN_SUFFIX
 from fluxloom.compiler.emit import c_files
@@ -58,10 +60,13 @@ def _padded_reference(q: np.ndarray, axis: int, halo: int, n: int, kind: str, si
 def all_fills():
     scheme = load_scheme(SCHEME)
     return {"numpy": generated_fills(scheme, "numpy"), "c": generated_fills(scheme, "c"),
-            "c float": generated_fills(scheme, "c", "float"), "runtime": RuntimeFills()}
+            "c float": generated_fills(scheme, "c", "float"), "runtime": RuntimeFills(),
+            "fortran": generated_fills(scheme, "fortran"),
+            "fortran float": generated_fills(scheme, "fortran", "float")}
 
 
-@pytest.mark.parametrize("target", ["numpy", "c", "c float", "runtime"])
+@pytest.mark.parametrize("target", ["numpy", "c", "c float", "runtime", "fortran",
+                                    "fortran float"])
 def test_copy_fills_agree_with_numpy_padding(all_fills, target):
     fills = all_fills[target]
     dtype = np.float32 if target.endswith("float") else np.float64
@@ -76,7 +81,7 @@ def test_copy_fills_agree_with_numpy_padding(all_fills, target):
                 assert np.array_equal(q, expected), (target, kind, shape, axis, halo, sides)
 
 
-@pytest.mark.parametrize("target", ["numpy", "c", "runtime"])
+@pytest.mark.parametrize("target", ["numpy", "c", "runtime", "fortran"])
 def test_inflow_agrees_with_slicing(all_fills, target):
     fills = all_fills[target]
     rng = np.random.default_rng(11)
@@ -95,7 +100,7 @@ def test_inflow_agrees_with_slicing(all_fills, target):
             assert np.array_equal(q, expected)
 
 @pytest.mark.parametrize("stem, face_halo", [("lw_fct", 2), ("upwind", 0)])
-@pytest.mark.parametrize("backend", ["numpy", "c", "runtime"])
+@pytest.mark.parametrize("backend", ["numpy", "c", "runtime", "fortran"])
 def test_wall_faces_agree_with_a_hand_built_mirror(stem, face_halo, backend):
     scheme = load_scheme(EXAMPLES / f"{stem}.loom")
     fills = RuntimeFills() if backend == "runtime" else generated_fills(scheme, backend)
@@ -120,13 +125,14 @@ def test_wall_faces_agree_with_a_hand_built_mirror(stem, face_halo, backend):
 
 
 def test_out_of_range_arguments(all_fills):
-    """C: the documented no-op; numpy and the runtime: an error saying what is wrong."""
+    """C (and the native Fortran module under C's symbols): the documented no-op; numpy
+    and the runtime: an error saying what is wrong."""
     q = np.arange(10.0)
-    c = all_fills["c"]
-    for axis, halo, side in ((1, 2, 0), (0, 5, 0), (0, 2, 2)):
-        before = q.copy()
-        c._copy("wall", q, axis, halo, side)
-        assert np.array_equal(q, before)
+    for compiled in (all_fills["c"], all_fills["fortran"]):
+        for axis, halo, side in ((1, 2, 0), (0, 5, 0), (0, 2, 2)):
+            before = q.copy()
+            compiled._copy("wall", q, axis, halo, side)
+            assert np.array_equal(q, before)
     module_fills = all_fills["numpy"]
     with pytest.raises(ValueError, match="axis must be"):
         module_fills.wall(q, 1, 2, 0)
@@ -169,16 +175,12 @@ def _halo_list(rank: int, axis: int, halo: int) -> str:
     return "(/ " + ", ".join(str(halo) if a == axis else "1" for a in range(rank)) + " /)"
 
 
-def test_fortran_module_fills_agree_with_numpy_padding(tmp_path):
+@pytest.mark.parametrize("native", [False, True], ids=["interface", "native"])
+def test_fortran_module_fills_agree_with_numpy_padding(tmp_path, native):
     """The Fortran module's procedures, natural indexing (axis 1 = the first index, arrays in
-    Fortran order), against np.pad on the same logical arrays; compiled with gfortran."""
-    gfortran = shutil.which("gfortran")
-    assert gfortran, "gfortran is required (see .ci/install)"
+    Fortran order), against np.pad on the same logical arrays; compiled with gfortran: the
+    interface module (with the C kernel) and the native module (its own helpers)."""
     scheme = load_scheme(SCHEME)
-    for file, text in c_files(scheme).items():     # the module may call the C kernel
-        (tmp_path / ("mod.f90" if file.endswith(".f90") else file)).write_text(text)
-    subprocess.run([shutil.which("gcc"), "-std=c99", "-O1", "-c", f"{scheme.name}.c"],
-                   cwd=tmp_path, check=True, capture_output=True, text=True)
     rng = np.random.default_rng(5)
     declarations, body, inputs, expected = [], [], [], []
     name = scheme.name
@@ -237,12 +239,10 @@ def test_fortran_module_fills_agree_with_numpy_padding(tmp_path):
     program = FORTRAN_DRIVER.format(name=name, declarations="".join(declarations),
                                     body="".join(body)).replace(
         "  implicit none", "  use, intrinsic :: iso_c_binding, only: c_double\n  implicit none")
-    (tmp_path / "driver.f90").write_text(program)
-    subprocess.run([gfortran, "-std=f2008", "-Wall", "-Werror", "-O1", "mod.f90", "driver.f90",
-                    f"{scheme.name}.o", "-o", "driver"], cwd=tmp_path, check=True,
-                   capture_output=True, text=True)
+    driver = build_fortran_host(tmp_path, scheme, program, native=native,
+                                flags=("-std=f2008", "-Wall", "-Werror", "-O1"))
     (tmp_path / "in.bin").write_bytes(b"".join(a.ravel(order="F").tobytes() for a in inputs))
-    subprocess.run([str(tmp_path / "driver")], cwd=tmp_path, check=True)
+    run(tmp_path, str(driver))
     data = np.frombuffer((tmp_path / "out.bin").read_bytes(), np.float64)
     offset = 0
     for want in expected:

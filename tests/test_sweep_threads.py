@@ -1,20 +1,22 @@
-"""OpenMP sweeps: the same bits for every thread count (no reduction crosses lines), and
-the same bits as the kernel built without OpenMP. The reference is the single-threaded
-build of the same C (and, through test_sweep_kernels, the reference line sweep)."""
+"""OpenMP sweeps, in C and in the native Fortran module: the same bits for every thread
+count (no reduction crosses lines), the same bits as the kernel built without OpenMP, and
+the same bits in both targets. The reference is the single-threaded build of the same
+code (and, through test_sweep_kernels and test_fortran_kernel_sweep, the reference line
+sweep, numpy and the C sweep)."""
 from __future__ import annotations
 
-import os
 import subprocess
-import sys
 
+import pytest
 from conftest import EXAMPLES
+from sweep_hosts import python_host
 
 SCRIPT = """
 import hashlib, sys
 import numpy as np
 from fluxloom.compiler import load_scheme
 from fluxloom.runtime.kernel import load_kernel
-kernel = load_kernel(load_scheme(sys.argv[1]), "c", openmp=sys.argv[2] == "1")
+kernel = load_kernel(load_scheme(sys.argv[1]), sys.argv[2], openmp=sys.argv[3] == "1")
 rng = np.random.default_rng(4)
 h, shape = kernel.halo, (300, 260)
 q = rng.random((3,) + tuple(s + 2 * h for s in shape))
@@ -30,42 +32,13 @@ for axis in (0, 1):
 print(kernel.threads(), digest.hexdigest())
 """
 
-
-def _run(threads: int, openmp: bool, stem: str = "lw_vanleer") -> tuple[str, str]:
-    env = dict(os.environ, OMP_NUM_THREADS=str(threads))
-    done = subprocess.run([sys.executable, "-c", SCRIPT, str(EXAMPLES / f"{stem}.loom"),
-                           "1" if openmp else "0"], env=env, capture_output=True, text=True,
-                          check=True)
-    used, digest = done.stdout.split()
-    return used, digest
-
-
-def test_openmp_sweeps_are_bit_identical_for_one_and_two_threads():
-    one, two, plain = _run(1, True), _run(2, True), _run(2, False)
-    assert (one[0], two[0], plain[0]) == ("1", "2", "1")   # the threads were really there
-    assert one[1] == two[1] == plain[1]
-
-
-def test_build_openmp_writes_a_kernel_that_requires_openmp(tmp_path):
-    from fluxloom.runtime.cli import main
-
-    assert main(["build", str(EXAMPLES / "upwind.loom"), "--target", "c", "--openmp",
-                 "-o", str(tmp_path)]) == 0
-    source = (tmp_path / "upwind.c").read_text()
-    assert "#error" in source and "#pragma omp parallel for" in source
-    plain = subprocess.run(["gcc", "-std=c99", "-c", "upwind.c", "-o", "plain.o"],
-                           cwd=tmp_path, capture_output=True, text=True)
-    assert plain.returncode != 0 and "--openmp" in plain.stderr
-    subprocess.run(["gcc", "-std=c99", "-fopenmp", "-c", "upwind.c"], cwd=tmp_path, check=True)
-
-
 STAGES_SCRIPT = """
 import hashlib, sys
 import numpy as np
 from fluxloom.compiler import load_scheme
 from fluxloom.runtime.boundaries import Edge
 from fluxloom.runtime.kernel import load_kernel
-kernel = load_kernel(load_scheme(sys.argv[1]), "c", openmp=sys.argv[2] == "1")
+kernel = load_kernel(load_scheme(sys.argv[1]), sys.argv[2], openmp=sys.argv[3] == "1")
 rng = np.random.default_rng(9)
 h, shape = kernel.halo, (70, 60)
 q = rng.random((2,) + tuple(s + 2 * h for s in shape))
@@ -84,17 +57,42 @@ for axis in (0, 1):
 print(kernel.threads(), digest.hexdigest())
 """
 
+RUNS = ((1, True), (2, True), (2, False))
+"""(OMP_NUM_THREADS, built with OpenMP): one thread, two threads, no OpenMP."""
 
-def test_multi_stage_and_fct_sweeps_are_bit_identical_for_one_and_two_threads():
+
+def _digests(script: str, stem: str, backend: str) -> list[list[str]]:
+    return [python_host(script, (EXAMPLES / f"{stem}.loom", backend, int(openmp)), threads)
+            for threads, openmp in RUNS]
+
+
+def test_openmp_sweeps_are_bit_identical_for_one_and_two_threads():
+    digests = set()
+    for backend in ("c", "fortran"):
+        runs = _digests(SCRIPT, "lw_vanleer", backend)
+        assert [used for used, _ in runs] == ["1", "2", "1"]   # the threads were really there
+        digests |= {digest for _, digest in runs}
+    assert len(digests) == 1                                   # and C gives the same bits
+
+
+@pytest.mark.parametrize("backend", ["c", "fortran"])
+def test_multi_stage_and_fct_sweeps_are_bit_identical_for_one_and_two_threads(backend):
     # lines shared among threads, each with its own line workspace: the same bits as one
     # thread and as the build without OpenMP, with edges and (Runge-Kutta) thicknesses
     for stem in ("vanleer_rk3", "lw_fct"):
-        runs = []
-        for threads, openmp in ((1, True), (2, True), (2, False)):
-            env = dict(os.environ, OMP_NUM_THREADS=str(threads))
-            done = subprocess.run([sys.executable, "-c", STAGES_SCRIPT,
-                                   str(EXAMPLES / f"{stem}.loom"), "1" if openmp else "0"],
-                                  env=env, capture_output=True, text=True, check=True)
-            runs.append(done.stdout.split())
+        runs = _digests(STAGES_SCRIPT, stem, backend)
         assert [used for used, _ in runs] == ["1", "2", "1"]
         assert runs[0][1] == runs[1][1] == runs[2][1]
+
+
+def test_build_openmp_writes_a_kernel_that_requires_openmp(tmp_path):
+    from fluxloom.runtime.cli import main
+
+    assert main(["build", str(EXAMPLES / "upwind.loom"), "--target", "c", "--openmp",
+                 "-o", str(tmp_path)]) == 0
+    source = (tmp_path / "upwind.c").read_text()
+    assert "#error" in source and "#pragma omp parallel for" in source
+    plain = subprocess.run(["gcc", "-std=c99", "-c", "upwind.c", "-o", "plain.o"],
+                           cwd=tmp_path, capture_output=True, text=True)
+    assert plain.returncode != 0 and "--openmp" in plain.stderr
+    subprocess.run(["gcc", "-std=c99", "-fopenmp", "-c", "upwind.c"], cwd=tmp_path, check=True)

@@ -89,18 +89,23 @@ def test_a_fortran_host_does_not_link_with_an_object_of_the_other_precision(tmp_
 @pytest.mark.parametrize("stem", ["lw_fct", "lw_vanleer", "kappa_rk3"])
 def test_the_native_fortran_target_holds_the_longest_scheme_name(tmp_path, stem):
     # one scheme per path of the module's sweep: flux-corrected, single-stage, multi-stage
+    # (edges and thicknesses through the stages); both precisions, with and without OpenMP
     name = "s" * (FORTRAN_NAME_LIMIT - len(LONGEST_FORTRAN_SUFFIX))
     text = re.sub(r"^scheme\s+\w+", f"scheme {name}",
                   (EXAMPLES / f"{stem}.loom").read_text(), flags=re.M)
     scheme = scheme_from_text(text, file="long.loom")
-    for each, standard in (("fortran", "-std=f2008"),):
-        (file_name, source), = target(each).files(scheme, "double").items()
+    for precision in ("double", "float"):
+        (file_name, source), = target("fortran").files(scheme, precision).items()
         assert max(len(line) for line in source.splitlines()) <= 132
         assert f"function {name}_sweep(" in source   # 132 columns with the sweep too
+        for suffix in ("_sweep_edges", "_halo_inflow", "_faces_wall"):
+            assert f'bind(C, name="{name}{suffix}_' in source
         (tmp_path / file_name).write_text(source)
-        done = subprocess.run([tool("gfortran"), standard, "-Wall", "-Wextra", "-Werror", "-c",
-                               file_name], cwd=tmp_path, capture_output=True, text=True)
-        assert done.returncode == 0 and not done.stderr, done.stderr
+        for openmp in ((), ("-fopenmp",)):
+            done = subprocess.run([tool("gfortran"), "-std=f2008", "-Wall", "-Wextra", "-Werror",
+                                   *openmp, "-c", file_name], cwd=tmp_path, capture_output=True,
+                                  text=True)
+            assert done.returncode == 0 and not done.stderr, done.stderr
 
 
 @pytest.mark.parametrize("precision, tag", [("double", "f64"), ("float", "f32")])

@@ -26,6 +26,8 @@ from ..constants import nearest, shortest_text
 from ..ir import Scheme
 from ..symbols import C, R, LimiterApplication, limiter_name_of, q
 from ..upwind import both_cells
+from .c import FLUX_BLOCK
+from .c import FLUX_SCRATCH as C_FLUX_SCRATCH
 from .environment import render
 from .fortran import ConstantPrinter, comment_lines, fortran_identifier
 from .limited import FLOOR_EXPONENT, LimiterFormCall
@@ -42,9 +44,12 @@ C_KINDS = {"double": "c_double", "float": "c_float"}
 COMPILE = ("gfortran", "-std=f2008", "-O2", "-fPIC", "-shared")
 """How the in-process loader builds the module (runtime/build.py: compile_shared)."""
 SOURCE_SUFFIX = ".f90"
+OPENMP = "-fopenmp"
+"""Added to COMPILE when the loader is asked for OpenMP (load_kernel(..., openmp=True));
+without it the module's !$omp lines are comments and its sweeps run on one thread."""
 SWEEPS = True
-"""The module exports NAME_sweep under the C header's symbols too (runtime/kernel.py
-loads it as Kernel.sweep)."""
+"""The module exports NAME_sweep and NAME_sweep_edges under the C header's symbols too,
+with the C sweep's features (runtime/kernel.py loads them as Kernel.sweep)."""
 FLUX_SCRATCH = Affine(cells=1, constant=1)
 """The face fluxes a stage keeps in workspace: all n + 1 of the line
 (compiler/emit/plan.py: workspace_layout)."""
@@ -375,26 +380,103 @@ def fortran_kernel_context(scheme: Scheme, precision: str = "double", verdicts=(
         "stage_buffers": buffers, "stage_calls": step_calls(plan),
         "workspace": workspace, "fct": fct,
         "helpers": sorted(printer.helpers_used),
-        "sweep": fortran_sweep_context(plan),
+        "sweep": fortran_sweep_context(plan, printer),
     }
 
 
-def fortran_sweep_context(plan) -> dict:
+def _weighted_text(printer: FortranKernelPrinter, total: StageSum, prefix: str) -> str:
+    """A stage combination applied to the mass (prefix m_) or the thickness (h_) of a
+    thickness-weighted sweep, each with its own start, state, registers and increment."""
+    def operand(name) -> str:
+        if name == EULER:
+            return f"({prefix}stage(j) - {prefix}dq)"
+        if isinstance(name, tuple):
+            kind, k = name
+            return f"{prefix}acc{k}_old" if kind == "saved" else f"{prefix}acc(j, {k + 1})"
+        return {"start": f"{prefix}start(j)", "state": f"{prefix}stage(j)"}[name]
+
+    return print_stage_sum(total, operand, printer.real_literal, f"{prefix}dq")
+
+
+def _weighted_stage(printer: FortranKernelPrinter, plan, s: int, step) -> dict:
+    """One stage of sweep_weighted_stage in the C sweep's order: saves, the mass, then
+    (not last) the thickness, the next state and the tracer, or (last) the tracer over
+    h_new; then the register writes."""
+    last = s == plan.stages - 1
+    statements = [f"{prefix}acc{k}_old = {prefix}acc(j, {k + 1})"
+                  for prefix in ("m_", "h_") for k in step.saved]
+    statements.append(f"m_value = {_weighted_text(printer, step.out, 'm_')}")
+    if last:
+        statements.append("value = m_value / h_new(j)")
+        statements.append(f"q_out(j) = {printer._print(clamp(plan.clip)) if plan.clip else 'value'}")
+    else:
+        statements += [f"h_value = {_weighted_text(printer, step.out, 'h_')}",
+                       "m_next(j) = m_value", "h_next(j) = h_value", "q_out(j) = m_value / h_value"]
+    statements += [f"{prefix}acc(j, {k + 1}) = {_weighted_text(printer, c, prefix)}"
+                   for prefix in ("m_", "h_") for k, c in step.writes]
+    return {"index": s, "lines": tuple(line for statement in statements
+                                       for line in printer.wrap(statement))}
+
+
+def _weighted_calls(plan) -> list[dict]:
+    """sweep_stages' calls of sweep_weighted_stage: the whole step's stage arrays (q) and
+    the mass and thickness arrays beside them; the last stage, which writes no next
+    mass or thickness, is handed the pair its state does not use."""
+    pairs = {"q_in": ("m_start", "h_line(1:n)"), "stage_a": ("m_a", "h_a"),
+             "stage_b": ("m_b", "h_b")}
+    calls = []
+    for call in step_calls(plan):
+        m_state, h_state = pairs[call.source]
+        spare = "stage_b" if call.source == "stage_a" else "stage_a"
+        m_next, h_next = pairs[call.target if call.refresh else spare]
+        calls.append({"stage": call.stage, "source": call.source, "target": call.target,
+                      "refresh": call.refresh, "m_state": m_state, "h_state": h_state,
+                      "m_next": m_next, "h_next": h_next})
+    return calls
+
+
+def _sweep_work(plan, printer: FortranKernelPrinter) -> tuple[str, ...]:
+    """NAME_sweep_workspace_size as the C sweep counts it (compiler/emit/templates/
+    c_sweep.c.j2; tests hold the two equal), so one array serves both: the line and its
+    result, its faces, dt/dx and thicknesses, the inflow values, then the larger of the C
+    step's workspace and the stages' own arrays (thickness weighted: mass and thickness of
+    two stages and their registers). The stages' part holds this module's step workspace
+    (n + 1 fluxes, the registers, two stage lines), which the sweep hands its step."""
+    registers = plan.registers
+    step = print_affine(workspace_layout(plan, C_FLUX_SCRATCH).size, "n", "nh", str(FLUX_BLOCK))
+    stages = ("0_c_size_t" if plan.fct else
+              f"2 * (n + 2 * nh) + 2 * (n + 1) + n + 2 + {registers} * n"
+              f" + (5 + 2 * {registers}) * n")
+    return printer.wrap(f"reals = 2 * (n + 2 * nh) + n + 1 + 2 * nfh + 3 * n + 4 + 2 * nh"
+                        f" + max(int({step}, c_size_t), {stages})")
+
+
+def fortran_sweep_context(plan, printer: FortranKernelPrinter) -> dict:
     """What fortran_kernel_sweep.f90.j2 needs beyond the kernel's context: the C sweep's
-    choice of path (compiler/emit/sweep.py) and its workspace count."""
-    return {"direct": sweep_direct(plan), "uses_c": plan.flux.uses_c,
+    choice of path (compiler/emit/sweep.py), its workspace count and, for multi-stage
+    schemes, the thickness-weighted stages. `edges`: the path whose intermediate stages
+    read the ends (multi-stage without flux correction); the argument lists the sweep's
+    inner procedures pass along differ by path."""
+    direct = sweep_direct(plan)
+    edges = not direct and not plan.fct
+    if direct:
+        lines = call = ("thick, h_old, h_new", "thick, thick_old, thick_new")
+        line, line_work = "thick, h_old, h_new", ""
+    elif plan.fct:
+        lines = call = ("work, reals", "work, reals")
+        line, line_work = "", "work"
+    else:
+        lines = ("thick, h_old, h_new, kinds, inflow_low, inflow_high, work, reals",
+                 "thick, thick_old, thick_new, kinds, values_low, values_high, work, reals")
+        line, line_work = "thick, h_old, h_new, kinds, inflow_low, inflow_high, ", "work"
+    weighted = ([_weighted_stage(printer, plan, s, step) for s, step in enumerate(stage_steps(plan))]
+                if edges else [])
+    return {"direct": direct, "edges": edges, "uses_c": plan.flux.uses_c,
             "stage_buffers": stage_buffers(plan),
-            "stage_reals": (f"2 * (n + 2 * nh) + 2 * (n + 1)"
-                            + (f" + {plan.registers} * n" if plan.registers else ""))
-            if not plan.fct else "0_c_size_t"}
-
-
-def sweep_features(plan) -> tuple[bool, bool]:
-    """(per-cell dt/dx, thickness weighting) this module's NAME_sweep takes. Thicknesses
-    only where the scheme sweeps directly (one stage, no FCT): unlike the C sweep, the
-    module does not yet carry them through Runge-Kutta stages, so the C header's
-    SWEEP_THICKNESS does not describe it (runtime/kernel.py asks this instead)."""
-    return not plan.fct, sweep_direct(plan)
+            "work": () if direct else _sweep_work(plan, printer),
+            "lines_arguments": lines[0], "lines_call": lines[1],
+            "line_arguments": line, "line_work": line_work,
+            "weighted_stages": weighted, "weighted_calls": _weighted_calls(plan) if edges else []}
 
 
 def files(scheme: Scheme, precision: str = "double", verdicts=()) -> dict[str, str]:
