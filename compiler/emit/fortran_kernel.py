@@ -36,7 +36,7 @@ from .fct_plan import CELLS, FluxStep, element_of
 from .plan import (C_FUNCTIONS, EULER, FLUX_REGION, REGISTERS, STAGE_BUFFERS, FaceProgram,
                    StageSum, banner_lines, clamp, exported_symbols, plan_kernel,
                    print_stage_sum, stage_buffers, stage_steps, step_calls, workspace_layout)
-from .sweep import sweep_direct
+from .sweep import SWEEP_LINES, sweep_direct
 from .workspace import Affine, print_affine
 
 KINDS = {"double": "real64", "float": "real32"}
@@ -437,8 +437,10 @@ def _weighted_calls(plan) -> list[dict]:
 
 def _sweep_work(plan, printer: FortranKernelPrinter) -> tuple[str, ...]:
     """NAME_sweep_workspace_size as the C sweep counts it (compiler/emit/templates/
-    c_sweep.c.j2; tests hold the two equal), so one array serves both: the line and its
-    result, its faces, dt/dx and thicknesses, the inflow values, then the larger of the C
+    c_sweep.c.j2; tests hold the two equal), so one array serves both: SWEEP_LINES lines
+    (C copies that many neighbours of a strided axis together; this module takes one at
+    a time) with their results, faces and thicknesses, a line's dt/dx, the inflow values,
+    then the larger of the C
     step's workspace and the stages' own arrays (thickness weighted: mass and thickness of
     two stages and their registers). The stages' part holds this module's step workspace
     (n + 1 fluxes, the registers, two stage lines), which the sweep hands its step."""
@@ -447,8 +449,8 @@ def _sweep_work(plan, printer: FortranKernelPrinter) -> tuple[str, ...]:
     stages = ("0_c_size_t" if plan.fct else
               f"2 * (n + 2 * nh) + 2 * (n + 1) + n + 2 + {registers} * n"
               f" + (5 + 2 * {registers}) * n")
-    return printer.wrap(f"reals = 2 * (n + 2 * nh) + n + 1 + 2 * nfh + 3 * n + 4 + 2 * nh"
-                        f" + max(int({step}, c_size_t), {stages})")
+    return printer.wrap(f"reals = {SWEEP_LINES} * (2 * (n + 2 * nh) + n + 1 + 2 * nfh + 2 * n + 2)"
+                        f" + n + 2 + 2 * nh + max(int({step}, c_size_t), {stages})")
 
 
 def fortran_sweep_context(plan, printer: FortranKernelPrinter) -> dict:
