@@ -71,3 +71,17 @@ void stream_copy_2d(size_t count, const double *restrict source, double *restric
         target[i] = source[i];
     }
 }
+
+/* A streaming kernel with a sweep's traffic (two arrays read, one written), shared among
+ * OpenMP threads when built with OpenMP: the machine's own thread scaling for memory. */
+void stream_triad_2d(size_t count, const double *restrict first, const double *restrict second,
+                     double *restrict target)
+{
+    const ptrdiff_t cells = (ptrdiff_t)count;
+#if defined(_OPENMP)
+#pragma omp parallel for schedule(static)
+#endif
+    for (ptrdiff_t i = 0; i < cells; ++i) {
+        target[i] = first[i] + 0.5 * second[i];
+    }
+}

@@ -52,7 +52,8 @@ def _handwritten():
     source = folder.joinpath("handwritten_sweep.c").read_text(encoding="utf-8")
     source = source.replace('#include "handwritten_sweep.h"', header, 1)
     declarations = header.replace("#include <stddef.h>\n", "").replace("restrict ", "")
-    return build.compile_source("handwritten_sweep", source, declarations, OPT)
+    return build.compile_source("handwritten_sweep", source, declarations,
+                                f"{OPT} {build.OPENMP_FLAG}")
 
 
 def best_seconds(call, repeats: int) -> float:
@@ -148,27 +149,30 @@ def measure_sweeps(scheme: Scheme, n: int = 4096, threads: int = 2, tracers: int
     seconds = {}
     for axis, label in ((1, "x"), (0, "y")):
         seconds[f"generated_{label}"] = best_seconds(double.call(axis, 1), repeats)
+    ffi, lib = _handwritten()
+    q, out = double.q[0], double.out[0]
+    ptr = lambda a: ffi.from_buffer("double[]", a)    # noqa: E731
+    qp, op = ptr(q), ptr(out)
     hand = counterpart(scheme)
     if hand is not None and hand.name == "lw_vanleer":
         say("hand-written sweeps")
-        ffi, lib = _handwritten()
-        q, out = double.q[0], double.out[0]
-        flux = np.empty(n + 1)
-        ptr = lambda a: ffi.from_buffer("double[]", a)    # noqa: E731
-        qp, op, fp = ptr(q), ptr(out), ptr(flux)
+        fp = ptr(np.empty(n + 1))
         u_y, u_x = (ptr(f) for f in double.faces)
         seconds["handwritten_x"] = best_seconds(
             lambda: lib.hand_sweep_x(n, n, qp, op, u_x, 0.5, fp), repeats)
         seconds["handwritten_y"] = best_seconds(
             lambda: lib.hand_sweep_y(n, n, qp, op, u_y, 0.5, fp), repeats)
-        seconds["copy"] = best_seconds(lambda: lib.stream_copy_2d(q.size, qp, op), repeats)
-    else:
-        q, out = double.q[0], double.out[0]
-        seconds["copy"] = best_seconds(lambda: np.copyto(out, q), repeats)
+    seconds["copy"] = best_seconds(lambda: lib.stream_copy_2d(q.size, qp, op), repeats)
+    # the memory's own scaling, for reading the threads ratio: two reads and a write
+    second = ptr(double.q[1] if len(double.q) > 1 else np.ones_like(q))
+    seconds["stream_triad"] = best_seconds(
+        lambda: lib.stream_triad_2d(q.size, qp, second, op), repeats)
     say(f"{threads} threads")
     set_threads(threads)
     for axis, label in ((1, "x"), (0, "y")):
         seconds[f"threads_{label}"] = best_seconds(double.call(axis, 1), repeats)
+    seconds["stream_triad_threads"] = best_seconds(
+        lambda: lib.stream_triad_2d(q.size, qp, second, op), repeats)
     set_threads(1)
     say(f"{tracers} tracers in one call and in {tracers} calls")
     for axis, label in ((1, "x"), (0, "y")):
@@ -183,7 +187,9 @@ def measure_sweeps(scheme: Scheme, n: int = 4096, threads: int = 2, tracers: int
     del single
     found["seconds"] = seconds
     found["cell_updates_per_second"] = {k: cells * (tracers if k.startswith("tracers") else 1) / v
-                                        for k, v in seconds.items() if k != "copy"}
+                                        for k, v in seconds.items()
+                                        if k != "copy" and not k.startswith("stream_")}
+    found["memory_threads"] = seconds["stream_triad"] / seconds["stream_triad_threads"]
     found["targets"] = [t.__dict__ | {"met": t.met} for t in sweep_targets(seconds, threads,
                                                                              tracers)]
     return found
@@ -219,4 +225,7 @@ def render_sweeps(found: dict) -> str:
         verdict = {True: "met   ", False: "MISSED", None: "n/a   "}[t["met"]]
         value = "   n/a" if t["value"] is None else f"{t['value']:6.2f}"
         lines.append(f"  {verdict} {value} >= {t['target']:4.2f}  {t['what']}")
+    lines += ["", f"for reading the threads ratios: a streaming loop with a sweep's traffic (two "
+              f"arrays read, one written) runs {found['memory_threads']:.2f}x as fast on "
+              f"{found['threads']} threads as on one here (stream_triad)"]
     return "\n".join(lines) + "\n"

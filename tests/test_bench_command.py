@@ -126,6 +126,7 @@ def test_bench_dims_2_reports_every_ratio(capsys):
     assert {"generated_x", "handwritten_y", "copy", "threads_x", "tracers_one_call_y",
             "float_x"} <= set(found["seconds"])
     assert "shared" in found["note"]
+    assert found["memory_threads"] > 0 and found["seconds"]["stream_triad"] > 0
 
 
 @pytest.mark.parametrize("stem", ["kappa_rk3", "lw_fct"])
