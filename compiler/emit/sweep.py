@@ -29,11 +29,12 @@ def sweep_direct(plan) -> bool:
     """True when the scheme sweeps with its own loops (widths, thickness, threads)."""
     return plan.stages == 1 and not plan.fct
 
-SWEEP_LINES = 8
+SWEEP_LINES = 16
 """Neighbouring lines a multi-stage or flux-corrected sweep along a strided axis copies
 into its workspace together: each row's cells are read and written SWEEP_LINES at a
-time (a cache line of doubles) instead of one real per cache line; the workspace holds
-that many lines."""
+time (two cache lines of doubles) instead of one real per cache line; the workspace
+holds that many lines. kappa_rk3's y sweep of a 4096^2 array took 0.25 s with 8, 0.18 s
+with 16 and 0.19 s with 32 (0.08 s along x)."""
 
 
 def sweep_stack_reals(flux_block: int) -> int:
