@@ -211,7 +211,6 @@ def _python_kernel(scheme: Scheme, backend: str, precision: str, opt: str | None
 
 def _cffi_kernel(scheme: Scheme, backend: str, precision: str, opt: str | None,
                  openmp: bool = False) -> Kernel:
-    from .array_sweep import c_sweep_runner
     from .build import compile_c, openmp_supported
 
     if openmp and not openmp_supported():
@@ -221,6 +220,14 @@ def _cffi_kernel(scheme: Scheme, backend: str, precision: str, opt: str | None,
         openmp = False
     flags = {} if opt is None else {"opt": opt}
     ffi, lib = compile_c(scheme, precision, openmp=openmp, **flags)
+    return _sweeping_kernel(scheme, backend, precision, ffi, lib)
+
+
+def _sweeping_kernel(scheme: Scheme, backend: str, precision: str, ffi, lib) -> Kernel:
+    """A Kernel over a library exporting the C header's functions with its sweep
+    (NAME_sweep_edges, the SWEEP_* features and NAME_sweep_threads)."""
+    from .array_sweep import c_sweep_runner
+
     kernel = _abi_kernel(scheme, backend, precision, ffi, lib,
                          c_sweep_runner(ffi, lib, scheme.name, precision),
                          bool(getattr(lib, f"{scheme.name}_SWEEP_WIDTHS")),
@@ -257,19 +264,12 @@ def _shared_kernel(scheme: Scheme, backend: str, precision: str, opt: str | None
     its sweep where the emitter says it exports one (`SWEEPS`: NAME_sweep_edges and the
     header's SWEEP_* features, as the C kernel), else `Kernel.sweep` is unavailable.
     openmp: built with the compiler's OpenMP flag too, where the emitter names one."""
-    from .array_sweep import c_sweep_runner
-
     emitter = targets.target(backend).emitter()
     sweeps = getattr(emitter, "SWEEPS", False)
     ffi, lib = shared_library(scheme, backend, precision, openmp)
     if not sweeps:
         return _abi_kernel(scheme, backend, precision, ffi, lib)
-    kernel = _abi_kernel(scheme, backend, precision, ffi, lib,
-                         c_sweep_runner(ffi, lib, scheme.name, precision),
-                         bool(getattr(lib, f"{scheme.name}_SWEEP_WIDTHS")),
-                         bool(getattr(lib, f"{scheme.name}_SWEEP_THICKNESS")))
-    kernel.threads = getattr(lib, exported_symbol(scheme.name, "sweep_threads", precision))
-    return kernel
+    return _sweeping_kernel(scheme, backend, precision, ffi, lib)
 
 
 def shared_library(scheme: Scheme, backend: str, precision: str, openmp: bool = False):

@@ -209,9 +209,12 @@ def test_2d_basin_c_host_with_ssp_rk3_matches_a_numpy_rebuild(hosts):
     assert np.max(np.abs(got["field"] - basin_2d_reference(steps, "vanleer_rk3"))) < 1e-12
 
 
-def test_2d_basin_fortran_host_agrees_with_the_c_host(hosts):
+@pytest.mark.parametrize("fortran_host", ["tidal_basin_2d_f", "tidal_basin_2d_native"])
+def test_2d_basin_fortran_host_agrees_with_the_c_host(hosts, fortran_host):
+    # tidal_basin_2d_f through tidewater_mod; tidal_basin_2d_native the same program with
+    # only its use line switched to the native kernel module (gfortran alone)
     c = run_basin_2d(hosts / "tidal_basin_2d")
-    fortran = run_basin_2d(hosts / "tidal_basin_2d_f")
+    fortran = run_basin_2d(hosts / fortran_host)
     assert c["steps"] == fortran["steps"] == 400
     assert np.max(np.abs(c["field"] - fortran["field"])) < 1e-12
     for t in range(3):
@@ -221,15 +224,6 @@ def test_2d_basin_fortran_host_agrees_with_the_c_host(hosts):
     assert 19.5 < c["min0"] and c["max0"] < 35.5 and c["mass0_final"] > c["mass0_initial"]
 
 
-def test_2d_basin_fortran_host_on_the_native_module_agrees(hosts):
-    # the Makefile's tidal_basin_2d_native: the Fortran host with only its use line
-    # switched to the native kernel module (gfortran alone), against the C host
-    native = run_basin_2d(hosts / "tidal_basin_2d_native")
-    c = run_basin_2d(hosts / "tidal_basin_2d")
-    assert native["steps"] == c["steps"] == 400
-    assert np.max(np.abs(native["field"] - c["field"])) < 1e-12
-    for t in range(3):
-        assert native[f"mass{t}_final"] == pytest.approx(c[f"mass{t}_final"], rel=1e-13)
 def test_native_fortran_host_agrees_with_the_c_host(hosts):
     """The host built with gfortran alone (native Fortran kernel) against the C host."""
     native = run_host(hosts / "tidal_basin_native")
