@@ -246,10 +246,10 @@ class _CFills:
     """The C helpers through cffi; q's halo along `axis` is the given one, the other axes
     are passed as interior cells without ghosts (every line is filled either way)."""
 
-    backend = "c"
-
-    def __init__(self, ffi, lib, name: str, precision: str, face_halo: int):
+    def __init__(self, ffi, lib, name: str, precision: str, face_halo: int,
+                 backend: str = "c"):
         self.ffi, self.lib, self.name, self.face_halo = ffi, lib, name, face_halo
+        self.backend = backend
         self.precision = precision
         self.ctype = "double[]" if precision == "double" else "float[]"
         self.dtype = np.dtype(np.float64 if precision == "double" else np.float32)
@@ -309,14 +309,11 @@ def generated_fills(scheme, backend: str, precision: str = "double"):
     elif backend in ("c", "fortran"):
         # the C kernel's helpers, or the native Fortran module's under the same symbols
         from fluxloom.compiler.emit.plan import plan_kernel
-        if backend == "c":
-            from .build import compile_c
-            ffi, lib = compile_c(scheme, precision)
-        else:
-            from .kernel import shared_library
-            ffi, lib = shared_library(scheme, backend, precision)
-        fills = _CFills(ffi, lib, scheme.name, precision, plan_kernel(scheme).face_halo)
-        fills.backend = backend
+
+        from .kernel import header_library
+        ffi, lib = header_library(scheme, backend, precision)
+        fills = _CFills(ffi, lib, scheme.name, precision, plan_kernel(scheme).face_halo,
+                        backend)
     else:
         raise BoundaryError(f"unknown back end '{backend}'")
     fault = injected_fault()

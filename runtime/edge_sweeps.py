@@ -37,12 +37,8 @@ class EdgeSweep:
             module = numpy_module(scheme, precision)
             self._stage, self._workspace = module.stage, module.workspace_size
         else:   # the compiled target's own NAME_stage (C, or the native Fortran module's)
-            if backend == "c":
-                from .build import compile_c
-                ffi, lib = compile_c(scheme, precision)
-            else:
-                from .kernel import shared_library
-                ffi, lib = shared_library(scheme, backend, precision)
+            from .kernel import header_library
+            ffi, lib = header_library(scheme, backend, precision)
             c_stage = getattr(lib, exported_symbol(scheme.name, "stage", precision))
             ctype = "double[]" if precision == "double" else "float[]"
             self._workspace = getattr(lib, exported_symbol(scheme.name, "workspace_size", precision))

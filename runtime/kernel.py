@@ -272,6 +272,15 @@ def _shared_kernel(scheme: Scheme, backend: str, precision: str, opt: str | None
     return _sweeping_kernel(scheme, backend, precision, ffi, lib)
 
 
+def header_library(scheme: Scheme, backend: str, precision: str):
+    """(ffi, lib) of a compiled target exporting the C header's functions: the C kernel,
+    or a shared target's library (the native Fortran module)."""
+    if backend == "c":
+        from .build import compile_c
+        return compile_c(scheme, precision)
+    return shared_library(scheme, backend, precision)
+
+
 def shared_library(scheme: Scheme, backend: str, precision: str, openmp: bool = False):
     """(ffi, lib) of a "shared" target's library (built once, then cached): the C header's
     declarations over it, the sweep's and halo fills' where the emitter exports them."""
